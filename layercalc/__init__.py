@@ -1,0 +1,1 @@
+"""layercalc: column diagnostics by layers."""

@@ -1,0 +1,1 @@
+"""Pure numpy physics functions: humidity, hypsometric, kinematic, winds."""
