@@ -1,0 +1,193 @@
+"""The Python API: load a sheet, evaluate it, read the results."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TYPE_CHECKING, Iterable, Mapping
+
+import numpy as np
+
+from .errors import LayercalcError, Notice
+from .source import Source, read_source
+from .typed import COLUMN
+
+if TYPE_CHECKING:  # pragma: no cover
+    import pandas
+
+CAUTION = ("Diagnostic estimates for checking and training, not forecasts or warnings; "
+           "defer to the official forecast service and local procedures.")
+
+
+def loads(text: str, name: str = "<string>") -> "Sheet":
+    """A sheet from `.layers` text. Raises LayercalcError (with position) if it is invalid."""
+    return Sheet(_compile(Source(name, text)))
+
+
+def load(path: str | Path) -> "Sheet":
+    """A sheet from a `.layers` file or an `.xlsx` workbook."""
+    path = Path(path)
+    if path.suffix.lower() in (".xlsx", ".xlsm"):
+        from .xlsx_import import read_workbook
+
+        return loads(read_workbook(path), name=str(path))
+    return Sheet(_compile(read_source(path)))
+
+
+def _compile(source: Source):
+    from .build import build_document
+    from .check import check_document
+    from .parser import parse
+
+    return check_document(build_document(source, parse(source)))
+
+
+def problems(path_or_text: str | Path, *, is_text: bool = False) -> list[LayercalcError]:
+    """Every problem found in a file (or text), without raising: for `layercalc check`."""
+    from .check import CheckFailed
+
+    try:
+        if is_text:
+            loads(str(path_or_text))
+        else:
+            load(path_or_text)
+    except CheckFailed as exc:
+        return list(exc.problems)
+    except LayercalcError as exc:
+        return [exc]
+    return []
+
+
+class Sheet:
+    """A checked column sheet. Evaluate it (for a scenario, or over a sweep) to get results."""
+
+    def __init__(self, checked) -> None:
+        self.checked = checked
+
+    @property
+    def title(self) -> str:
+        return self.checked.title
+
+    @property
+    def notes(self) -> list[str]:
+        return list(self.checked.notes)
+
+    @property
+    def scenarios(self) -> list[str]:
+        return list(self.checked.scenarios)
+
+    @property
+    def options(self) -> dict[str, str]:
+        return dict(self.checked.options)
+
+    def check(self) -> list[Notice]:
+        """Warnings found while checking (errors raise when the sheet is loaded)."""
+        return list(self.checked.notices)
+
+    def evaluate(self, scenario: str | None = None) -> "Result":
+        """Results for the base sheet or one named scenario."""
+        from .evaluate import evaluate
+
+        if scenario in (None, "base"):
+            return Result(evaluate(self.checked), 0, "base")
+        from .scenarios import scenario_inputs
+
+        checked, columns, cells = scenario_inputs(self.checked, scenario)
+        return Result(evaluate(checked, columns, cells), 0, scenario)
+
+    def evaluate_many(self, cell_values: Mapping[str, np.ndarray],
+                      scenario: str | None = None):
+        """One vectorised pass over many variants: each entry of `cell_values` is an array of
+        SI values, one per variant, for an input cell. Returns the raw Evaluation."""
+        from .scenarios import sweep_evaluation
+
+        return sweep_evaluation(self.checked, dict(cell_values), scenario)
+
+    def compare(self, scenarios: Iterable[str] | None = None) -> "pandas.DataFrame":
+        """A tidy table of key results per scenario with the difference from the base."""
+        from .compare import compare
+
+        return compare(self, list(scenarios) if scenarios is not None else None)
+
+    def to_xlsx(self, path: str | Path) -> None:
+        from .xlsx_export import write_workbook
+
+        write_workbook(self, path)
+
+
+@dataclass
+class Result:
+    """Results for one variant. `layers`: a DataFrame, surface layer first, in each column's
+    unit (`units`); `cells`: name -> value in its unit; `si_layers` / `si_cells` in SI."""
+
+    evaluation: object
+    index: int
+    scenario: str
+    _frames: dict = field(default_factory=dict, repr=False)
+
+    @property
+    def sheet(self):
+        return self.evaluation.sheet
+
+    @property
+    def units(self) -> dict[str, str]:
+        sheet = self.sheet
+        units = {name: sheet.unit_of(name, "cell").text for name in sheet.cell_names}
+        units.update({name: sheet.unit_of(name, "column").text for name in sheet.column_names})
+        return units
+
+    @property
+    def cell_units(self) -> dict[str, str]:
+        sheet = self.sheet
+        return {name: sheet.unit_of(name, "cell").text for name in sheet.cell_names}
+
+    def _pick(self, array: np.ndarray) -> np.ndarray:
+        return array[min(self.index, array.shape[0] - 1)]
+
+    @property
+    def si_columns(self) -> dict[str, np.ndarray]:
+        return {name: np.array(self._pick(a), dtype=float)
+                for name, a in self.evaluation.columns.items()}
+
+    @property
+    def si_cells(self) -> dict[str, float]:
+        return {name: float(self._pick(a)[0]) for name, a in self.evaluation.cells.items()}
+
+    @property
+    def layers(self) -> "pandas.DataFrame":
+        if "display" not in self._frames:
+            self._frames["display"] = self._frame(si=False)
+        return self._frames["display"]
+
+    @property
+    def si_layers(self) -> "pandas.DataFrame":
+        if "si" not in self._frames:
+            self._frames["si"] = self._frame(si=True)
+        return self._frames["si"]
+
+    def _frame(self, si: bool):
+        import pandas as pd
+
+        sheet = self.sheet
+        data = {}
+        for name in sheet.column_names:
+            values = self.si_columns[name]
+            data[name] = values if si else sheet.unit_of(name, "column").from_si(values)
+        frame = pd.DataFrame(data)
+        frame.attrs["units"] = {n: ("SI" if si else sheet.unit_of(n, "column").text)
+                                for n in data}
+        return frame
+
+    @property
+    def cells(self) -> dict[str, float]:
+        sheet = self.sheet
+        return {name: float(sheet.unit_of(name, "cell").from_si(value))
+                for name, value in self.si_cells.items()}
+
+    @property
+    def summary(self) -> dict:
+        """Diagnostics that are not single formulas: levels of non-divergence, standard
+        thicknesses and heights (SI)."""
+        from .summary import summarise
+
+        return summarise(self)

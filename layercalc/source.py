@@ -1,0 +1,103 @@
+"""Source text and positions: where every user-facing message points."""
+
+from __future__ import annotations
+
+import bisect
+from dataclasses import dataclass, field
+from pathlib import Path
+
+
+@dataclass(frozen=True)
+class Source:
+    """A named piece of text: a file, a string passed to `loads`, or a workbook."""
+
+    name: str
+    text: str
+    _line_starts: tuple[int, ...] = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        starts = [0]
+        starts.extend(i + 1 for i, ch in enumerate(self.text) if ch == "\n")
+        object.__setattr__(self, "_line_starts", tuple(starts))
+
+    def line_col(self, offset: int) -> tuple[int, int]:
+        """1-based line and column of a character offset."""
+        offset = max(0, min(offset, len(self.text)))
+        line = bisect.bisect_right(self._line_starts, offset) - 1
+        return line + 1, offset - self._line_starts[line] + 1
+
+    def line_text(self, line: int) -> str:
+        start = self._line_starts[line - 1]
+        end = self.text.find("\n", start)
+        return self.text[start:] if end < 0 else self.text[start:end]
+
+    def offset(self, line: int, column: int) -> int:
+        """Character offset of a 1-based line and column."""
+        line = max(1, min(line, len(self._line_starts)))
+        return self._line_starts[line - 1] + column - 1
+
+
+def read_source(path: str | Path) -> Source:
+    """Read a `.layers` file as UTF-8; a file that is not text is our error, not a traceback."""
+    from .errors import InputError
+
+    path = Path(path)
+    try:
+        data = path.read_bytes()
+    except FileNotFoundError:
+        raise InputError(f"no such file: {path}", hint="check the path and the file name") from None
+    except IsADirectoryError:
+        raise InputError(f"{path} is a folder, not a file") from None
+    except OSError as exc:
+        raise InputError(f"cannot read {path}: {exc.strerror}") from None
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data.count(b"\n", 0, exc.start) + 1
+        column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+        raise InputError(
+            f"{path}:{line}:{column}: the file is not UTF-8 text (byte 0x{data[exc.start]:02x})",
+            hint="save the file as UTF-8 (plain text) and try again",
+        ) from None
+    return Source(str(path), text.replace("\r\n", "\n").replace("\r", "\n"))
+
+
+@dataclass(frozen=True)
+class Span:
+    """A stretch of a source, by character offsets [start, end)."""
+
+    source: Source = field(repr=False)
+    start: int
+    end: int
+
+    @property
+    def line(self) -> int:
+        return self.source.line_col(self.start)[0]
+
+    @property
+    def column(self) -> int:
+        return self.source.line_col(self.start)[1]
+
+    def location(self) -> str:
+        return f"{self.source.name}:{self.line}:{self.column}"
+
+    def excerpt(self, max_width: int = 100) -> str:
+        """The line with a caret under the span, as in the error examples of the README."""
+        line, column = self.line, self.column
+        text = self.source.line_text(line)
+        end_line, end_col = self.source.line_col(max(self.start, self.end - 1))
+        width = (end_col - column + 1) if end_line == line else len(text) - column + 1
+        width = max(1, width)
+        start = 0
+        if len(text) > max_width:  # very long lines: show a window around the caret
+            start = max(0, column - 1 - max_width // 2)
+            text = text[start:start + max_width]
+        pad = " " * len(str(line))
+        caret_pad = " " * (column - 1 - start)
+        width = max(1, min(width, len(text) - (column - 1 - start)))
+        return f"{line:>{len(pad)}} | {text}\n{pad} | {caret_pad}{'^' * width}"
+
+    def join(self, other: "Span | None") -> "Span":
+        if other is None:
+            return self
+        return Span(self.source, min(self.start, other.start), max(self.end, other.end))
