@@ -139,8 +139,11 @@ def parse_unit_string(text: str, where: str = "<unit>") -> U.Unit:
 
 # ---------------------------------------------------------------- the checker
 class _Checker:
-    def __init__(self, document: Document) -> None:
+    def __init__(self, document: Document, option_overrides: dict | None = None,
+                 with_scenarios: bool = True) -> None:
         self.document = document
+        self.option_overrides = option_overrides or {}
+        self.with_scenarios = with_scenarios
         self.source = document.source
         self.problems: list[LayercalcError] = []
         self.notices: list[Notice] = []
@@ -169,6 +172,7 @@ class _Checker:
                 stations.append(st)
         for key, value in OPTION_DEFAULTS.items():
             options.setdefault(key, value)
+        options.update(self.option_overrides)
         if options["integrate"] == "from_top" and options["adjust"] != "none":
             self.fail(DefinitionError(
                 f"'adjust = {options['adjust']}' needs 'integrate = from_surface'",
@@ -180,7 +184,7 @@ class _Checker:
         sheet = self.formulas(definitions, columns, n_layers, options)
         sheet.title, sheet.notes, sheet.rows_given_top_first = title, notes, top_first
         sheet.document = self.document
-        if scenarios:
+        if scenarios and self.with_scenarios:
             from .scenarios import check_scenarios
 
             try:
