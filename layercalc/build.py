@@ -144,7 +144,7 @@ class _Builder:
     def change(self, tree) -> Change:
         c = tree.children
         action = str(tree.data).removesuffix("_change")
-        if action == "scale":
+        if action in ("scale", "set"):
             target, amount = c[0], c[1]
         else:
             amount, target = c[0], c[1]

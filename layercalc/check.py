@@ -65,6 +65,7 @@ class CheckedSheet:
     prelude_text: str = ""
     scenarios: dict = field(default_factory=dict)
     document: Document | None = None
+    soundings: object = None  # details of layers built from levels/stations (soundings.py)
 
     def unit_of(self, name: str, kind: str | None = None) -> U.Unit:
         """The display unit of a column or cell (columns first when `kind` is not given)."""
@@ -89,17 +90,11 @@ class CheckedSheet:
         return [*self.input_cells, *(f.name for f in self.formulas if f.kind == CELL)]
 
 
-class CheckFailed(LayercalcError):
-    """Several problems at once; formats them all. `problems` holds each one."""
-
-    def __init__(self, problems: list[LayercalcError]) -> None:
-        first = problems[0]
-        super().__init__(first.message, first.span, first.hint, location=first.location)
-        self.kind = first.kind
-        self.problems = problems
-
-    def format(self) -> str:
-        return "\n".join(p.format() for p in self.problems)
+def _first_of(problems: list[LayercalcError]) -> LayercalcError:
+    """The first problem, carrying all of them in `.problems` (for `layercalc check`)."""
+    first = problems[0]
+    first.problems = list(problems)
+    return first
 
 
 # ---------------------------------------------------------------- units as written
@@ -149,6 +144,10 @@ class _Checker:
         self.notices: list[Notice] = []
 
     def fail(self, error: LayercalcError) -> None:
+        if isinstance(error, CycleError) and any(
+                isinstance(p, CycleError) and set(p.cycle) == set(error.cycle)
+                for p in self.problems):
+            return  # the same circle, met again from another of its formulas
         self.problems.append(error)
 
     # -- top level --------------------------------------------------------
@@ -180,10 +179,16 @@ class _Checker:
                 hint="integrating from the top meets the top boundary by construction; "
                      "adjustment removes the mismatch left by integrating from the surface"))
         table = self.layer_table(tables, stations)
-        columns, n_layers, top_first = ({}, 0, False) if table is None else self.inputs(table)
+        if table is None:
+            columns, n_layers, top_first = {}, 0, False
+        elif isinstance(table, Table):
+            columns, n_layers, top_first = self.inputs(table)
+        else:  # layers built from level tables / station soundings (soundings.py)
+            columns, n_layers, top_first = table.columns, table.layer_count, False
         sheet = self.formulas(definitions, columns, n_layers, options)
         sheet.title, sheet.notes, sheet.rows_given_top_first = title, notes, top_first
         sheet.document = self.document
+        sheet.soundings = getattr(self, "sounding_details", None)
         if scenarios and self.with_scenarios:
             from .scenarios import check_scenarios
 
@@ -192,7 +197,7 @@ class _Checker:
             except LayercalcError as exc:
                 self.fail(exc)
         if self.problems:
-            raise CheckFailed(self.problems)
+            raise _first_of(self.problems)
         sheet.notices = self.notices
         return sheet
 
@@ -227,12 +232,13 @@ class _Checker:
             from .soundings import layers_from_soundings
 
             try:
-                table, notices = layers_from_soundings(self.source, level_tables, stations)
+                built = layers_from_soundings(self, level_tables, stations)
             except LayercalcError as exc:
                 self.fail(exc)
                 return None
-            self.notices.extend(notices)
-            return table
+            self.notices.extend(built.notices)
+            self.sounding_details = built.details
+            return built
         self.fail(DefinitionError(
             "no layers table", Span(self.source, 0, 0),
             hint="add a table: a line 'layers', a header such as "
@@ -583,6 +589,9 @@ class _Checker:
                 f"formulas depend on each other in a circle through '{name}' "
                 f"(and '{signal.key[1]}')", d.name_span, [name, signal.key[1]],
                 hint="one of them must be computed from other values") from None
+        except CycleError:
+            del cache[key]
+            raise
         except LayercalcError:
             del cache[key]
             raise _Poisoned() from None
@@ -627,7 +636,7 @@ class _Checker:
         self.refuse_affine(left, "raised to a power")
         if not U.is_dimensionless(right.meta.dimension):
             raise UnitError(f"an exponent must be dimensionless, not "
-                            f"{U.dimension_name(right.meta.dimension)}", right.meta.span)
+                            f"{_article(U.dimension_name(right.meta.dimension))}", right.meta.span)
         if U.is_dimensionless(left.meta.dimension):
             return TBinary(Meta(node.span, U.DIMENSIONLESS, shape), op, left, right)
         exponent = _constant_number(node.right)
@@ -682,7 +691,7 @@ class _Checker:
                 if not U.is_dimensionless(a.meta.dimension):
                     raise UnitError(
                         f"{function.name} needs a dimensionless argument, not "
-                        f"{U.dimension_name(a.meta.dimension)}", a.meta.span,
+                        f"{_article(U.dimension_name(a.meta.dimension))}", a.meta.span,
                         found=U.dimension_name(a.meta.dimension), expected="dimensionless",
                         hint="divide by a reference value first, e.g. ln(p_bottom / p_top)")
             return U.DIMENSIONLESS
@@ -704,7 +713,7 @@ class _Checker:
             if U.dimension_name(a.meta.dimension) != want:
                 raise UnitError(
                     f"{function.name} needs {_article(want)} here, not "
-                    f"{U.dimension_name(a.meta.dimension)}", a.meta.span,
+                    f"{_article(U.dimension_name(a.meta.dimension))}", a.meta.span,
                     found=U.dimension_name(a.meta.dimension), expected=want,
                     hint=function.summary)
         return _named_dimension(result)

@@ -43,19 +43,21 @@ def _compile(source: Source):
 
 
 def problems(path_or_text: str | Path, *, is_text: bool = False) -> list[LayercalcError]:
-    """Every problem found in a file (or text), without raising: for `layercalc check`."""
-    from .check import CheckFailed
+    """Every problem found in a file (or text), without raising: for `layercalc check`.
 
+    Besides parsing and checking, this evaluates the base sheet and every scenario, so that
+    a file `check` passes is one `run` can evaluate (division by zero is found here too)."""
     try:
-        if is_text:
-            loads(str(path_or_text))
-        else:
-            load(path_or_text)
-    except CheckFailed as exc:
-        return list(exc.problems)
+        sheet = loads(str(path_or_text)) if is_text else load(path_or_text)
     except LayercalcError as exc:
-        return [exc]
-    return []
+        return list(getattr(exc, "problems", [exc]))
+    found: list[LayercalcError] = []
+    for scenario in (None, *sheet.scenarios):  # so that `check` and `run` agree
+        try:
+            sheet.evaluate(scenario)
+        except LayercalcError as exc:
+            found.append(exc)
+    return found
 
 
 class Sheet:
