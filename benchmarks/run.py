@@ -1,0 +1,191 @@
+"""layercalc benchmarks: sweep speed against a hand-written numpy kernel and against a loop
+over the public API, peak memory of a large sweep, and cold-start time of the CLI.
+
+    python benchmarks/run.py            # writes benchmarks/RESULTS.md
+
+Figures are ratios measured in one run on this machine; nothing here is asserted in tests.
+"""
+
+from __future__ import annotations
+
+import os
+import platform
+import statistics
+import subprocess
+import sys
+import time
+import tracemalloc
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+
+import layercalc  # noqa: E402
+from layercalc.constants import EPSILON, G0, RD  # noqa: E402
+
+CASE = ROOT / "worked_cases" / "midlevel_warming.layers"
+SWEEP_BLOCK = """
+cell warming = 0 K
+cell div_scale = 1
+scenario bench "warming of 500-300 hPa by divergence scale above 500 hPa"
+  add warming to T between 500 hPa and 300 hPa
+  scale div by div_scale above 500 hPa
+end
+"""
+SIZES = {10_000: (100, 100), 100_000: (400, 250)}
+REPEATS = 5
+LOOP_SAMPLE = 300  # scenarios evaluated one at a time; the loop's total is extrapolated
+
+
+def best_time(function, repeats=REPEATS):
+    times = []
+    result = None
+    for _ in range(repeats):
+        start = time.perf_counter()
+        result = function()
+        times.append(time.perf_counter() - start)
+    return min(times), result
+
+
+def grid(n_warming, n_scale):
+    warming, scale = np.meshgrid(np.linspace(0.0, 6.0, n_warming),
+                                 np.linspace(0.5, 2.0, n_scale), indexing="ij")
+    return warming.ravel(), scale.ravel()
+
+
+def kernel(sheet, warming, scale):
+    """The same quantities as the sheet's defaults, written directly in numpy (surface
+    first, scenarios on the leading axis): what a careful programmer would write by hand."""
+    cols = sheet.checked.input_columns
+    pb, pt = cols["p_bottom"].values, cols["p_top"].values
+    t, td, div = cols["T"].values, cols["Td"].values, cols["div"].values
+    warm_mask = (pb <= 50000.0 * (1 + 1e-6)) & (pt >= 30000.0 * (1 - 1e-6))
+    div_mask = pb <= 50000.0 * (1 + 1e-6)
+    T = t[None, :] + warming[:, None] * warm_mask
+    D = div[None, :] * np.where(div_mask, scale[:, None], 1.0)
+    dp = pb - pt
+    p_mid = np.sqrt(pb * pt)
+    e = 611.2 * np.exp(17.67 * (td - 273.15) / (td - 29.65))
+    r = EPSILON * e / (p_mid - e)
+    tv = T * (r + EPSILON) / (EPSILON * (1 + r))
+    thickness = RD * tv / G0 * np.log(pb / pt)
+    z_top = 40.0 + np.cumsum(thickness, axis=-1)
+    z_bottom = z_top - thickness
+    flux = D * dp
+    omega_bottom = -np.cumsum(flux[:, ::-1], axis=-1)[:, ::-1]
+    omega_top = omega_bottom + flux
+    w_bottom = -omega_bottom * RD * tv / (pb * G0)
+    w_top = -omega_top * RD * tv / (pt * G0)
+    omega_surface = omega_bottom[:, 0]
+    out = {
+        "Tv": tv, "thickness": thickness, "z_top": z_top, "z_bottom": z_bottom,
+        "omega_bottom": omega_bottom, "omega_top": omega_top, "w_bottom": w_bottom,
+        "w_top": w_top, "surface_pressure_tendency": omega_surface,
+        "column_mean_divergence": flux.sum(-1) / dp.sum(),
+        "dines_ratio": np.abs(flux.sum(-1)) / (np.abs(D) * dp).sum(-1),
+        "max_ascent": np.minimum(omega_bottom[:, 0], omega_top.min(-1)),
+        "column_thickness": thickness.sum(-1),
+    }
+    return out
+
+
+def compare_with_kernel(evaluation, kernel_out, size):
+    worst = 0.0
+    for name, want in kernel_out.items():
+        got = evaluation.columns.get(name, evaluation.cells.get(name))
+        got = np.broadcast_to(got, (size,) + (want.shape[1:] if want.ndim > 1 else (1,)))
+        got = got if want.ndim > 1 else got[:, 0]
+        scale = np.maximum(np.abs(want), 1e-30)
+        worst = max(worst, float(np.max(np.abs(got - want) / scale)))
+    return worst
+
+
+def result_bytes(evaluation, size):
+    total = 0
+    for array in (*evaluation.columns.values(), *evaluation.cells.values()):
+        total += size * array.shape[-1] * 8 if array.shape[0] in (1, size) else array.nbytes
+    return total
+
+
+def cold_start(runs=9):
+    env = dict(os.environ)
+    cli = [sys.executable, "-m", "layercalc", "run", str(CASE)]
+    base = [sys.executable, "-c", "import numpy, lark, sympy"]
+    subprocess.run(cli, capture_output=True, cwd=ROOT, env=env, check=True)  # warm the cache
+
+    def median(cmd):
+        times = []
+        for _ in range(runs):
+            start = time.perf_counter()
+            subprocess.run(cmd, capture_output=True, cwd=ROOT, env=env, check=True)
+            times.append(time.perf_counter() - start)
+        return statistics.median(times)
+
+    return median(cli), median(base)
+
+
+def main() -> int:
+    text = CASE.read_text(encoding="utf-8") + SWEEP_BLOCK
+    sheet = layercalc.loads(text, name=str(CASE))
+    lines = []
+    rows = []
+    for size, (nw, ns) in SIZES.items():
+        warming, scale = grid(nw, ns)
+        cells = {"warming": warming, "div_scale": scale}
+        t_layercalc, evaluation = best_time(
+            lambda: sheet.evaluate_many(cells, scenario="bench"))
+        t_kernel, kernel_out = best_time(lambda: kernel(sheet, warming, scale))
+        worst = compare_with_kernel(evaluation, kernel_out, size)
+        sample = min(LOOP_SAMPLE, size)
+        start = time.perf_counter()
+        for i in range(sample):
+            sheet.evaluate_many({"warming": warming[i:i + 1], "div_scale": scale[i:i + 1]},
+                                scenario="bench")
+        per_scenario = (time.perf_counter() - start) / sample
+        t_loop = per_scenario * size
+        rows.append((size, t_layercalc, t_kernel, t_loop, worst))
+    warming, scale = grid(*SIZES[100_000])
+    tracemalloc.start()
+    evaluation = sheet.evaluate_many({"warming": warming, "div_scale": scale},
+                                     scenario="bench")
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    size_results = result_bytes(evaluation, warming.size)
+    t_cli, t_base = cold_start()
+
+    lines.append("# Benchmark results\n")
+    lines.append(f"Measured by `python benchmarks/run.py` on {time.strftime('%Y-%m-%d')}, "
+                 f"{platform.machine()}, {os.cpu_count()} cores, Python "
+                 f"{platform.python_version()}, numpy {np.__version__}, layercalc "
+                 f"{layercalc.__version__}. Case: `worked_cases/midlevel_warming.layers` "
+                 f"({sheet.checked.layer_count} layers) with a scenario warming 500-300 hPa "
+                 "and scaling the divergence above 500 hPa; sweeps over warming x scale.\n")
+    lines.append("| scenarios | layercalc sweep [s] | numpy kernel [s] | ratio (target <= 1.5) "
+                 "| loop over public API [s] | speed-up (target >= 50) | max rel. diff |")
+    lines.append("|---|---|---|---|---|---|---|")
+    for size, t_l, t_k, t_loop, worst in rows:
+        lines.append(f"| {size:,} | {t_l:.4f} | {t_k:.4f} | {t_l / t_k:.2f} | {t_loop:.1f} "
+                     f"(extrapolated from {min(LOOP_SAMPLE, size)}) | {t_loop / t_l:.0f} | "
+                     f"{worst:.1e} |")
+    lines.append("")
+    lines.append(f"Peak memory of the 100,000-scenario sweep (tracemalloc): "
+                 f"{peak / 2**20:.1f} MiB; result arrays (every column and cell counted dense, "
+                 f"scenarios x layers of float64): {size_results / 2**20:.1f} MiB; "
+                 f"ratio {peak / size_results:.2f} (target < 8).\n")
+    lines.append(f"Cold start, median of 9: `python -m layercalc run "
+                 f"worked_cases/midlevel_warming.layers` {t_cli:.3f} s; "
+                 f"`python -c \"import numpy, lark, sympy\"` {t_base:.3f} s; ratio "
+                 f"{t_cli / t_base:.2f} (target <= 1.5).\n")
+    lines.append("Times are the best of five runs (sweeps) or medians (cold start); the loop "
+                 "times a sample of scenarios one at a time through `Sheet.evaluate_many` "
+                 "and scales to the full count. Other processes on the machine add noise.")
+    report = "\n".join(lines) + "\n"
+    (ROOT / "benchmarks" / "RESULTS.md").write_text(report, encoding="utf-8")
+    print(report)
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
