@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 
 from .errors import LayercalcSyntaxError
 from .nodes import (
@@ -11,6 +12,9 @@ from .nodes import (
     UnitPower,
 )
 from .source import Source, Span
+
+_ENTRY = re.compile(r"[^ \t]+")
+_NUMBER = re.compile(r"[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?")
 
 MAX_DEPTH = 250  # operations nested in one formula; keeps every later (recursive) stage safe
 
@@ -113,11 +117,26 @@ class _Builder:
             for h in header.children)
         values, spans = [], []
         for row in rows:
-            values.append(tuple(
-                float(e.children[0]) if e.data == "number_entry" else math.nan
-                for e in row.children))
-            spans.append(self.span(row))
+            token = row.children[0]
+            values.append(self.row_values(token))
+            start = token.start_pos
+            spans.append(Span(self.source, start, start + len(str(token).rstrip())))
         return Table(self.span(tree), str(kind_token), headings, tuple(values), tuple(spans))
+
+    def row_values(self, token) -> tuple[float, ...]:
+        out = []
+        for match in _ENTRY.finditer(str(token)):
+            text = match.group()
+            if text == "-":
+                out.append(math.nan)
+                continue
+            if not _NUMBER.fullmatch(text):
+                start = token.start_pos + match.start()
+                raise LayercalcSyntaxError(
+                    f"'{text}' is not a number", Span(self.source, start, start + len(text)),
+                    hint="write numbers like 850, -12.5 or 1.2e-5, and '-' for a missing value")
+            out.append(float(text))
+        return tuple(out)
 
     def scenario(self, tree) -> Scenario:
         from lark import Token

@@ -99,7 +99,9 @@ def _kinematic(names: set[str], options: dict[str, str], add, notes: list[str]) 
         add("column w_top [cm/s] = vertical_velocity(omega_top, p_top, Tv)")
     _tendency(names, add)
     add("cell column_mean_divergence [1e-5 s^-1] = sum(div * dp) / sum(dp)")
-    add("cell dines_ratio = abs(sum(div * dp)) / sum(abs(div) * dp)")
+    # 0 for a column without any divergence (nothing to compensate), instead of 0/0
+    add("cell dines_ratio = where(sum(abs(div) * dp) > 0 [Pa/s], abs(sum(div * dp))"
+        " / sum(abs(div) * dp), 0)")
     add("cell max_ascent [hPa/h] = min(lowest_layer(omega_bottom), min(omega_top))")
     add("cell max_ascent_pressure [hPa] = where(lowest_layer(omega_bottom) < min(omega_top),"
         " lowest_layer(p_bottom), at_min(omega_top, p_top))")

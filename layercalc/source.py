@@ -17,7 +17,11 @@ class Source:
 
     def __post_init__(self) -> None:
         starts = [0]
-        starts.extend(i + 1 for i, ch in enumerate(self.text) if ch == "\n")
+        find = self.text.find
+        index = find("\n")
+        while index >= 0:
+            starts.append(index + 1)
+            index = find("\n", index + 1)
         object.__setattr__(self, "_line_starts", tuple(starts))
 
     def line_col(self, offset: int) -> tuple[int, int]:
