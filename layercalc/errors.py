@@ -56,7 +56,7 @@ class LayercalcSyntaxError(LayercalcError):
 
 
 class UnknownNameError(LayercalcError):
-    kind = "unknown name"
+    kind = "name error"
 
     def __init__(self, message: str, span: "Span | None" = None, suggestions: Sequence[str] = (),
                  hint: str | None = None) -> None:

@@ -27,6 +27,7 @@ _TERMINAL_WORDS = {
     "COMPARE": "a comparison (<, <=, >, >=, ==, !=)",
     "TABLE_KIND": "'layers' or 'levels'",
     "PERCENT": "'%'",
+    "ROW": "a row of numbers",
 }
 
 

@@ -95,7 +95,7 @@ def test_unknown_scenario_suggests():
 
 @pytest.mark.parametrize("body, expected", [
     ("scenario x\n  add 3 K to p_top\nend\n", "cannot change p_top"),
-    ("scenario x\n  add 3 hPa to T\nend\n", "cannot add pressure to T (temperature)"),
+    ("scenario x\n  add 3 hPa to T\nend\n", "cannot add a pressure to T (a temperature)"),
     ("scenario x\n  scale T by 2 K\nend\n", "needs a plain number"),
     ("scenario x\n  add 3 K to T between 500 K and 300 hPa\nend\n", "needs a pressure"),
     ("scenario x from y\nend\n", "unknown scenario 'y'"),
