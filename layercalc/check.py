@@ -189,7 +189,7 @@ class _Checker:
         sheet.title, sheet.notes, sheet.rows_given_top_first = title, notes, top_first
         sheet.document = self.document
         sheet.soundings = getattr(self, "sounding_details", None)
-        if scenarios and self.with_scenarios:
+        if scenarios and self.with_scenarios and not self.problems:
             from .scenarios import check_scenarios
 
             try:
@@ -227,6 +227,12 @@ class _Checker:
             self.fail(DefinitionError("a sheet has one layers table; this is a second one",
                                       layer_tables[1].span))
         if layer_tables:
+            if level_tables or stations:
+                other = (level_tables or stations)[0]
+                self.fail(DefinitionError(
+                    "a sheet takes its layers either from a layers table or from levels "
+                    "tables and stations, not both", other.span,
+                    hint="remove the layers table to build the layers from the soundings"))
             return layer_tables[0]
         if level_tables or stations:
             from .soundings import layers_from_soundings
@@ -279,7 +285,7 @@ class _Checker:
                 what = "missing ('-')" if math.isnan(values[i]) else "too large to be a number"
                 self.fail(DefinitionError(
                     f"value in column '{heading.name}' is {what}",
-                    _entry_span(table, i, j),
+                    entry_span(table, i, j),
                     hint="every layer needs a value here; leave the column out if unknown"))
                 continue
             columns[heading.name] = InputColumn(heading.name, unit, unit.to_si(values),
@@ -320,7 +326,7 @@ class _Checker:
             if pb[i] <= 0 or pt[i] <= 0:
                 j = j_pb if pb[i] <= 0 else j_pt
                 self.fail(DefinitionError("pressures must be above zero",
-                                          _entry_span(table, i, j)))
+                                          entry_span(table, i, j)))
                 return False
             if pt[i] >= pb[i]:
                 self.fail(DefinitionError(
@@ -367,7 +373,7 @@ class _Checker:
             if col is None or not U.same_dimension(col.unit.dimension, U.lookup("K").dimension):
                 continue
             for k, value in enumerate(col.values):
-                span = _entry_span(table, int(order[k]), names.index(name))
+                span = entry_span(table, int(order[k]), names.index(name))
                 if value <= 0:
                     self.fail(DefinitionError(
                         f"{name} is below absolute zero ({value:.2f} K)", span,
@@ -844,7 +850,7 @@ def _referenced_names(definitions) -> set[str]:
     return found
 
 
-def _entry_span(table: Table, row: int, column: int) -> Span:
+def entry_span(table: Table, row: int, column: int) -> Span:
     """The span of one number in a table row (found by splitting the row's text)."""
     span = table.row_spans[row]
     text = span.source.text[span.start:span.end]

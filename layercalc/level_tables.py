@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import units as U
-from .check import PLAUSIBLE_TEMPERATURE, _entry_span, parse_unit_string, resolve_unit
+from .check import PLAUSIBLE_TEMPERATURE, entry_span, parse_unit_string, resolve_unit
 from .errors import DefinitionError, LayercalcError, Notice, UnitError
 from .nodes import Definition, Literal, Table, Unary
 from .physics import humidity, levels as level_physics
@@ -43,7 +43,7 @@ class Sounding:
 
     def entry_span(self, name: str, level: int) -> Span:
         column = [h.name for h in self.table.headings].index(name)
-        return _entry_span(self.table, int(self.order[level]), column)
+        return entry_span(self.table, int(self.order[level]), column)
 
     def wind(self) -> tuple[np.ndarray, np.ndarray] | None:
         if "dir" in self.values:
@@ -120,7 +120,7 @@ def read_sounding(checker, table: Table, name: str) -> Sounding:
     data = np.array(table.rows, dtype=float).reshape(len(table.rows), len(headings))
     for i, j in zip(*np.nonzero(np.isinf(data))):
         raise DefinitionError("this value is too large to be a number",
-                              _entry_span(table, int(i), int(j)))
+                              entry_span(table, int(i), int(j)))
     values, units = {}, {}
     for j, heading in enumerate(table.headings):
         unit = checker.heading_unit(heading)
@@ -137,7 +137,7 @@ def read_sounding(checker, table: Table, name: str) -> Sounding:
         if not (np.isfinite(p) and p > 0):
             raise DefinitionError(
                 "a level's pressure must be a number above zero",
-                _entry_span(table, i, headings.index("p")),
+                entry_span(table, i, headings.index("p")),
                 hint="every row needs its pressure; write '-' only for other values")
     order = np.argsort(-pressure, kind="stable")
     sounding = Sounding(name, table, pressure[order], {k: v[order] for k, v in values.items()},
