@@ -1,0 +1,413 @@
+"""The `layercalc` command (also `python -m layercalc`).
+
+Exit status: 0 done, 1 a problem with the user's file, values or output path (our error,
+printed without a traceback), 2 a usage error (argparse). Only LayercalcError is caught:
+anything else is a bug and keeps its traceback.
+
+Start-up stays light: the package's heavy parts (sympy through the checker, matplotlib for
+plots, openpyxl for workbooks) load inside the command that needs them.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import importlib.util
+import os
+import sys
+from pathlib import Path
+
+from .errors import InputError, LayercalcError, OutputError
+
+DEMO_CASE = "midlevel_warming"
+PLOT_SUFFIXES = (".png", ".svg")
+
+
+class _Formatter(argparse.RawDescriptionHelpFormatter):
+    """Keeps the line breaks of descriptions and examples."""
+
+
+def _command(subparsers, name: str, summary: str, example: str, description: str = ""):
+    return subparsers.add_parser(
+        name, help=summary, description=(description or summary),
+        epilog="example:\n  " + example.replace("\n", "\n  "), formatter_class=_Formatter)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    from . import __version__
+
+    parser = argparse.ArgumentParser(
+        prog="layercalc", formatter_class=_Formatter,
+        description="Column diagnostics by layers: thickness, heights, kinematic omega, w "
+                    "and the surface pressure tendency, from a .layers file.",
+        epilog="examples:\n  layercalc demo\n  layercalc new -o my_column.layers\n"
+               "  layercalc run my_column.layers\n\n"
+               "Run 'layercalc COMMAND --help' for each command's options.")
+    parser.add_argument("--version", action="version", version=f"layercalc {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    run = _command(sub, "run", "compute a column and print the report",
+                   "layercalc run worked_cases/midlevel_warming.layers\n"
+                   "layercalc run case.layers --scenario warmed --json > warmed.json\n"
+                   "layercalc run case.layers --all-scenarios\n"
+                   "layercalc run case.layers --csv layers.csv --heights dam",
+                   "Compute a column and print the layer table (top first) and the summary "
+                   "in the trade's units: hPa, degC, m or dam, 1e-5 s^-1, hPa/h, cm/s.")
+    run.add_argument("case", metavar="CASE", help="a .layers file (or an .xlsx workbook)")
+    which = run.add_mutually_exclusive_group()
+    which.add_argument("--scenario", metavar="NAME", help="compute one named scenario")
+    which.add_argument("--all-scenarios", action="store_true",
+                       help="compare the base and every scenario side by side")
+    run.add_argument("--json", action="store_true",
+                     help="print one JSON document (SI units) instead of the report")
+    run.add_argument("--csv", metavar="FILE",
+                     help="also write the layer table (surface first, with a units row)")
+    run.add_argument("--units", choices=("trade", "si"), default="trade",
+                     help="units of the report and CSV: the trade's (default) or SI")
+    run.add_argument("--heights", choices=("m", "dam"), default="m",
+                     help="heights and thicknesses in metres (default) or decametres")
+    run.add_argument("--every-column", action="store_true",
+                     help="also list every intermediate column (dp, p_mid, e, r, ...)")
+    run.add_argument("-o", "--output", metavar="FILE",
+                     help="write the report (or JSON) to FILE instead of the screen")
+    run.set_defaults(handler=command_run)
+
+    check = _command(sub, "check", "read and unit-check files without computing",
+                     "layercalc check my_column.layers",
+                     "Parse and unit-check each file. Prints 'ok' or every problem with its "
+                     "file:line:column; exits 1 if any file has a problem.")
+    check.add_argument("cases", metavar="CASE", nargs="+", help="one or more .layers files")
+    check.set_defaults(handler=command_check)
+
+    new = _command(sub, "new", "write a commented template sheet to start from",
+                   "layercalc new -o my_column.layers",
+                   "Write a commented .layers template that uses every construct of the "
+                   "format (to the screen, or to a file with -o).")
+    new.add_argument("-o", "--output", metavar="FILE", help="the file to write")
+    new.add_argument("--force", action="store_true", help="replace FILE if it exists")
+    new.set_defaults(handler=command_new)
+
+    demo = _command(sub, "demo", "run a bundled worked case",
+                    "layercalc demo\nlayercalc demo standard_atmosphere\nlayercalc demo --list",
+                    "Run one of the worked cases that come with layercalc and say where to "
+                    "go next.")
+    demo.add_argument("name", metavar="NAME", nargs="?", default=DEMO_CASE,
+                      help=f"which worked case (default {DEMO_CASE})")
+    demo.add_argument("--list", action="store_true", help="list the worked cases")
+    demo.set_defaults(handler=command_demo)
+
+    plot = _command(sub, "plot", "draw the column profile to a PNG or SVG file",
+                    "layercalc plot worked_cases/midlevel_warming.layers -o profile.png",
+                    "Draw divergence by layer and omega at the interfaces against pressure "
+                    "(log axis, heights on the right), with the level(s) of non-divergence "
+                    "and the surface tendency; a second panel compares the scenarios when "
+                    "the sheet has any.")
+    plot.add_argument("case", metavar="CASE", help="a .layers file (or an .xlsx workbook)")
+    plot.add_argument("-o", "--output", metavar="FILE", required=True,
+                      help="the picture to write: FILE.png or FILE.svg")
+    plot.add_argument("--scenario", metavar="NAME", help="draw this scenario in the first "
+                      "panel instead of the base")
+    plot.add_argument("--dpi", type=int, default=100,
+                      help="resolution of a PNG in dots per inch (default 100)")
+    plot.set_defaults(handler=command_plot)
+
+    export = _command(sub, "export", "write the sheet as an .xlsx workbook",
+                      "layercalc export my_column.layers -o my_column.xlsx")
+    export.add_argument("case", metavar="CASE", help="a .layers file")
+    export.add_argument("-o", "--output", metavar="FILE", required=True,
+                        help="the workbook to write (.xlsx)")
+    export.set_defaults(handler=command_export)
+
+    read = _command(sub, "import", "turn an .xlsx workbook into a .layers file",
+                    "layercalc import filled_in.xlsx -o my_column.layers")
+    read.add_argument("workbook", metavar="WORKBOOK", help="an .xlsx workbook")
+    read.add_argument("-o", "--output", metavar="FILE", required=True,
+                      help="the .layers file to write")
+    read.add_argument("--force", action="store_true", help="replace FILE if it exists")
+    read.set_defaults(handler=command_import)
+
+    sweep = _command(sub, "sweep", "vary one or two input cells and tabulate results",
+                     "layercalc sweep case.layers --vary \"omega_top=-2:2:0.5\"\n"
+                     "layercalc sweep case.layers --vary \"omega_top=-2:2:1\" "
+                     "--vary \"surface_height=0:300:100\" --csv grid.csv --plot grid.png",
+                     "Vary input cells over ranges (NAME=START:STOP:STEP in the cell's own "
+                     "unit; two --vary give a full grid), evaluate every point in one pass "
+                     "and print a table of chosen results.")
+    sweep.add_argument("case", metavar="CASE", help="a .layers file (or an .xlsx workbook)")
+    sweep.add_argument("--vary", metavar="NAME=START:STOP:STEP", action="append",
+                       required=True, help="an input cell and its range (once or twice)")
+    sweep.add_argument("--scenario", metavar="NAME", help="sweep this scenario's sheet")
+    sweep.add_argument("--show", metavar="CELL", action="append",
+                       help="a result cell to tabulate (repeat for several; default: "
+                            "tendency, surface omega, strongest ascent, column thickness)")
+    sweep.add_argument("--csv", metavar="FILE", help="also write the table as CSV")
+    sweep.add_argument("--xlsx", metavar="FILE", help="also write the table as a workbook")
+    sweep.add_argument("--plot", metavar="FILE", help="also draw the first shown result "
+                       "(.png): a line for one range, a shaded grid for two")
+    sweep.add_argument("--quiet", action="store_true", help="do not print the table")
+    sweep.set_defaults(handler=command_sweep)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help(sys.stderr)
+        return 2
+    try:
+        return args.handler(args)
+    except LayercalcError as err:
+        print(err.format(), file=sys.stderr)
+        return err.exit_code
+    except BrokenPipeError:  # the reader (e.g. `| head`) stopped reading: not an error of ours
+        sys.stdout = open(os.devnull, "w")
+        return 0
+
+
+# ---------------------------------------------------------------- helpers
+def load_case(path: str):
+    """A sheet from a .layers file or, when the spreadsheet support is present, a workbook."""
+    from . import load
+
+    if Path(path).suffix.lower() in (".xlsx", ".xlsm") and not _available("xlsx_import"):
+        raise InputError(f"{path}: reading workbooks is not part of this version yet",
+                         hint="give a .layers file")
+    return load(path)
+
+
+def _available(module: str) -> bool:
+    return importlib.util.find_spec(f"layercalc.{module}") is not None
+
+
+def _emit(text: str, output: str | None) -> None:
+    if output:
+        from .jsonout import write_text_atomic
+
+        write_text_atomic(output, text)
+    else:
+        sys.stdout.write(text)
+
+
+def _refuse_overwrite(path: str, force: bool) -> None:
+    target = Path(path)
+    if target.exists() and not force:
+        raise OutputError(f"{path} exists already; nothing was written",
+                          hint="choose another name, or add --force to replace it")
+    if target.is_dir():
+        raise OutputError(f"{path} is a folder")
+
+
+def worked_cases_folder() -> Path:
+    """The bundled worked cases: inside the installed package, or in a checkout."""
+    from importlib import resources
+
+    packaged = resources.files("layercalc").joinpath("worked_cases")
+    if packaged.is_dir():
+        return Path(str(packaged))
+    checkout = Path(__file__).resolve().parent.parent / "worked_cases"
+    if checkout.is_dir():
+        return checkout
+    raise InputError("the worked cases are missing from this copy of layercalc",
+                     hint="reinstall layercalc, or run from a checkout of its repository")
+
+
+def worked_cases() -> dict[str, Path]:
+    return {p.stem: p for p in sorted(worked_cases_folder().glob("*.layers"))}
+
+
+def _case_summary(path: Path) -> str:
+    """The first comment line after the header rule, as a one-line description."""
+    for line in path.read_text(encoding="utf-8").splitlines():
+        text = line.lstrip("#").strip()
+        if line.startswith("#") and text and not set(text) <= set("-=# "):
+            return text
+    return ""
+
+
+# ---------------------------------------------------------------- commands
+def command_run(args) -> int:
+    from . import jsonout, report
+
+    if args.all_scenarios and args.csv:
+        raise OutputError("--csv writes one variant's layer table; with --all-scenarios "
+                          "there are several", hint="use --scenario NAME with --csv")
+    sheet = load_case(args.case)
+    if args.all_scenarios:
+        names = ["base", *sheet.scenarios]
+        if args.json:
+            text = jsonout.dumps(jsonout.scenarios_document(sheet, names))
+        elif len(names) == 1:
+            text = report.render(sheet, sheet.evaluate(), args.units, args.heights,
+                                 args.every_column)
+            text += "\n(this sheet has no scenarios)\n"
+        else:
+            text = report.render_comparison(sheet, names, args.units)
+        _emit(text, args.output)
+        return 0
+    result = sheet.evaluate(args.scenario)
+    if args.csv:
+        jsonout.write_text_atomic(args.csv, jsonout.layer_table_csv(result, args.units,
+                                                                    args.heights))
+    if args.json:
+        text = jsonout.dumps(jsonout.result_document(sheet, result))
+    else:
+        text = report.render(sheet, result, args.units, args.heights, args.every_column)
+    _emit(text, args.output)
+    return 0
+
+
+def command_check(args) -> int:
+    from . import load, problems
+
+    failed = False
+    several = len(args.cases) > 1
+    for path in args.cases:
+        if Path(path).suffix.lower() in (".xlsx", ".xlsm") and not _available("xlsx_import"):
+            found = [InputError(f"{path}: reading workbooks is not part of this version yet")]
+        else:
+            found = problems(path)
+        if found:
+            failed = True
+            for problem in found:
+                print(problem.format())
+            continue
+        for notice in load(path).check():
+            print(notice.format())
+        print(f"{path}: ok" if several else "ok")
+    return 1 if failed else 0
+
+
+def command_new(args) -> int:
+    from .templates import TEMPLATE
+
+    if args.output:
+        _refuse_overwrite(args.output, args.force)
+        _emit(TEMPLATE, args.output)
+        print(f"wrote {args.output}; edit it, then: layercalc run {args.output}",
+              file=sys.stderr)
+    else:
+        sys.stdout.write(TEMPLATE)
+    return 0
+
+
+def command_demo(args) -> int:
+    from . import load, report
+
+    cases = worked_cases()
+    if args.list:
+        width = max(len(n) for n in cases)
+        for name, path in cases.items():
+            print(f"{name.ljust(width)}  {_case_summary(path)}")
+        print(f"\nthe files are in {worked_cases_folder()}")
+        return 0
+    if args.name not in cases:
+        import difflib
+
+        close = difflib.get_close_matches(args.name, list(cases), n=2)
+        raise InputError(f"no worked case named '{args.name}'",
+                         hint=("did you mean " + " or ".join(close) + "? ") if close else
+                         "see them all with: layercalc demo --list")
+    path = cases[args.name]
+    sheet = load(path)
+    sys.stdout.write(report.render(sheet, sheet.evaluate()))
+    print("\nWhere to go next")
+    print("  This case is the file (CASE below; copy it to change it):")
+    print(f"    {path}")
+    steps = [("every worked case", "layercalc demo --list"),
+             ("draw this column", "layercalc plot CASE -o profile.png")]
+    if sheet.scenarios:
+        steps.insert(0, ("its scenarios side by side", "layercalc run CASE --all-scenarios"))
+    steps += [("start your own sheet", "layercalc new -o my_column.layers"),
+              ("check it, then run it", "layercalc check my_column.layers"),
+              ("", "layercalc run my_column.layers"),
+              ("results for scripts", "layercalc run my_column.layers --json"),
+              ("help on any command", "layercalc run --help")]
+    for what, how in steps:
+        print(f"  {(what + ':') if what else '':<28} {how}")
+    return 0
+
+
+def command_plot(args) -> int:
+    suffix = Path(args.output).suffix.lower()
+    if suffix not in PLOT_SUFFIXES:
+        raise OutputError(f"cannot draw to '{args.output}': the picture must end in .png or "
+                          ".svg", hint=f"e.g. -o {Path(args.output).stem or 'profile'}.png")
+    if args.dpi < 20 or args.dpi > 1200:
+        raise OutputError(f"--dpi {args.dpi} is out of range", hint="use 20 to 1200")
+    from .plot import save_profile
+
+    sheet = load_case(args.case)
+    save_profile(sheet, args.output, scenario=args.scenario, dpi=args.dpi)
+    print(f"wrote {args.output}", file=sys.stderr)
+    return 0
+
+
+def command_export(args) -> int:
+    if not _available("xlsx_export"):
+        raise LayercalcError("writing workbooks is not part of this version yet")
+    module = importlib.import_module("layercalc.xlsx_export")
+    sheet = load_case(args.case)
+    module.write_workbook(sheet, args.output)
+    print(f"wrote {args.output}", file=sys.stderr)
+    return 0
+
+
+def command_import(args) -> int:
+    if not _available("xlsx_import"):
+        raise LayercalcError("reading workbooks is not part of this version yet")
+    from . import loads
+    from .jsonout import write_text_atomic
+
+    module = importlib.import_module("layercalc.xlsx_import")
+    _refuse_overwrite(args.output, args.force)
+    text = module.read_workbook(Path(args.workbook))
+    loads(text, name=args.workbook)  # refuse to write a sheet that would not load
+    write_text_atomic(args.output, text)
+    print(f"wrote {args.output}", file=sys.stderr)
+    return 0
+
+
+def command_sweep(args) -> int:
+    from .jsonout import write_atomic, write_text_atomic
+    from .report import TableColumn, auto, table_lines, wrap
+    from .sweep import parse_range, plot_sweep, run_sweep
+
+    if len(args.vary) > 2:
+        raise OutputError("a sweep varies one or two cells", hint="give --vary once or twice")
+    if args.plot and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
+        raise OutputError(f"cannot draw to '{args.plot}': the picture must end in .png or "
+                          ".svg")
+    sheet = load_case(args.case)
+    ranges = [parse_range(text, sheet) for text in args.vary]
+    frame = run_sweep(sheet, ranges, scenario=args.scenario, outputs=args.show)
+    units = frame.attrs.get("units", {})
+    if args.csv:
+        header = ",".join(frame.columns) + "\n" + ",".join(units.get(c, "") for c in
+                                                           frame.columns) + "\n"
+        write_text_atomic(args.csv, header + frame.to_csv(index=False, header=False))
+    if args.xlsx:
+        import io
+
+        buffer = io.BytesIO()
+        frame.to_excel(buffer, index=False, sheet_name="sweep")
+        write_atomic(args.xlsx, buffer.getvalue())
+    if args.plot:
+        import tempfile
+
+        shown = [c for c in frame.columns if c not in {r.name for r in ranges}]
+        with tempfile.TemporaryDirectory() as folder:
+            drawn = Path(folder) / Path(args.plot).name
+            plot_sweep(frame, ranges, shown[0], drawn)
+            write_atomic(args.plot, drawn.read_bytes())
+    if not args.quiet:
+        columns = [TableColumn(name, units.get(name, ""), auto(frame[name].to_numpy()))
+                   for name in frame.columns[1:]]
+        first = frame.columns[0]
+        lines = table_lines(first, units.get(first, ""), auto(frame[first].to_numpy()),
+                            columns)
+        from .sheet import CAUTION
+
+        lines += ["", f"{len(frame)} points", *wrap("caution: " + CAUTION)]
+        sys.stdout.write("\n".join(lines) + "\n")
+    return 0

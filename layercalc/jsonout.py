@@ -1,0 +1,255 @@
+"""Results as JSON and CSV, and the unit conventions of every output (SI or the trade's).
+
+The JSON document (one per variant; values in SI, layers from the surface upward):
+
+    {"title": str, "scenario": str, "description": str, "case": str,
+     "units": {name: SI unit},
+     "layers": [{"p_bottom": .., "p_top": .., "T": .., "Tv": .., "div": .., "thickness": ..,
+                 "z_bottom": .., "z_top": .., "omega_bottom": .., "omega_top": ..,
+                 "w_bottom": .., "w_top": .., ...every other column}],
+     "summary": {"omega_surface": .., "omega_top": .., "surface_pressure_tendency": ..,
+                 "top_mismatch": .., "column_thickness": .., "column_mean_divergence": ..,
+                 "dines_ratio": .., "level_of_nondivergence": [..], ...every other cell,
+                 "standard_heights": {"500": ..}, "standard_thicknesses": {"1000-500": ..}},
+     "options": {..}, "notes": [..], "remarks": [..], "replaced_defaults": [..],
+     "notices": [{"line": int|null, "column": int|null, "message": str}], "caution": str}
+
+A documented key the sheet cannot compute (no `div` column: no omega) is present with null.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+
+from . import units as U
+from .errors import OutputError
+
+LAYER_KEYS = ("p_bottom", "p_top", "T", "Tv", "div", "thickness", "z_bottom", "z_top",
+              "omega_bottom", "omega_top", "w_bottom", "w_top")
+SUMMARY_KEYS = ("omega_surface", "omega_top", "surface_pressure_tendency", "top_mismatch",
+                "column_thickness", "column_mean_divergence", "dines_ratio",
+                "level_of_nondivergence")
+# Cells that are the sheet's own bookkeeping rather than results or inputs.
+HIDDEN_CELLS = ("top_boundary", "surface_boundary")
+
+# The units forecasters read, for the canonical names (columns, then cells).
+TRADE_COLUMN_UNITS = {
+    "p_bottom": "hPa", "p_top": "hPa", "p_mid": "hPa", "dp": "hPa",
+    "depth_from_bottom": "hPa", "e": "hPa",
+    "T": "degC", "Td": "degC", "Tv": "degC", "r": "g/kg", "RH": "%",
+    "thickness": "m", "z_bottom": "m", "z_top": "m",
+    "div": "1e-5 s^-1", "div_adjusted": "1e-5 s^-1",
+    "omega_bottom": "hPa/h", "omega_top": "hPa/h", "w_bottom": "cm/s", "w_top": "cm/s",
+}
+TRADE_CELL_UNITS = {
+    "omega_surface": "hPa/h", "omega_top": "hPa/h", "top_mismatch": "hPa/h",
+    "surface_pressure_tendency": "hPa/(3 h)", "column_thickness": "m",
+    "column_mean_divergence": "1e-5 s^-1", "max_ascent": "hPa/h",
+    "max_ascent_pressure": "hPa", "surface_height": "m", "surface_pressure": "hPa",
+    "dines_ratio": "1",
+}
+HEIGHT_NAMES = ("thickness", "z_bottom", "z_top", "column_thickness", "surface_height")
+
+# SI symbols for named dimensions; anything else is spelt from its base units.
+_SI_BY_NAME = {
+    "dimensionless": "1", "pressure": "Pa", "temperature": "K", "length": "m", "time": "s",
+    "mass": "kg", "speed": "m/s", "inverse time (e.g. divergence)": "s^-1",
+    "pressure per time (e.g. omega)": "Pa/s", "acceleration": "m/s^2",
+    "density": "kg/m^3", "energy": "J", "temperature per length (e.g. lapse rate)": "K/m",
+    "temperature per pressure": "K/Pa", "inverse length": "m^-1",
+    "inverse pressure": "Pa^-1", "length per pressure": "m/Pa", "area": "m^2",
+}
+_SI_BASE = {"length": "m", "mass": "kg", "time": "s", "temperature": "K", "current": "A",
+            "amount_of_substance": "mol", "luminous_intensity": "cd"}
+
+
+def si_unit_text(dimension) -> str:
+    """The SI unit of a dimension as text: "Pa/s", "K/m", or base units ("kg m^-1")."""
+    named = _SI_BY_NAME.get(U.dimension_name(dimension))
+    if named:
+        return named
+    parts = []
+    for base, power in sorted(U.dependencies(dimension)):
+        symbol = _SI_BASE.get(base, base)
+        parts.append(symbol if power == 1 else f"{symbol}^{power}")
+    return " ".join(parts) or "1"
+
+
+def si_unit(dimension) -> U.Unit:
+    return U.Unit(dimension, 1.0, 0.0, si_unit_text(dimension))
+
+
+def output_unit(sheet, name: str, kind: str, system: str = "trade",
+                heights: str = "m") -> U.Unit:
+    """The unit a column or cell is shown in: SI (`system="si"`), or the trade's unit for
+    the canonical names and the sheet's own unit for everything else. `heights` ("m" or
+    "dam") applies to thicknesses and heights in trade units."""
+    from .check import parse_unit_string
+
+    declared = sheet.unit_of(name, kind)
+    if system == "si":
+        return si_unit(declared.dimension)
+    table = TRADE_COLUMN_UNITS if kind == "column" else TRADE_CELL_UNITS
+    text = table.get(name)
+    if text is None:
+        return declared
+    if name in HEIGHT_NAMES:
+        text = heights
+    unit = parse_unit_string(text)
+    return unit if U.same_dimension(unit.dimension, declared.dimension) else declared
+
+
+# ---------------------------------------------------------------- the JSON document
+def _number(value):
+    value = float(value)
+    return value + 0.0 if math.isfinite(value) else None  # + 0.0: no "-0.0"
+
+
+def _notice(notice) -> dict:
+    span = getattr(notice, "span", None)
+    return {"line": span.line if span is not None else None,
+            "column": span.column if span is not None else None,
+            "message": notice.message}
+
+
+def _scenario_info(sheet, name: str):
+    found = sheet.checked.scenarios.get(name) if name != "base" else None
+    return (found.description if found else ""), (list(found.notices) if found else [])
+
+
+def result_document(sheet, result) -> dict:
+    """One variant's results in the documented shape (SI units)."""
+    checked = result.sheet  # the compiled sheet this variant used (options may differ)
+    columns = result.si_columns
+    cells = result.si_cells
+    summary_extra = result.summary
+    units: dict[str, str] = {}
+    for name in [*LAYER_KEYS, *checked.column_names]:
+        if name in columns and name not in units:
+            units[name] = si_unit_text(checked.unit_of(name, "column").dimension)
+    layers = []
+    names = [*LAYER_KEYS, *(n for n in checked.column_names if n not in LAYER_KEYS)]
+    for i in range(checked.layer_count):
+        layers.append({n: (_number(columns[n][i]) if n in columns else None) for n in names})
+    summary: dict = {}
+    for name in SUMMARY_KEYS:
+        if name == "level_of_nondivergence":
+            levels = summary_extra.get(name)
+            summary[name] = None if levels is None else [float(p) for p in levels]
+            units[name] = "Pa"
+        else:
+            summary[name] = _number(cells[name]) if name in cells else None
+            if name in cells:
+                units.setdefault(name, si_unit_text(checked.unit_of(name, "cell").dimension))
+    for name in checked.cell_names:
+        if name in summary or name in HIDDEN_CELLS:
+            continue
+        summary[name] = _number(cells[name])
+        units.setdefault(name, si_unit_text(checked.unit_of(name, "cell").dimension))
+    for key in ("standard_heights", "standard_thicknesses"):
+        if key in summary_extra:
+            summary[key] = {k: float(v) for k, v in summary_extra[key].items()}
+            units[key] = "m"
+    description, scenario_notices = _scenario_info(sheet, result.scenario)
+    notices = [*sheet.check(), *scenario_notices]
+    return {
+        "title": sheet.title,
+        "scenario": result.scenario,
+        "description": description,
+        "case": Path(sheet.checked.source.name).name,
+        "units": units,
+        "layers": layers,
+        "summary": summary,
+        "options": dict(checked.options),
+        "notes": sheet.notes,
+        "remarks": list(checked.remarks),
+        "replaced_defaults": list(checked.replaced_defaults),
+        "notices": [_notice(n) for n in notices],
+        "caution": _caution(),
+    }
+
+
+def scenarios_document(sheet, names: list[str]) -> dict:
+    """Several variants (the base first): {"title", "caution", "scenarios": [document...]}."""
+    return {"title": sheet.title, "caution": _caution(),
+            "scenarios": [result_document(sheet, sheet.evaluate(n)) for n in names]}
+
+
+def _caution() -> str:
+    from .sheet import CAUTION
+
+    return CAUTION
+
+
+def dumps(document: dict) -> str:
+    return json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False) + "\n"
+
+
+# ---------------------------------------------------------------- CSV
+def layer_table_csv(result, system: str = "trade", heights: str = "m") -> str:
+    """The layer table as CSV text: a row of names, a row of units, one row per layer from
+    the surface upward."""
+    import csv
+    import io
+
+    checked = result.sheet
+    columns = result.si_columns
+    names = [n for n in checked.column_names if n in columns]
+    units = [output_unit(checked, n, "column", system, heights) for n in names]
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(names)
+    writer.writerow([u.text for u in units])
+    converted = [u.from_si(columns[n]) for n, u in zip(names, units)]
+    for i in range(checked.layer_count):
+        writer.writerow([repr(float(values[i])) for values in converted])
+    return buffer.getvalue()
+
+
+# ---------------------------------------------------------------- writing files
+def _file_mode(path: Path) -> int:
+    """The mode a replaced file keeps, or what a new file gets under the umask (a temporary
+    file starts readable by its owner only)."""
+    try:
+        return path.stat().st_mode & 0o7777
+    except OSError:
+        umask = os.umask(0)
+        os.umask(umask)
+        return 0o666 & ~umask
+
+
+def write_text_atomic(path: str | Path, text: str) -> None:
+    """Write text (UTF-8) to a file atomically; see write_atomic."""
+    write_atomic(path, text.encode("utf-8"))
+
+
+def write_atomic(path: str | Path, data: bytes) -> None:
+    """Write bytes to a file through a temporary file in the same folder, then rename, so a
+    reader never sees half a file and a failed write leaves the old file as it was."""
+    path = Path(path)
+    folder = path.parent
+    if path.is_dir():
+        raise OutputError(f"cannot write {path}: it is a folder")
+    try:
+        handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp",
+                                             dir=folder)
+    except FileNotFoundError:
+        raise OutputError(f"cannot write {path}: the folder {folder} does not exist",
+                          hint="create the folder first or choose another path") from None
+    except OSError as exc:
+        raise OutputError(f"cannot write {path}: {exc.strerror}") from None
+    try:
+        with os.fdopen(handle, "wb") as stream:
+            stream.write(data)
+        os.chmod(temporary, _file_mode(path))
+        os.replace(temporary, path)
+    except OSError as exc:
+        try:
+            os.unlink(temporary)
+        except OSError:
+            pass
+        raise OutputError(f"cannot write {path}: {exc.strerror}") from None

@@ -1,0 +1,277 @@
+"""The command line: every command through a real process (`python -m layercalc`, run from a
+fresh folder) and in-process (`layercalc.cli.main`), exit codes, and errors without
+tracebacks."""
+
+from __future__ import annotations
+
+import csv
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+import layercalc
+from layercalc.cli import main, worked_cases_folder
+from layercalc.templates import TEMPLATE
+
+CASES = worked_cases_folder()
+WARMING = CASES / "midlevel_warming.layers"
+PACKAGE_ROOT = Path(layercalc.__file__).resolve().parent.parent
+COMMANDS = ("run", "check", "new", "demo", "plot", "export", "import", "sweep")
+
+BAD_UNITS = """\
+title "bad"
+layers
+  p_bottom [hPa]  p_top [hPa]  T [degC]
+  1000  850  10
+end
+column bad = T + p_bottom
+"""
+
+
+def layercalc_process(*args: str, cwd: Path) -> subprocess.CompletedProcess:
+    """`python -m layercalc ARGS` in another process, importing the same layercalc."""
+    env = dict(os.environ)
+    env["PYTHONPATH"] = os.pathsep.join([str(PACKAGE_ROOT), env.get("PYTHONPATH", "")])
+    return subprocess.run([sys.executable, "-m", "layercalc", *args], cwd=cwd, env=env,
+                          capture_output=True, text=True, timeout=300)
+
+
+@pytest.fixture
+def bad_case(tmp_path) -> Path:
+    path = tmp_path / "bad.layers"
+    path.write_text(BAD_UNITS, encoding="utf-8")
+    return path
+
+
+# ---------------------------------------------------------------- through a process
+def test_run_in_a_process_from_a_fresh_folder(tmp_path):
+    done = layercalc_process("run", str(WARMING), cwd=tmp_path)
+    assert done.returncode == 0, done.stderr
+    assert "Kestrel Fell" in done.stdout and "Summary" in done.stdout
+    assert "caution:" in done.stdout
+    assert list(tmp_path.iterdir()) == []  # nothing left behind
+
+
+def test_json_in_a_process(tmp_path):
+    done = layercalc_process("run", str(WARMING), "--json", cwd=tmp_path)
+    assert done.returncode == 0, done.stderr
+    document = json.loads(done.stdout)
+    assert document["scenario"] == "base" and len(document["layers"]) == 12
+
+
+def test_a_bad_file_gives_exit_1_with_position_and_no_traceback(tmp_path, bad_case):
+    for command in ("run", "check", "plot"):
+        extra = ("-o", str(tmp_path / "x.png")) if command == "plot" else ()
+        done = layercalc_process(command, str(bad_case), *extra, cwd=tmp_path)
+        assert done.returncode == 1, (command, done.stderr)
+        text = done.stdout + done.stderr
+        assert f"{bad_case}:6:14: unit error" in text
+        assert "^" in text
+        assert "Traceback" not in text
+
+
+def test_usage_errors_exit_2(tmp_path):
+    assert layercalc_process(cwd=tmp_path).returncode == 2
+    done = layercalc_process("run", str(WARMING), "--no-such-option", cwd=tmp_path)
+    assert done.returncode == 2 and "Traceback" not in done.stderr
+    assert layercalc_process("frobnicate", cwd=tmp_path).returncode == 2
+    both = layercalc_process("run", str(WARMING), "--scenario", "warmed",
+                             "--all-scenarios", cwd=tmp_path)
+    assert both.returncode == 2
+
+
+def test_demo_in_a_process_from_any_folder(tmp_path):
+    done = layercalc_process("demo", cwd=tmp_path)
+    assert done.returncode == 0, done.stderr
+    assert "Where to go next" in done.stdout and "layercalc new" in done.stdout
+    assert "surface pressure tendency" in done.stdout
+
+
+def test_new_plot_and_check_in_a_process(tmp_path):
+    made = layercalc_process("new", "-o", "mine.layers", cwd=tmp_path)
+    assert made.returncode == 0, made.stderr
+    assert (tmp_path / "mine.layers").read_text(encoding="utf-8") == TEMPLATE
+    assert layercalc_process("check", "mine.layers", cwd=tmp_path).stdout.strip() == "ok"
+    drawn = layercalc_process("plot", "mine.layers", "-o", "mine.png", cwd=tmp_path)
+    assert drawn.returncode == 0, drawn.stderr
+    assert (tmp_path / "mine.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_help_on_every_command_has_an_example(command, tmp_path):
+    done = layercalc_process(command, "--help", cwd=tmp_path)
+    assert done.returncode == 0, done.stderr
+    assert "example" in done.stdout and f"layercalc {command}" in done.stdout
+
+
+# ---------------------------------------------------------------- in-process
+def run(capsys, *args: str) -> tuple[int, str, str]:
+    code = main(list(args))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_top_level_help_and_version(capsys):
+    with pytest.raises(SystemExit) as stop:
+        main(["--help"])
+    assert stop.value.code == 0
+    assert "layercalc demo" in capsys.readouterr().out
+    with pytest.raises(SystemExit):
+        main(["--version"])
+    assert layercalc.__version__ in capsys.readouterr().out
+
+
+def test_no_command_is_a_usage_error(capsys):
+    code, _, err = run(capsys)
+    assert code == 2 and "usage" in err
+
+
+def test_run_report(capsys):
+    code, out, err = run(capsys, "run", str(WARMING))
+    assert code == 0 and err == ""
+    assert max(len(line) for line in out.splitlines()) <= 80
+    assert "200-150" in out.split("1000-950")[0]  # the column top comes first
+
+
+def test_run_si_units_and_decametres(capsys):
+    _, si, _ = run(capsys, "run", str(WARMING), "--units", "si")
+    assert "Pa/s" in si and "hPa/h" not in si
+    _, dam, _ = run(capsys, "run", str(WARMING), "--heights", "dam")
+    assert "Heights of standard surfaces (dam)" in dam
+
+
+def test_run_one_scenario_and_all_scenarios(capsys):
+    code, out, _ = run(capsys, "run", str(WARMING), "--scenario", "warmed")
+    assert code == 0 and "scenario warmed: the 500-300" in out and "add 3 K to T" in out
+    code, out, _ = run(capsys, "run", str(WARMING), "--all-scenarios")
+    assert code == 0 and "warmed_divergent" in out and "Scenarios compared" in out
+    assert max(len(line) for line in out.splitlines()) <= 80
+    code, out, _ = run(capsys, "run", str(WARMING), "--all-scenarios", "--json")
+    names = [d["scenario"] for d in json.loads(out)["scenarios"]]
+    assert names == ["base", "warmed", "warmed_divergent"]
+
+
+def test_an_unknown_scenario_is_our_error(capsys):
+    code, out, err = run(capsys, "run", str(WARMING), "--scenario", "warmd")
+    assert code == 1 and out == ""
+    assert "no scenario named 'warmd'" in err and "warmed" in err
+
+
+def test_csv_has_a_units_row_and_is_written_whole(capsys, tmp_path):
+    target = tmp_path / "layers.csv"
+    code, _, _ = run(capsys, "run", str(WARMING), "--csv", str(target))
+    assert code == 0
+    rows = list(csv.reader(target.open(encoding="utf-8")))
+    assert rows[0][:3] == ["p_bottom", "p_top", "T"]
+    assert rows[1][:3] == ["hPa", "hPa", "degC"]
+    assert len(rows) == 2 + 12 and float(rows[2][0]) == 1000.0  # surface first
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["layers.csv"]  # no temp file left
+    code, _, _ = run(capsys, "run", str(WARMING), "--csv", str(target), "--units", "si")
+    assert list(csv.reader(target.open(encoding="utf-8")))[1][:3] == ["Pa", "Pa", "K"]
+
+
+def test_output_to_a_file_and_to_a_missing_folder(capsys, tmp_path):
+    code, out, _ = run(capsys, "run", str(WARMING), "--json", "-o", str(tmp_path / "r.json"))
+    assert code == 0 and out == ""
+    assert json.loads((tmp_path / "r.json").read_text(encoding="utf-8"))["layers"]
+    code, _, err = run(capsys, "run", str(WARMING), "-o", str(tmp_path / "no" / "r.txt"))
+    assert code == 1 and "does not exist" in err
+
+
+def test_missing_file(capsys, tmp_path):
+    code, _, err = run(capsys, "run", str(tmp_path / "nothing.layers"))
+    assert code == 1 and "no such file" in err
+
+
+def test_check_ok_and_problems(capsys, bad_case):
+    code, out, _ = run(capsys, "check", str(WARMING))
+    assert code == 0 and out.strip().endswith("ok")
+    code, out, _ = run(capsys, "check", str(bad_case))
+    assert code == 1
+    assert out.startswith(f"{bad_case}:6:14: unit error: cannot add a pressure to a "
+                          "temperature")
+    assert "6 | column bad = T + p_bottom" in out
+    code, out, _ = run(capsys, "check", str(WARMING), str(bad_case))
+    assert code == 1 and f"{WARMING}: ok" in out
+
+
+def test_check_lists_every_problem(capsys, tmp_path):
+    path = tmp_path / "two.layers"
+    path.write_text(BAD_UNITS + "column worse = ln(p_top)\n", encoding="utf-8")
+    code, out, _ = run(capsys, "check", str(path))
+    assert code == 1
+    assert f"{path}:6:" in out and f"{path}:7:" in out
+
+
+def test_new_template_loads_refuses_to_overwrite_and_forces(capsys, tmp_path):
+    code, out, _ = run(capsys, "new")
+    assert code == 0 and out == TEMPLATE
+    target = tmp_path / "c.layers"
+    assert run(capsys, "new", "-o", str(target))[0] == 0
+    target.write_text("mine", encoding="utf-8")
+    code, _, err = run(capsys, "new", "-o", str(target))
+    assert code == 1 and "exists already" in err and "--force" in err
+    assert target.read_text(encoding="utf-8") == "mine"
+    assert run(capsys, "new", "-o", str(target), "--force")[0] == 0
+    sheet = layercalc.load(target)
+    sheet.evaluate()
+    for scenario in sheet.scenarios:
+        sheet.evaluate(scenario)
+
+
+def test_template_uses_every_construct():
+    sheet = layercalc.loads(TEMPLATE, name="template.layers")
+    assert sheet.title and sheet.notes and sheet.scenarios
+    assert sheet.options == {"integrate": "from_surface", "adjust": "obrien"}
+    assert sheet.check() == []
+    formulas = " ".join(f.source_text for f in sheet.checked.formulas if not f.default)
+    for word in ("below(", "where(", "sum(", "at_max(", "^"):
+        assert word in formulas
+    for word in ("add ", "scale ", "between", "above"):
+        assert word in TEMPLATE
+
+
+def test_demo_list_and_unknown(capsys):
+    code, out, _ = run(capsys, "demo", "--list")
+    assert code == 0 and "standard_atmosphere" in out
+    code, _, err = run(capsys, "demo", "standard_atmosphre")
+    assert code == 1 and "standard_atmosphere" in err
+
+
+def test_plot_refuses_other_formats(capsys, tmp_path):
+    code, _, err = run(capsys, "plot", str(WARMING), "-o", str(tmp_path / "p.jpg"))
+    assert code == 1 and ".png or .svg" in err
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_sweep(capsys, tmp_path):
+    code, out, _ = run(capsys, "sweep", str(WARMING), "--vary", "omega_top=-1:1:1",
+                       "--csv", str(tmp_path / "s.csv"))
+    assert code == 0 and "3 points" in out
+    rows = list(csv.reader((tmp_path / "s.csv").open(encoding="utf-8")))
+    assert rows[0][0] == "omega_top" and len(rows) == 2 + 3
+    code, _, err = run(capsys, "sweep", str(WARMING), "--vary", "nothing=0:1:1")
+    assert code == 1 and "nothing" in err
+
+
+def test_export_and_import(capsys, tmp_path):
+    from layercalc.cli import _available
+
+    book = tmp_path / "case.xlsx"
+    code, _, err = run(capsys, "export", str(WARMING), "-o", str(book))
+    if not _available("xlsx_export"):
+        assert code == 1 and "not part of this version" in err
+        return
+    assert code == 0 and book.is_file()
+    if not _available("xlsx_import"):
+        return
+    back = tmp_path / "back.layers"
+    code, _, err = run(capsys, "import", str(book), "-o", str(back))
+    assert code == 0, err
+    layercalc.load(back).evaluate()
+    code, _, err = run(capsys, "import", str(book), "-o", str(back))
+    assert code == 1 and "exists already" in err
