@@ -1,0 +1,265 @@
+"""The exported workbooks recalculated by a real spreadsheet program (LibreOffice Calc,
+headless): every live formula must give layercalc's own number.
+
+How: each workbook is converted xlsx -> xlsx by `soffice --headless --calc --convert-to`,
+with a private user profile (per test session) set to recalculate every formula on load
+(org.openoffice.Office.Calc/Formula/Load/OOXMLRecalcMode = 0, "always"); the converted
+file holds LibreOffice's results as cached values, read back with openpyxl data_only=True.
+The reference is layercalc's evaluation of the same sheet (the `values` twin as written by
+the exporter, and Result.layers / Result.cells directly).
+
+Relative difference: |calc - layercalc| / max(|layercalc|, m), below 1e-9, where m is the
+largest magnitude of the same column of the layer table (or of the chart data) for layer
+rows, and |layercalc| alone for single cells: an omega that is zero up to rounding at the
+top of a column is compared on the scale of that column's omega.
+Skipped only when soffice is not installed (CI installs libreoffice-calc-nogui).
+"""
+
+from __future__ import annotations
+
+import re
+import shutil
+import subprocess
+import zipfile
+from pathlib import Path
+
+import numpy as np
+import pytest
+from openpyxl import load_workbook
+
+import layercalc
+import layercalc.cli
+from layercalc.xlsx_export import write_workbook
+from layercalc.xlsx_layout import FIRST_ROW
+
+from .test_xlsx_export import ALL_CASES, CASES, case_sheet, derived_places
+
+SOFFICE = shutil.which("soffice") or shutil.which("libreoffice")
+pytestmark = pytest.mark.skipif(SOFFICE is None, reason="LibreOffice (soffice) is not "
+                                "installed: apt-get install libreoffice-calc-nogui")
+TOLERANCE = 1e-9
+TIMEOUT_SECONDS = 600
+RECALCULATE_ALWAYS = """<?xml version="1.0" encoding="UTF-8"?>
+<oor:items xmlns:oor="http://openoffice.org/2001/registry"
+  xmlns:xs="http://www.w3.org/2001/XMLSchema"
+  xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance">
+<item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="OOXMLRecalcMode"
+  oor:op="fuse"><value>0</value></prop></item>
+</oor:items>
+"""
+EDITED_TEMPERATURE = -2.0  # layer 3 of the every_function case: -5 degC in the text
+EDITED_WARMING = 5.0  # the midlevel_warming case's what-if parameter: 3 K in the file
+
+
+def convert(files: list[Path], out: Path, profile: Path) -> dict[Path, Path]:
+    """Recalculate and save each workbook with LibreOffice; original -> converted path."""
+    (profile / "user").mkdir(parents=True, exist_ok=True)
+    (profile / "user" / "registrymodifications.xcu").write_text(RECALCULATE_ALWAYS)
+    out.mkdir(parents=True, exist_ok=True)
+    command = [SOFFICE, f"-env:UserInstallation={profile.as_uri()}", "--headless",
+               "--norestore", "--calc", "--convert-to", "xlsx", "--outdir", str(out),
+               *map(str, files)]
+    done = subprocess.run(command, capture_output=True, text=True, timeout=TIMEOUT_SECONDS)
+    converted = {f: out / f.name for f in files}
+    missing = [str(f) for f, c in converted.items() if not c.exists()]
+    assert done.returncode == 0 and not missing, (done.returncode, done.stderr, missing)
+    return converted
+
+
+def edited_text() -> str:
+    text = CASES["every_function"]
+    old = "  700   500   -5.0  -12.0   0.3"
+    assert old in text
+    return text.replace(old, f"  700   500   {EDITED_TEMPERATURE}  -12.0   0.3")
+
+
+def stale_copy(converted: Path, target: Path) -> None:
+    """The converted workbook (cached values present) with layers!C4 changed inside the
+    sheet XML, leaving every cached result as it was (stale)."""
+    with zipfile.ZipFile(converted) as source, zipfile.ZipFile(target, "w") as out:
+        for item in source.infolist():
+            data = source.read(item.filename)
+            if item.filename == "xl/worksheets/sheet1.xml":  # `layers`, the first sheet
+                text = data.decode("utf-8")
+                new, count = re.subn(r'(<c r="C4"[^>]*><v>)[^<]*(</v>)',
+                                     rf"\g<1>{EDITED_TEMPERATURE}\g<2>", text)
+                assert count == 1
+                data = new.encode("utf-8")
+            out.writestr(item, data)
+
+
+@pytest.fixture(scope="module")
+def recalculated(tmp_path_factory):
+    """Every case exported, plus an edited and a stale-cache workbook, recalculated by
+    LibreOffice in one run (then the stale one in a second run, since it is built from
+    the first run's output)."""
+    folder = tmp_path_factory.mktemp("calc")
+    exported = {}
+    for name in ALL_CASES:
+        exported[name] = (case_sheet(name), folder / f"{name}.xlsx")
+        write_workbook(*exported[name])
+    edited = folder / "edited.xlsx"
+    shutil.copy(exported["every_function"][1], edited)
+    workbook = load_workbook(edited)
+    assert workbook["layers"]["C4"].value == -5
+    workbook["layers"]["C4"].value = EDITED_TEMPERATURE
+    workbook.save(edited)
+    what_if = folder / "what_if.xlsx"
+    shutil.copy(exported["midlevel_warming"][1], what_if)
+    workbook = load_workbook(what_if)
+    rows = [c.row for c in workbook["settings"]["A"] if c.value == "warming"]
+    assert len(rows) == 1 and workbook["settings"].cell(rows[0], 2).value == 3
+    workbook["settings"].cell(rows[0], 2).value = EDITED_WARMING
+    workbook.save(what_if)
+    profile = folder / "profile"
+    converted = convert([p for _, p in exported.values()] + [edited, what_if], folder / "out",
+                        profile)
+    stale = folder / "stale.xlsx"
+    stale_copy(converted[exported["every_function"][1]], stale)
+    converted.update(convert([stale], folder / "out_stale", profile))
+    return exported, converted, edited, stale, what_if
+
+
+def compare_sheets(live_path: Path, calc_path: Path) -> tuple[int, float, list]:
+    """Every formula cell of the live sheets against the exporter's values twin (layercalc's
+    numbers). Returns (cells compared, worst relative difference, failures)."""
+    live = load_workbook(live_path)
+    calc = load_workbook(calc_path, data_only=True)
+    twin_of = {}
+    for name in live.sheetnames:
+        if name == "results":
+            twin_of[name] = "values"
+        elif name.startswith("results_"):
+            twin_of[name] = "values_" + name[len("results_"):]
+        elif name == "compare":
+            twin_of[name] = "values_compare"
+    count, worst, failures = 0, 0.0, []
+    for name, twin in twin_of.items():
+        ws, want_ws, got_ws = live[name], live[twin], calc[name]
+        layers = sum(1 for r in range(FIRST_ROW, ws.max_row + 1)
+                     if str(ws.cell(r, 1).value or "").startswith("='layers'!")) \
+            if name != "compare" else 0
+        chart_rows = [r for r in range(1, ws.max_row + 1)
+                      if ws.cell(r, 1).value == "chart data (live)"]
+        chart_start = chart_rows[0] if chart_rows else ws.max_row + 1
+        scales: dict = {}
+        cells = []
+        for row in ws.iter_rows():
+            for cell in row:
+                if cell.data_type != "f":
+                    continue
+                want = want_ws[cell.coordinate].value
+                got = got_ws[cell.coordinate].value
+                if FIRST_ROW <= cell.row < FIRST_ROW + layers:
+                    group = ("layers", cell.column)
+                elif cell.row > chart_start:
+                    group = ("chart", cell.column)
+                else:
+                    group = ("cell", cell.coordinate)
+                scales[group] = max(scales.get(group, 0.0), abs(want))
+                cells.append((cell.coordinate, group, got, want))
+        for coordinate, group, got, want in cells:
+            count += 1
+            if not isinstance(got, (int, float)) or isinstance(got, bool):
+                failures.append((name, coordinate, got, want))
+                continue
+            scale = max(abs(want), scales[group]) if group[0] != "cell" else abs(want)
+            difference = abs(got - want) / scale if scale else abs(got - want)
+            worst = max(worst, difference)
+            if difference >= TOLERANCE:
+                failures.append((name, coordinate, got, want))
+    return count, worst, failures
+
+
+@pytest.mark.parametrize("name", ALL_CASES)
+def test_libreoffice_recalculates_layercalcs_numbers(recalculated, name):
+    exported, converted, *_ = recalculated
+    sheet, path = exported[name]
+    count, worst, failures = compare_sheets(path, converted[path])
+    # source: layercalc's own evaluation of the same case (the values twin)
+    assert not failures, failures[:5]
+    formulas = sum(sheet.checked.layer_count if f.kind == "column" else 1
+                   for f in sheet.checked.formulas)
+    assert count >= formulas
+    print(f"{name}: {count} formula cells, worst relative difference {worst:.2e}")
+
+
+@pytest.mark.parametrize("name", ["every_function", "midlevel_warming"])
+def test_recalculated_results_equal_the_api_results(recalculated, name):
+    # The same check without the values twin in between: LibreOffice's numbers against
+    # Result.layers and Result.cells of sheet.evaluate() (source: layercalc's evaluation).
+    exported, converted, *_ = recalculated
+    sheet, path = exported[name]
+    live = load_workbook(path)["results"]
+    calc = load_workbook(converted[path], data_only=True)["results"]
+    result = sheet.evaluate()
+    for formula, cells in derived_places(sheet, live):
+        want = (result.layers[formula.name].to_numpy() if formula.kind == "column"
+                else np.array([result.cells[formula.name]]))
+        got = np.array([calc[c].value for c in cells], dtype=float)
+        scale = np.maximum(np.abs(want), np.max(np.abs(want)))
+        scale[scale == 0] = 1.0
+        assert np.all(np.abs(got - want) / scale < TOLERANCE), (formula.name, got, want)
+
+
+def check_follows_edit(calc_path: Path, original_path: Path) -> None:
+    sheet = layercalc.loads(edited_text(), name="edited.layers")
+    result = sheet.evaluate()
+    live = load_workbook(original_path)["results"]
+    calc = load_workbook(calc_path, data_only=True)["results"]
+    before = case_sheet("every_function").evaluate()
+    moved = 0
+    for formula, cells in derived_places(sheet, live):
+        want = (result.layers[formula.name].to_numpy() if formula.kind == "column"
+                else np.array([result.cells[formula.name]]))
+        old = (before.layers[formula.name].to_numpy() if formula.kind == "column"
+               else np.array([before.cells[formula.name]]))
+        got = np.array([calc[c].value for c in cells], dtype=float)
+        scale = np.maximum(np.abs(want), np.max(np.abs(want)))
+        scale[scale == 0] = 1.0
+        # source: layercalc's evaluation of the case with the same edit made in the text
+        assert np.all(np.abs(got - want) / scale < TOLERANCE), (formula.name, got, want)
+        moved += int(np.any(np.abs(old - want) / scale > 1e-6))
+    assert moved >= 10  # the edit reaches thickness, heights, lapse rate, ...
+
+
+def test_an_edit_in_layers_flows_through_the_formulas(recalculated):
+    exported, converted, edited, *_ = recalculated
+    check_follows_edit(converted[edited], exported["every_function"][1])
+
+
+def test_libreoffice_recalculates_rather_than_reading_saved_values(recalculated):
+    # The stale workbook still carries the old results as cached values; only a real
+    # recalculation gives the edited case's numbers.
+    exported, converted, _, stale, _ = recalculated
+    check_follows_edit(converted[stale], exported["every_function"][1])
+
+
+def test_text_that_looks_like_a_formula_stays_text_in_libreoffice(recalculated):
+    exported, converted, *_ = recalculated
+    calc = load_workbook(converted[exported["every_function"][1]])
+    for sheet, coordinate in (("results", "A1"), ("settings", "B2"), ("notes", "A1")):
+        cell = calc[sheet][coordinate]
+        assert cell.data_type == "s" and cell.value.startswith("=SUM(A1) is a title")
+
+
+def test_a_what_if_parameter_edited_in_settings_flows_into_the_scenarios(recalculated):
+    exported, converted, _, _, what_if = recalculated
+    path = layercalc.cli.worked_cases_folder() / "midlevel_warming.layers"
+    text = path.read_text()
+    assert "cell warming = 3 K" in text
+    sheet = layercalc.loads(text.replace("cell warming = 3 K", f"cell warming = "
+                                         f"{EDITED_WARMING} K"), name="what_if.layers")
+    live = load_workbook(exported["midlevel_warming"][1])
+    calc = load_workbook(converted[what_if], data_only=True)
+    for scenario in ("warmed", "warmed_divergent"):
+        result = sheet.evaluate(scenario)
+        name = f"results_{scenario}"
+        for formula, cells in derived_places(result.sheet, live[name]):
+            want = (result.layers[formula.name].to_numpy() if formula.kind == "column"
+                    else np.array([result.cells[formula.name]]))
+            got = np.array([calc[name][c].value for c in cells], dtype=float)
+            scale = np.maximum(np.abs(want), np.max(np.abs(want)))
+            scale[scale == 0] = 1.0
+            # source: layercalc's evaluation of the case with warming = 5 K in the text
+            assert np.all(np.abs(got - want) / scale < TOLERANCE), (scenario, formula.name)

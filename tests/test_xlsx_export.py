@@ -1,0 +1,420 @@
+"""Workbook export: layout, live formulas, values twin, chart, text safety, atomic writes.
+
+The numbers in the workbook are checked against layercalc's own evaluation here (the values
+sheet) and against LibreOffice's recalculation in test_libreoffice.py (the formulas).
+The case texts below are made-up columns, shared with the import and LibreOffice tests.
+"""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+from openpyxl import load_workbook
+
+import layercalc
+from layercalc.cli import worked_cases_folder
+from layercalc.errors import OutputError
+from layercalc.evaluate import BINARY as EVALUATED_BINARY, UNARY as EVALUATED_UNARY
+from layercalc.functions import AGGREGATE_MAX, AGGREGATE_MIN, FUNCTIONS, ROW_MAX, ROW_MIN
+from layercalc.xlsx_export import write_workbook
+from layercalc.xlsx_formulas import BINARY, CALLS, UNARY, number_text
+from layercalc.xlsx_layout import FIRST_ROW, HEADER_ROW
+
+EVERY_FUNCTION = """\
+title "=SUM(A1) is a title, not a formula"
+note "+ made-up training column at Station A"
+note "@ and - at the start stay text too"
+option integrate = from_top
+cell surface_height = 320 m
+cell omega_top = -0.2 [Pa/s]
+layers
+  p_bottom [hPa]  p_top [hPa]  T [degC]  Td [degC]  div [1e-5 s^-1]
+  1000  850   14.0    9.0  -1.0
+  850   700    6.0    1.0  -0.5
+  700   500   -5.0  -12.0   0.3
+  500   300  -22.0  -35.0   0.8
+  300   200  -45.0  -55.0   0.4
+end
+column lapse [K/km] = (T - above(T, T)) / (above(z_bottom, z_top) - z_bottom)
+column T_below [degC] = below(T, T - 1 K)
+column flag = where(T > 0 degC and not (Td < 253.15 K) or div >= 0.5 [1e-5 s^-1], 1, 0)
+column compared = where(T == T, 1, 0) + where(T != Td, 2, 0) + where(T <= Td, 4, 0)
+column mixed = (dp / 100 [hPa]) ^ 0.5 + exp(-abs(div) / 1 [1e-5 s^-1]) + ln(p_bottom / p_top)
+column root = sqrt(p_mid * 1 [Pa]) / 1 [Pa]
+column coolest [degC] = min(T, Td, T - 1 K)
+column warmest [degC] = max(T, Td)
+column es [hPa] = saturation_vapour_pressure(T)
+column r_again [g/kg] = mixing_ratio(vapour_pressure(Td), p_mid)
+column e_again [hPa] = vapour_pressure_from_mixing_ratio(r, p_mid)
+column Tv_K [K] = virtual_temperature(T, r)
+column dz_km [km] = hypsometric_thickness(Tv, p_bottom, p_top)
+column w_mm [mm/s] = vertical_velocity(omega_top, p_top, Tv)
+column density [kg m^-3] = p_mid / (Rd * Tv)
+column gas_ratio = Rv / Rd * epsilon
+column same_thickness [m] = thickness * g0 / g0
+column warmth_sum [K] = upward_sum(T - 273.15 K)
+column depth_above [hPa] = downward_sum(dp)
+column T_running [K] = upward_sum(T)
+column is_warm = T > 0 degC
+cell mean_T [degC] = mean(T)
+cell sum_T [K] = sum(T)
+cell min_T [degC] = min(T)
+cell max_div [1e-5 s^-1] = max(div)
+cell top_T [degC] = highest_layer(T)
+cell coldest_p [hPa] = at_min(T, p_mid)
+cell driest_p [hPa] = at_max(T - Td, p_mid)
+cell warm_column = where(mean_T > 0 degC, 1, 0)
+cell pressures [hPa] = -lowest_layer(p_bottom) + +max(p_top)
+cell spread [K] = max(T - Td) - min(abs(T - Td))
+"""
+
+FROM_SURFACE_OBRIEN = """\
+title "Northfield, made-up: integrated from the surface, O'Brien adjustment"
+option integrate = from_surface
+option adjust = obrien
+cell surface_height = 150 m
+cell omega_surface = 0.2 [Pa/s]
+cell omega_top = 0 [Pa/s]
+cell upslope_wind = 5 [m/s]
+cell terrain_slope = 0.01
+cell pressure_advection = 0.5 [hPa/h]
+cell unused_note_value = 7 [m]
+layers
+  p_bottom [hPa]  p_top [hPa]  T [K]  RH [%]  div [1e-5 s^-1]
+  400  250  240  40   1.2
+  600  400  258  55   0.6
+  800  600  272  70  -0.4
+  1000 800  285  80  -0.9
+end
+"""
+
+UNIFORM_MIXING_RATIO = """\
+option integrate = from_surface
+option adjust = uniform
+layers
+  p_bottom [kPa]  p_top [kPa]  T [degC]  r [g/kg]  div [s^-1]
+  101.3  92.5   18.0  11.0  -2e-5
+  92.5   85.0   13.0   9.0  -1e-5
+  85.0   70.0    6.0   5.5   0.4e-5
+  70.0   50.0   -8.0   2.0   1.6e-5
+end
+column w_mean [cm/s] = (w_bottom + w_top) / 2
+"""
+
+DRY = """\
+title "Dry column, made-up"
+layers
+  p_bottom [hPa]  p_top [hPa]  T [degC]  div [1e-5 s^-1]
+  1000  850   10.0  -0.8
+  850   700    2.0  -0.2
+  700   500  -10.0   0.4
+  500   300  -30.0   0.6
+end
+"""
+
+CASES = {"every_function": EVERY_FUNCTION, "from_surface_obrien": FROM_SURFACE_OBRIEN,
+         "uniform_mixing_ratio": UNIFORM_MIXING_RATIO, "dry": DRY}
+WORKED = sorted(worked_cases_folder().glob("*.layers"))
+
+
+def case_sheet(name: str):
+    """A test case by name: one of CASES or a worked case (file stem)."""
+    if name in CASES:
+        return layercalc.loads(CASES[name], name=f"{name}.layers")
+    return layercalc.load(worked_cases_folder() / f"{name}.layers")
+
+
+ALL_CASES = [*CASES, *(p.stem for p in WORKED)]
+
+
+@pytest.fixture(scope="module")
+def exported(tmp_path_factory):
+    """Every case exported once: name -> (sheet, path)."""
+    folder = tmp_path_factory.mktemp("export")
+    out = {}
+    for name in ALL_CASES:
+        sheet = case_sheet(name)
+        path = folder / f"{name}.xlsx"
+        write_workbook(sheet, path)
+        out[name] = (sheet, path)
+    return out
+
+
+def derived_places(sheet_or_checked, ws):
+    """(formula, cell coordinates) of every derived column row and cell on a results sheet,
+    found from its header row and its cells block."""
+    checked = getattr(sheet_or_checked, "checked", sheet_or_checked)
+    headers = {ws.cell(HEADER_ROW, j).value: j for j in range(1, ws.max_column + 1)}
+    names = {}
+    for row in range(FIRST_ROW + checked.layer_count + 2, ws.max_row + 1):
+        if isinstance(ws.cell(row, 1).value, str):
+            names.setdefault(ws.cell(row, 1).value, row)
+    for formula in checked.formulas:
+        if formula.kind == "column":
+            column = headers[f"{formula.name} [{formula.unit.text}]"]
+            yield formula, [ws.cell(FIRST_ROW + k, column).coordinate
+                            for k in range(checked.layer_count)]
+        else:
+            yield formula, [f"B{names[formula.name]}"]
+
+
+def test_every_function_and_operator_has_a_spreadsheet_form():
+    # Structural: adding a function or operator without its spreadsheet form must fail here.
+    for function in (*FUNCTIONS.values(), AGGREGATE_MIN, AGGREGATE_MAX, ROW_MIN, ROW_MAX):
+        assert (function.name, function.layer_rule) in CALLS, function.name
+    assert set(EVALUATED_BINARY) <= set(BINARY)
+    assert set(EVALUATED_UNARY) <= set(UNARY)
+
+
+@pytest.mark.parametrize("value", [0.0, 1.0, -273.15, 1e-05, 100.0 / 3600.0,
+                                   100.0 / (3 * 3600.0), 287.05307204706463, -1.6280380500384461,
+                                   0.6219800858985512, 1e300, -5e-324])
+def test_number_text_gives_back_the_same_double(value):
+    # Exact round trip of the printed number (Python's float parsing as the reference,
+    # IEEE 754 correctly rounded division for the ratio form).
+    text = number_text(value).strip("()")
+    if "/" in text and "E" not in text:
+        numerator, denominator = text.split("/")
+        got = float(numerator) / float(denominator)
+    else:
+        got = float(text)
+    assert got == value
+
+
+def test_sheets_and_layout(exported):
+    sheet, path = exported["every_function"]
+    wb = load_workbook(path)
+    assert wb.sheetnames == ["layers", "settings", "results", "values", "formulas", "notes"]
+    layers = wb["layers"]
+    header = [c.value for c in layers[1][:5]]
+    assert header == ["p_bottom [hPa]", "p_top [hPa]", "T [degC]", "Td [degC]",
+                      "div [1e-5 s^-1]"]
+    # surface layer first, values as written in the case text (not computed: the input)
+    assert [layers.cell(r, 1).value for r in range(2, 7)] == [1000, 850, 700, 500, 300]
+    assert layers.freeze_panes == "A2"
+    results = wb["results"]
+    assert results.freeze_panes == f"C{FIRST_ROW}"
+    assert results.cell(2, 1).value == layercalc.CAUTION
+    assert wb["values"].cell(2, 1).value == layercalc.CAUTION
+    assert results.column_dimensions["F"].width >= 8
+    assert results.cell(HEADER_ROW, 1).font.bold
+    formats = {results.cell(FIRST_ROW, j).number_format
+               for j in range(6, 20)}
+    assert formats - {"General"}, "derived columns get number formats"
+    notes = [c.value for row in wb["notes"].iter_rows() for c in row if c.value]
+    text = "\n".join(str(v) for v in notes)
+    for needed in ("Bolton", "O'Brien", "Hypsometric", layercalc.__version__, layercalc.CAUTION,
+                   "integrate = from_top", "column dp [hPa] = p_bottom - p_top",
+                   "cell mean_T [degC] = mean(T)", "U.S. Standard Atmosphere"):
+        assert needed in text, needed
+
+
+def test_every_derived_value_is_a_live_formula_on_the_inputs(exported):
+    sheet, path = exported["every_function"]
+    ws = load_workbook(path)["results"]
+    seen = 0
+    for formula, cells in derived_places(sheet, ws):
+        for coordinate in cells:
+            value = ws[coordinate].value
+            assert isinstance(value, str) and value.startswith("="), (formula.name, value)
+            seen += 1
+    checked = sheet.checked
+    assert seen == sum(checked.layer_count if f.kind == "column" else 1
+                       for f in checked.formulas)
+    # inputs in the results sheet link to the layers and settings sheets
+    assert ws.cell(FIRST_ROW, 3).value == "='layers'!C2"
+    assert any(str(c.value).startswith("='settings'!") for c in ws["B"])
+
+
+def test_translations_use_the_spreadsheet_functions(exported):
+    # What each language construct becomes (structural; the numbers are checked in
+    # test_libreoffice.py).
+    sheet, path = exported["every_function"]
+    ws = load_workbook(path)["results"]
+    text = {f.name: [ws[c].value for c in cells] for f, cells in derived_places(sheet, ws)}
+    assert "AVERAGE(" in text["mean_T"][0]
+    assert "INDEX(" in text["coldest_p"][0] and "MATCH(MIN(" in text["coldest_p"][0]
+    assert "MATCH(MAX(" in text["driest_p"][0]
+    assert "AND(" in text["flag"][0] and "OR(" in text["flag"][0] and "NOT(" in text["flag"][0]
+    assert "<>" in text["compared"][0] and "^" in text["mixed"][0]
+    assert "LN(" in text["mixed"][0] and "EXP(" in text["es"][0]
+    assert text["is_warm"][0].startswith("=IF(")
+    # running sums: anchored at the surface row going up, at the top row going down
+    assert f"$6:" in text["z_top"][2] and "SUM(" in text["z_top"][2]
+    assert ":U$10" in text["omega_bottom"][0] or "$10)" in text["omega_bottom"][0]
+    # above/below read the neighbouring row; the edge row takes the edge value
+    assert "C7" in text["lapse"][0] and "C10" in text["lapse"][4]
+    assert "C5" not in text["T_below"][0] and "C6" in text["T_below"][1]
+    # constants inlined, not named
+    assert "9.80665" in text["same_thickness"][0] and "g0" not in text["same_thickness"][0]
+
+
+def test_values_sheet_holds_layercalc_numbers_cell_for_cell(exported):
+    for name in ("every_function", "from_surface_obrien", "uniform_mixing_ratio", "dry"):
+        sheet, path = exported[name]
+        wb = load_workbook(path)
+        results, values = wb["results"], wb["values"]
+        result = sheet.evaluate()
+        for formula, cells in derived_places(sheet, results):
+            want = (result.layers[formula.name].to_numpy() if formula.kind == "column"
+                    else [result.cells[formula.name]])
+            got = [values[c].value for c in cells]
+            # source: layercalc's own evaluation; the workbook stores 16 digits
+            assert_allclose(got, want, rtol=1e-15, atol=0, err_msg=formula.name)
+        for row in results.iter_rows():
+            for cell in row:
+                twin = values[cell.coordinate]
+                assert twin.data_type != "f", cell.coordinate  # no formulas in the twin
+                if cell.data_type == "f":
+                    assert isinstance(twin.value, (int, float)), cell.coordinate
+
+
+def test_text_starting_like_a_formula_stays_text(exported):
+    sheet, path = exported["every_function"]
+    wb = load_workbook(path)
+    for ws, coordinate in ((wb["settings"], "B2"), (wb["results"], "A1"),
+                           (wb["values"], "A1"), (wb["notes"], "A1")):
+        cell = ws[coordinate]
+        assert cell.value.startswith("=SUM(A1) is a title"), (ws.title, cell.value)
+        assert cell.data_type == "s" and cell.quotePrefix
+    notes = [c for c in wb["settings"]["B"] if c.value and str(c.value)[:1] in "+@"]
+    assert len(notes) == 2 and all(c.data_type == "s" for c in notes)
+
+
+def test_values_that_are_not_formulas_say_so(exported):
+    sheet, path = exported["every_function"]
+    ws = load_workbook(path)["results"]
+    rows = [r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == "height_500hPa"]
+    assert rows, "standard heights are listed"
+    value = ws.cell(rows[0], 2).value
+    assert isinstance(value, float)
+    assert "not a live formula" in ws.cell(rows[0], 4).value
+    # source: layercalc's own summary of the same sheet
+    assert value == pytest.approx(sheet.evaluate().summary["standard_heights"]["500"],
+                                  rel=1e-15)
+
+
+def test_chart_plots_omega_and_divergence_against_reversed_pressure(exported):
+    sheet, path = exported["every_function"]
+    ws = load_workbook(path)["results"]
+    assert len(ws._charts) == 1
+    chart = ws._charts[0]
+    assert chart.tagname == "scatterChart"
+    assert chart.y_axis.scaling.orientation == "maxMin"
+    titles = [s.tx.v for s in chart.series]
+    assert titles[0].startswith("omega") and titles[1].startswith("div")
+    y_ref = chart.series[0].yVal.numRef.f
+    first = int(y_ref.split("$")[2].split(":")[0])
+    # the omega series' y values are interface pressures: surface first, then upward
+    assert ws.cell(first, 1).value == f"=(A{FIRST_ROW}*100)/100"
+
+
+def test_scenarios_get_their_own_sheets_and_a_comparison(exported):
+    sheet, path = exported["midlevel_warming"]
+    wb = load_workbook(path)
+    names = wb.sheetnames
+    for scenario in sheet.scenarios:
+        assert f"results_{scenario}" in names and f"values_{scenario}" in names
+    assert "compare" in names and "values_compare" in names
+    ws = wb["results_warmed"]
+    column = [ws.cell(HEADER_ROW, j).value for j in range(1, 6)].index("T [degC]") + 1
+    cells = [ws.cell(FIRST_ROW + k, column) for k in range(sheet.checked.layer_count)]
+    linked = [c for c in cells if str(c.value).startswith("='layers'!")]
+    changed = [c for c in cells if c not in linked]
+    assert changed and linked
+    # a changed input replays the scenario on the base value: T + warming, live
+    warming = [r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == "warming"]
+    assert warming and str(ws.cell(warming[0], 2).value).startswith("='settings'!")
+    for cell in changed:
+        assert "'layers'!C" in cell.value and f"+$B${warming[0]})" in cell.value
+        assert "add warming to T" in cell.comment.text
+    compare = wb["compare"]
+    assert compare.cell(HEADER_ROW, 3).value == "base"
+    assert str(compare.cell(HEADER_ROW + 1, 3).value).startswith("='results'!")
+
+
+def test_what_cannot_be_a_formula_is_a_value_with_a_note(tmp_path, monkeypatch):
+    # Every function has a spreadsheet form today; this removes one (ln) and shortens the
+    # formula limit to show the fallback: the value layercalc computed, and a note.
+    from layercalc import xlsx_formulas, xlsx_layout
+    from layercalc.functions import ELEMENTWISE
+
+    monkeypatch.delitem(xlsx_formulas.CALLS, ("ln", ELEMENTWISE))
+    monkeypatch.setattr(xlsx_layout, "MAX_FORMULA_LENGTH", 60)
+    sheet = case_sheet("every_function")
+    write_workbook(sheet, tmp_path / "v.xlsx")
+    ws = load_workbook(tmp_path / "v.xlsx")["results"]
+    result = sheet.evaluate()
+    places = {f.name: cells for f, cells in derived_places(sheet, ws)}
+    mixed = [ws[c] for c in places["mixed"]]
+    assert all(c.data_type == "n" for c in mixed)
+    assert "function ln has no spreadsheet form" in mixed[0].comment.text
+    # source: layercalc's own evaluation of the same sheet
+    assert_allclose([c.value for c in mixed], result.layers["mixed"], rtol=1e-15)
+    long = [ws[c] for c in places["w_bottom"]]
+    assert all(c.data_type == "n" for c in long)
+    assert "longer than 60 characters" in long[0].comment.text
+    assert ws[places["dp"][0]].data_type == "f"
+
+
+def test_unwritable_target_is_an_output_error_with_the_path(tmp_path):
+    sheet = case_sheet("dry")
+    missing = tmp_path / "no_such_folder" / "out.xlsx"
+    with pytest.raises(OutputError) as caught:
+        write_workbook(sheet, missing)
+    assert str(missing) in caught.value.format()
+    with pytest.raises(OutputError) as caught:
+        write_workbook(sheet, tmp_path)
+    assert "folder" in caught.value.message
+
+
+def test_a_failed_write_leaves_the_old_file_and_no_temporary(tmp_path, monkeypatch):
+    sheet = case_sheet("dry")
+    target = tmp_path / "case.xlsx"
+    target.write_bytes(b"the previous workbook")
+    from openpyxl.workbook.workbook import Workbook
+
+    def broken_save(self, handle):
+        handle.write(b"PK half a zip")
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(Workbook, "save", broken_save)
+    with pytest.raises(OutputError) as caught:
+        write_workbook(sheet, target)
+    assert "No space left" in caught.value.message
+    assert target.read_bytes() == b"the previous workbook"
+    assert sorted(os.listdir(tmp_path)) == ["case.xlsx"]
+
+
+def test_written_file_gets_ordinary_permissions(tmp_path):
+    target = tmp_path / "case.xlsx"
+    write_workbook(case_sheet("dry"), target)
+    mask = os.umask(0)
+    os.umask(mask)
+    assert target.stat().st_mode & 0o777 == 0o666 & ~mask
+    assert load_workbook(target)["results"].cell(FIRST_ROW, 1).value == "='layers'!A2"
+
+
+def test_sheet_to_xlsx_is_the_same_writer(tmp_path):
+    sheet = case_sheet("dry")
+    sheet.to_xlsx(tmp_path / "a.xlsx")
+    write_workbook(sheet, tmp_path / "b.xlsx")
+    a = load_workbook(tmp_path / "a.xlsx")["results"]
+    b = load_workbook(tmp_path / "b.xlsx")["results"]
+    assert [[c.value for c in r] for r in a.iter_rows()] == \
+        [[c.value for c in r] for r in b.iter_rows()]
+
+
+def test_input_values_are_stored_so_that_they_convert_back_exactly(exported):
+    # The layers sheet holds display values that give back the very same SI inputs.
+    for name in CASES:
+        sheet, path = exported[name]
+        ws = load_workbook(path)["layers"]
+        for j, (column_name, column) in enumerate(sheet.checked.input_columns.items(), 1):
+            stored = np.array([ws.cell(2 + k, j).value for k in range(len(column.values))],
+                              dtype=float)
+            assert np.array_equal(column.unit.to_si(stored), column.values), column_name
+
