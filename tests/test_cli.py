@@ -146,7 +146,7 @@ def test_run_si_units_and_decametres(capsys):
 
 def test_run_one_scenario_and_all_scenarios(capsys):
     code, out, _ = run(capsys, "run", str(WARMING), "--scenario", "warmed")
-    assert code == 0 and "scenario warmed: the 500-300" in out and "add 3 K to T" in out
+    assert code == 0 and "scenario warmed: the 500-300" in out and "add warming to T" in out
     code, out, _ = run(capsys, "run", str(WARMING), "--all-scenarios")
     assert code == 0 and "warmed_divergent" in out and "Scenarios compared" in out
     assert max(len(line) for line in out.splitlines()) <= 80

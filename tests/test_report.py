@@ -128,8 +128,8 @@ def test_layers_given_top_first_are_said_so():
 def test_scenario_report_lists_its_changes():
     sheet = layercalc.load(worked_cases_folder() / "midlevel_warming.layers")
     text = render(sheet, sheet.evaluate("warmed_divergent"))
-    assert "change (warmed): add 3 K to T between 500 hPa and 300 hPa" in text
-    assert "change (warmed_divergent): scale div by 1.1 above 500 hPa" in text
+    assert "change (warmed): add warming to T between 500 hPa and 300 hPa" in text
+    assert "change (warmed_divergent): scale div by div_scale above 500 hPa" in text
 
 
 def test_comparison_values_and_changes():
