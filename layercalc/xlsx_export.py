@@ -259,6 +259,7 @@ def _chart(ws, spec) -> None:
     chart.y_axis.scaling.orientation = "maxMin"  # pressure decreases upward
     chart.y_axis.scaling.min, chart.y_axis.scaling.max = spec.y_range
     chart.x_axis.crosses = "max"  # the omega axis at the highest pressure: the bottom
+    chart.y_axis.crosses = "min"  # the pressure axis at the left edge, not at omega = 0
     chart.x_axis.delete = False
     chart.y_axis.delete = False
     for label, x_column, y_column, first, last in spec.series:

@@ -34,8 +34,7 @@ SI_TEXT = {"dimensionless": "1", "pressure": "Pa", "temperature": "K", "length":
 CHART_UNITS = {"pressure": U.Unit(U.PRESSURE, 100.0, 0.0, "hPa"),
                "omega": U.Unit(U.PRESSURE / U.time, 100.0 / 3600.0, 0.0, "hPa/h"),
                "divergence": U.Unit(1 / U.time, 1e-5, 0.0, "1e-5 s^-1")}
-STATIC_NOTE = ("value computed by layercalc, not a live formula (interpolated in ln p "
-               "between layer interfaces): re-export after editing the inputs")
+STATIC_NOTE = "value, not a live formula (interpolated by layercalc): export again after edits"
 
 
 @dataclass
