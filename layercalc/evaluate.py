@@ -14,7 +14,7 @@ import numpy as np
 
 from .constants import CONSTANTS
 from .errors import EvaluationError
-from .typed import CELL, COLUMN, TBinary, TCall, TNumber, TRef, TUnary
+from .typed import COLUMN, TBinary, TCall, TNumber, TRef, TUnary
 
 BINARY = {
     "+": np.add, "-": np.subtract, "*": np.multiply, "/": np.divide, "^": np.power,

@@ -112,7 +112,7 @@ def _parse(source: Source, start: str, text: str):
         raise LayercalcSyntaxError(
             f"unexpected character {char!r}" + (f"; expected {expected}" if expected else ""),
             span, hint=_hint_for_character(char)) from None
-    except UnexpectedInput as exc:  # UnexpectedEOF and relatives
+    except UnexpectedInput:  # UnexpectedEOF and relatives
         offset = len(source.text)
         raise LayercalcSyntaxError("the file ends in the middle of a statement",
                                    Span(source, max(0, offset - 1), offset)) from None

@@ -19,7 +19,7 @@ import numpy as np
 from . import units as U
 from .errors import DefinitionError, LayercalcError, Notice, UnitError, UnknownNameError
 from .nodes import Definition, Scenario
-from .typed import COLUMN, TExpr, TRef
+from .typed import TExpr, TRef
 
 PRESSURE_TOLERANCE = 1e-6  # relative, when a layer bound equals a selection pressure
 FIXED_INPUTS = ("p_bottom", "p_top")

@@ -10,7 +10,6 @@ import numpy as np
 
 from .errors import LayercalcError, Notice
 from .source import Source, read_source
-from .typed import COLUMN
 
 if TYPE_CHECKING:  # pragma: no cover
     import pandas
