@@ -55,7 +55,7 @@ def evaluate(sheet, column_inputs: Mapping[str, np.ndarray] | None = None,
         cells[name] = values.reshape(-1, 1)
     sizes = {a.shape[0] for a in (*columns.values(), *cells.values())}
     scenario_count = max(sizes) if sizes else 1
-    env = _Env(columns, cells, sheet.layer_count)
+    env = Environment(columns, cells, sheet.layer_count)
     with np.errstate(all="ignore"):
         for formula in sheet.formulas:
             value = env.run(formula.expr)
@@ -70,7 +70,10 @@ def evaluate(sheet, column_inputs: Mapping[str, np.ndarray] | None = None,
     return Evaluation(sheet, columns, cells, scenario_count)
 
 
-class _Env:
+class Environment:
+    """The values a formula can read (columns and cells by name); `run` walks a typed
+    expression with numpy. Also used to apply scenario changes and by the workbook writer."""
+
     def __init__(self, columns, cells, layer_count) -> None:
         self.columns = columns
         self.cells = cells

@@ -242,7 +242,7 @@ def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
                   cell_values: dict[str, np.ndarray] | None = None):
     """Input arrays (SI) after applying the scenarios' changes; cells from `cell_values`
     (arrays of shape (S,)) vary across a leading scenario axis."""
-    from .evaluate import _Env
+    from .evaluate import Environment
 
     columns = {n: c.values[None, :] for n, c in checked_sheet.input_columns.items()}
     cells = {n: np.array([[c.value]]) for n, c in checked_sheet.input_cells.items()}
@@ -251,7 +251,7 @@ def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
             cells[name] = np.array([[value]])
     for name, values in (cell_values or {}).items():
         cells[name] = np.asarray(values, dtype=float).reshape(-1, 1)
-    env = _Env(columns, cells, checked_sheet.layer_count)
+    env = Environment(columns, cells, checked_sheet.layer_count)
     with np.errstate(all="ignore"):
         for sc in scenarios:
             for ch in sc.changes:

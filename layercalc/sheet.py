@@ -27,9 +27,9 @@ def load(path: str | Path) -> "Sheet":
     """A sheet from a `.layers` file or an `.xlsx` workbook."""
     path = Path(path)
     if path.suffix.lower() in (".xlsx", ".xlsm"):
-        from .xlsx_import import read_workbook
+        from .xlsx_import import import_workbook
 
-        return loads(read_workbook(path), name=str(path))
+        return import_workbook(path).sheet  # problems point at sheet!cell
     return Sheet(_compile(read_source(path)))
 
 

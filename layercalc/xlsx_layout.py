@@ -159,11 +159,11 @@ class ResultsLayout:
         return letter(column)
 
     def _evaluate(self, node) -> np.ndarray:
-        from .evaluate import _Env  # the evaluator's own walk, for helper values
+        from .evaluate import Environment  # the evaluator's own walk, for helper values
 
         evaluation = self.variant.evaluation
         if self._environment is None:
-            self._environment = _Env(evaluation.columns, evaluation.cells, self.layers)
+            self._environment = Environment(evaluation.columns, evaluation.cells, self.layers)
         with np.errstate(all="ignore"):
             value = np.asarray(self._environment.run(node), dtype=float)
         value = np.broadcast_to(value, (value.shape[0], self.layers))

@@ -17,6 +17,7 @@ Skipped only when soffice is not installed (CI installs libreoffice-calc-nogui).
 
 from __future__ import annotations
 
+import os
 import re
 import shutil
 import subprocess
@@ -35,6 +36,10 @@ from layercalc.xlsx_layout import FIRST_ROW
 from .test_xlsx_export import ALL_CASES, CASES, case_sheet, derived_places
 
 SOFFICE = shutil.which("soffice") or shutil.which("libreoffice")
+# CI (.ci/run) installs LibreOffice and sets LAYERCALC_REQUIRE_LIBREOFFICE=1: there a missing
+# soffice is a failure, elsewhere a skip with the reason.
+if SOFFICE is None and os.environ.get("LAYERCALC_REQUIRE_LIBREOFFICE") == "1":
+    raise RuntimeError("LAYERCALC_REQUIRE_LIBREOFFICE=1 but soffice is not installed")
 pytestmark = pytest.mark.skipif(SOFFICE is None, reason="LibreOffice (soffice) is not "
                                 "installed: apt-get install libreoffice-calc-nogui")
 TOLERANCE = 1e-9

@@ -618,3 +618,14 @@ def test_scenario_axis_matches_row_by_row(name):
         for got, want in zip(full, single, strict=True):
             assert np.shape(got[row]) == np.shape(want)
             assert_allclose(got[row], want, rtol=1e-15)
+
+
+def test_textbook_example_height_of_the_1000_hpa_surface():
+    """Wallace and Hobbs (2006), Atmospheric Science, 2nd ed., section 3.2, worked example
+    (from memory): sea-level pressure 1014 hPa and a scale height H = Rd Tv / g0 of 8 km give
+    the 1000 hPa surface at about 111 m (Z = H ln(1014/1000))."""
+    tv = 8000.0 * constants.G0 / constants.RD  # the Tv whose scale height is 8 km
+    thickness = hypsometric.hypsometric_thickness(tv, 101400.0, 100000.0)
+    assert thickness == pytest.approx(111.0, abs=0.5)  # the book's rounded answer
+    # and the rule of thumb from the same section: about 8 m per hPa near sea level
+    assert thickness / 14.0 == pytest.approx(8.0, rel=0.02)
