@@ -189,6 +189,34 @@ def _emit(text: str, output: str | None) -> None:
         sys.stdout.write(text)
 
 
+def _write_files(outputs: list[tuple[str, bytes]]) -> None:
+    """Write several output files all or none, each atomically (jsonout.write_atomic): if
+    one cannot be written, those already written by this call get their old bytes back, or
+    are removed when they are new, so a failed command leaves no partial set of outputs."""
+    from .jsonout import write_atomic
+
+    written: list[tuple[Path, bytes | None]] = []
+    try:
+        for path, data in outputs:
+            target = Path(path)
+            try:
+                old = target.read_bytes() if target.is_file() else None
+            except OSError as exc:
+                raise OutputError(f"cannot replace {path}: {exc.strerror}") from None
+            write_atomic(target, data)
+            written.append((target, old))
+    except BaseException:
+        for target, old in reversed(written):
+            try:
+                if old is None:
+                    target.unlink(missing_ok=True)
+                else:
+                    write_atomic(target, old)
+            except (OSError, OutputError):
+                pass  # the newer file is complete (atomic); the first error is the one to tell
+        raise
+
+
 def _refuse_overwrite(path: str, force: bool) -> None:
     target = Path(path)
     if target.exists() and not force:
@@ -246,14 +274,19 @@ def command_run(args) -> int:
         _emit(text, args.output)
         return 0
     result = sheet.evaluate(args.scenario)
-    if args.csv:
-        jsonout.write_text_atomic(args.csv, jsonout.layer_table_csv(result, args.units,
-                                                                    args.heights))
     if args.json:
         text = jsonout.dumps(jsonout.result_document(sheet, result))
     else:
         text = report.render(sheet, result, args.units, args.heights, args.every_column)
-    _emit(text, args.output)
+    files = []  # everything is computed before the first file is written
+    if args.csv:
+        table = jsonout.layer_table_csv(result, args.units, args.heights)
+        files.append((args.csv, table.encode("utf-8")))
+    if args.output:
+        files.append((args.output, text.encode("utf-8")))
+    _write_files(files)
+    if not args.output:
+        sys.stdout.write(text)
     return 0
 
 
@@ -369,7 +402,6 @@ def command_import(args) -> int:
 
 
 def command_sweep(args) -> int:
-    from .jsonout import write_atomic, write_text_atomic
     from .report import TableColumn, auto, table_lines, wrap
     from .sweep import parse_range, plot_sweep, run_sweep
 
@@ -382,16 +414,18 @@ def command_sweep(args) -> int:
     ranges = [parse_range(text, sheet) for text in args.vary]
     frame = run_sweep(sheet, ranges, scenario=args.scenario, outputs=args.show)
     units = frame.attrs.get("units", {})
+    files = []  # every file is made before the first one is written
     if args.csv:
         header = ",".join(frame.columns) + "\n" + ",".join(units.get(c, "") for c in
                                                            frame.columns) + "\n"
-        write_text_atomic(args.csv, header + frame.to_csv(index=False, header=False))
+        text = header + frame.to_csv(index=False, header=False)
+        files.append((args.csv, text.encode("utf-8")))
     if args.xlsx:
         import io
 
         buffer = io.BytesIO()
         frame.to_excel(buffer, index=False, sheet_name="sweep")
-        write_atomic(args.xlsx, buffer.getvalue())
+        files.append((args.xlsx, buffer.getvalue()))
     if args.plot:
         import tempfile
 
@@ -399,7 +433,8 @@ def command_sweep(args) -> int:
         with tempfile.TemporaryDirectory() as folder:
             drawn = Path(folder) / Path(args.plot).name
             plot_sweep(frame, ranges, shown[0], drawn)
-            write_atomic(args.plot, drawn.read_bytes())
+            files.append((args.plot, drawn.read_bytes()))
+    _write_files(files)
     if not args.quiet:
         columns = [TableColumn(name, units.get(name, ""), auto(frame[name].to_numpy()))
                    for name in frame.columns[1:]]
