@@ -43,8 +43,10 @@ def _check_depth(source: Source, tree) -> None:
         node, depth = stack.pop()
         if depth > MAX_DEPTH:
             raise LayercalcSyntaxError(
-                f"a formula nests more than {MAX_DEPTH} operations deep",
-                _span_of(source, node), hint="split it into several named columns or cells")
+                f"this formula is too long or nested too deep: more than {MAX_DEPTH} "
+                "operations chained", _span_of(source, node),
+                hint="split it into several named columns or cells (a long sum of layers "
+                     "is sum(x) over a column)")
         for child in node.children:
             if isinstance(child, Tree):
                 stack.append((child, depth + 1))

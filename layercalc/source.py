@@ -58,10 +58,13 @@ def read_source(path: str | Path) -> Source:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         line = data.count(b"\n", 0, exc.start) + 1
-        column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+        line_start = data.rfind(b"\n", 0, exc.start) + 1
+        # columns count characters, as everywhere else: decode what precedes on the line
+        column = len(data[line_start:exc.start].decode("utf-8", errors="replace")) + 1
         raise InputError(
-            f"{path}:{line}:{column}: the file is not UTF-8 text (byte 0x{data[exc.start]:02x})",
+            f"the file is not UTF-8 text (byte 0x{data[exc.start]:02x})",
             hint="save the file as UTF-8 (plain text) and try again",
+            location=f"{path}:{line}:{column}",
         ) from None
     return Source(str(path), text.replace("\r\n", "\n").replace("\r", "\n"))
 

@@ -124,7 +124,7 @@ def test_deep_nesting_is_a_clear_error():
 
 def test_long_chain_of_operators_is_a_clear_error():
     text = "cell x = 1" + " + 1" * 5000 + "\n"
-    with pytest.raises(layercalc.LayercalcSyntaxError, match="nests more than"):
+    with pytest.raises(layercalc.LayercalcSyntaxError, match="too long or nested too deep"):
         layercalc.loads(text)
 
 
