@@ -8,13 +8,18 @@ for display with the unit table.
 from __future__ import annotations
 
 import math
-import textwrap
-from dataclasses import dataclass
 
 from . import units as U
 from .jsonout import output_unit, si_unit_text
+from .report_compare import render_comparison
+from .report_layout import (  # the layout helpers, public here as before
+    WIDTH, TableColumn, auto, auto_decimals, fixed, grid, is_zero, pressure_text,
+    table_lines, unit_words, wrap, wrap_pair,
+)
 
-WIDTH = 80
+__all__ = ["render", "render_comparison", "TableColumn", "auto", "auto_decimals", "fixed",
+           "pressure_text", "table_lines", "wrap", "WIDTH"]
+
 CANONICAL_INPUTS = ("p_bottom", "p_top", "T", "Td", "RH", "r", "div")
 # Input cells with a meaning of their own (shown in the header or summary, not as "yours").
 CANONICAL_CELLS = ("surface_height", "surface_pressure", "omega_top", "omega_surface",
@@ -32,88 +37,6 @@ MAIN_COLUMNS = (
 )
 # Interface columns: the value at each layer's top, and at the surface in the last row.
 AT_SURFACE = {"z_top": "z_bottom", "omega_top": "omega_bottom", "w_top": "w_bottom"}
-
-
-# ---------------------------------------------------------------- number formatting
-def _clean(value: float, decimals: int) -> float:
-    return round(float(value), decimals) + 0.0  # no "-0.00"
-
-
-def fixed(value: float, decimals: int) -> str:
-    if not math.isfinite(value):
-        return "-"
-    return f"{_clean(value, decimals):.{decimals}f}"
-
-
-def auto_decimals(values) -> int | None:
-    """Decimals that show about four significant digits of the largest value; None means
-    the values need powers of ten."""
-    finite = [abs(float(v)) for v in values if math.isfinite(v)]
-    largest = max(finite, default=0.0)
-    if largest == 0.0:
-        return 2
-    if largest >= 1e6 or largest < 1e-3:
-        return None
-    return max(0, min(6, 3 - math.floor(math.log10(largest))))
-
-
-def auto(values, counts: bool = False) -> list[str]:
-    """Values with about four significant digits; `counts`: whole numbers without
-    decimals (flags and counts, for dimensionless values)."""
-    finite = [float(v) for v in values if math.isfinite(v)]
-    if counts and finite and all(v.is_integer() and abs(v) < 1e6 for v in finite):
-        return [fixed(v, 0) for v in values]
-    decimals = auto_decimals(values)
-    if decimals is None:
-        return [f"{float(v):.3e}" if math.isfinite(v) else "-" for v in values]
-    return [fixed(v, decimals) for v in values]
-
-
-def pressure_text(pascals: float, system: str) -> str:
-    return f"{pascals:g}" if system == "si" else f"{pascals / 100:g}"
-
-
-# ---------------------------------------------------------------- tables
-@dataclass
-class TableColumn:
-    heading: str
-    unit: str
-    cells: list[str]
-
-
-def table_lines(label_heading: str, label_unit: str, labels: list[str],
-                columns: list[TableColumn], width: int = WIDTH) -> list[str]:
-    """Right-aligned columns after a left-aligned label; split into several tables (each
-    repeating the labels) when one would be wider than `width`."""
-    label_width = max(len(label_heading), len(label_unit), *(len(x) for x in labels))
-    blocks, current, used = [], [], label_width
-    for col in columns:
-        w = max(len(col.heading), len(col.unit), *(len(c) for c in col.cells)) + 2
-        if current and used + w > width:
-            blocks.append(current)
-            current, used = [], label_width
-        current.append((col, w))
-        used += w
-    if current:
-        blocks.append(current)
-    lines: list[str] = []
-    for n, block in enumerate(blocks):
-        if n:
-            lines.append("")
-        lines.append(label_heading.ljust(label_width)
-                     + "".join(c.heading.rjust(w) for c, w in block))
-        if label_unit or any(c.unit for c, _ in block):
-            lines.append(label_unit.ljust(label_width)
-                         + "".join(c.unit.rjust(w) for c, w in block))
-        for i, label in enumerate(labels):
-            lines.append(label.ljust(label_width)
-                         + "".join(c.cells[i].rjust(w) for c, w in block))
-    return [line.rstrip() for line in lines]
-
-
-def wrap(text: str, indent: str = "", width: int = WIDTH) -> list[str]:
-    return textwrap.wrap(text, width=width - 1, initial_indent=indent,
-                         subsequent_indent=indent + "  ", break_on_hyphens=False) or [indent]
 
 
 # ---------------------------------------------------------------- the report
@@ -140,11 +63,11 @@ class _Report:
         unit = parse_unit_string(trade_text)
         if self.system == "si":
             return f"{value_si:.4g} {si_unit_text(unit.dimension)}"
-        return f"{fixed(unit.from_si(value_si), decimals)} {_unit_words(trade_text)}"
+        return f"{fixed(unit.from_si(value_si), decimals)} {unit_words(trade_text)}"
 
     def signed(self, value_si: float, trade_text: str, decimals: int) -> str:
         text = self.quantity(value_si, trade_text, decimals)
-        return text if text.startswith("-") or _is_zero(text) else "+" + text
+        return text if text.startswith("-") or is_zero(text) else "+" + text
 
     def pressure(self, pascals: float) -> str:
         return f"{pascals:g} Pa" if self.system == "si" else f"{pascals / 100:g} hPa"
@@ -245,7 +168,7 @@ class _Report:
         columns = []
         for name, heading, decimals in shown:
             unit_text, texts = self.column_cells(name, decimals)
-            columns.append(TableColumn(heading, _unit_words(unit_text), texts))
+            columns.append(TableColumn(heading, unit_words(unit_text), texts))
         labels = [*self.layer_labels(), "surface"]
         pressure_unit = "Pa" if self.system == "si" else "hPa"
         if any(n in AT_SURFACE for n, _, _ in shown):
@@ -309,7 +232,7 @@ class _Report:
         self.add("", "Summary")
         label_width = max(len(label) for label, _ in rows) + 2
         for label, text in rows:
-            self.add(*_wrap_pair(label, text, label_width))
+            self.add(*wrap_pair(label, text, label_width))
         self.standard_levels()
 
     def omega_text(self, omega_si: float) -> str:
@@ -335,7 +258,7 @@ class _Report:
             entries = [f"{name:>{width}} {fixed(unit.from_si(v), decimals):>7}"
                        for name, v in zip(names, values.values())]
             self.add("", title)
-            self.add(*_grid(entries))
+            self.add(*grid(entries))
 
     def level_name(self, name: str) -> str:
         """'500' or '1000-500' (hPa, as the summary keys them) in the report's units."""
@@ -362,7 +285,7 @@ class _Report:
             unit = self.unit(name, "column")
             values = list(unit.from_si(self.columns[name])[::-1])
             plain = unit.text == "1"
-            columns.append(TableColumn(name, "" if plain else _unit_words(unit.text),
+            columns.append(TableColumn(name, "" if plain else unit_words(unit.text),
                                        auto(values, counts=plain)))
         pressure_unit = "Pa" if self.system == "si" else "hPa"
         return table_lines("layer", pressure_unit, self.layer_labels(), columns)
@@ -381,8 +304,8 @@ class _Report:
         for name in rows:
             unit = self.unit(name, "cell")
             value = auto([unit.from_si(self.cells[name])], counts=unit.text == "1")[0]
-            text = value if unit.text == "1" else f"{value} {_unit_words(unit.text)}"
-            self.add(*_wrap_pair(name, text, width))
+            text = value if unit.text == "1" else f"{value} {unit_words(unit.text)}"
+            self.add(*wrap_pair(name, text, width))
 
     def all_columns(self) -> None:
         shown = {n for n, _, _ in MAIN_COLUMNS} | set(self.user_column_names())
@@ -417,105 +340,11 @@ def _in_file_order(formulas):
     return sorted(formulas, key=lambda f: (f.span.start if f.span is not None else -1))
 
 
-def _is_zero(text: str) -> bool:
-    number = text.split(" ", 1)[0]
-    try:
-        return float(number) == 0.0
-    except ValueError:
-        return False
-
-
-def _unit_words(text: str) -> str:
-    """Unit text as printed: 'hPa/(3 h)' reads 'hPa per 3 h'."""
-    return {"hPa/(3 h)": "hPa per 3 h", "1e-5 s^-1": "1e-5/s"}.get(text, text)
-
-
 def _round_pressure(pascals: float) -> float:
     return round(pascals / 100.0) * 100.0  # to the whole hPa: the interpolation is no finer
-
-
-def _wrap_pair(label: str, text: str, label_width: int) -> list[str]:
-    first = "  " + label.ljust(label_width)
-    lines = textwrap.wrap(text, width=WIDTH - 1 - len(first)) or [""]
-    return [first + lines[0], *(" " * len(first) + rest for rest in lines[1:])]
-
-
-def _grid(entries: list[str]) -> list[str]:
-    width = max(len(e) for e in entries) + 4
-    per_line = max(1, (WIDTH - 2) // width)
-    return ["  " + "".join(e.ljust(width) for e in entries[i:i + per_line]).rstrip()
-            for i in range(0, len(entries), per_line)]
 
 
 def render(sheet, result, system: str = "trade", heights: str = "m",
            every_column: bool = False) -> str:
     """The report for one result of `sheet` (a layercalc.Sheet) as text."""
     return _Report(sheet, result, system, heights, every_column).render()
-
-
-# ---------------------------------------------------------------- scenario comparison
-# Shorter labels for the comparison table's quantities (compare.key_results names).
-COMPARISON_LABELS = {
-    "surface_pressure_tendency": "pressure tendency", "omega_surface": "omega at surface",
-    "max_ascent": "strongest ascent", "column_thickness": "column thickness",
-    "column_mean_divergence": "mean divergence",
-}
-COMPARISON_DECIMALS = {"hPa/(3 h)": 2, "hPa/h": 2, "1e-5 s^-1": 3, "m": 0, "dam": 1, "hPa": 0}
-
-
-def render_comparison(sheet, names: list[str], system: str = "trade") -> str:
-    """Key results of the base and every scenario side by side, each with its change from
-    the base in brackets, in tables no wider than 80 columns."""
-    from .check import parse_unit_string
-    from .compare import key_results
-    from .sheet import CAUTION
-
-    rows: dict[str, dict[str, float]] = {}
-    units: dict[str, str] = {}
-    for name in names:
-        for quantity, value, unit_text in key_results(sheet.evaluate(name)):
-            if system == "si":
-                unit = parse_unit_string(unit_text)
-                value, unit_text = float(unit.to_si(value)), si_unit_text(unit.dimension)
-            rows.setdefault(quantity, {})[name] = value
-            units[quantity] = unit_text
-    base = names[0]
-    title = sheet.title or sheet.checked.source.name
-    lines = [*wrap(title), "=" * min(WIDTH - 1, max(len(title), 20)),
-             f"Scenarios compared with {names[0]}:"]
-    for name in names[1:]:
-        scenario = sheet.checked.scenarios[name]
-        lines += wrap(f"{name}: {scenario.description or '(no description)'}"
-                      + (f" (builds on {scenario.base})" if scenario.base else ""), "  ")
-    lines += [""] + wrap(f"Each value with its change from {base} in brackets; "
-                          "--scenario NAME gives one scenario's full report.") + [""]
-    quantities = list(rows)
-    labels = [COMPARISON_LABELS.get(q, q) for q in quantities]
-    unit_texts = [_unit_words(units[q]) for q in quantities]
-    label_width = max(len(x) for x in labels)
-    labels = [f"{label.ljust(label_width)}  {unit}" for label, unit in zip(labels, unit_texts)]
-
-    def cell(q: str, name: str) -> str:
-        value = rows[q].get(name, math.nan)
-        text = _comparison_number(value, units[q], system)
-        if name == base:
-            return text
-        change = value - rows[q].get(base, math.nan)
-        change_text = _comparison_number(change, units[q], system)
-        if change_text != "-" and not change_text.startswith("-") and not _is_zero(change_text):
-            change_text = "+" + change_text
-        return f"{text} ({change_text})"
-
-    columns = [TableColumn(name, "", [cell(q, name) for q in quantities]) for name in names]
-    lines += table_lines("quantity", "", labels, columns, width=WIDTH - 1)
-    lines += [""] + wrap("caution: " + CAUTION)
-    return "\n".join(lines) + "\n"
-
-
-def _comparison_number(value: float, unit_text: str, system: str) -> str:
-    if not math.isfinite(value):
-        return "-"
-    decimals = None if system == "si" else COMPARISON_DECIMALS.get(unit_text)
-    if decimals is None:
-        decimals = auto_decimals([value])
-    return f"{value:.3e}" if decimals is None else fixed(value, decimals)

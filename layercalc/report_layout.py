@@ -1,0 +1,125 @@
+"""Text layout shared by the printed reports (report.py, report_compare.py,
+report_soundings.py) and the sweep table: numbers with a fixed or automatic count of
+decimals, right-aligned tables that split to stay within 80 columns, wrapped paragraphs
+and label/value pairs.
+
+Plain text only: no units are converted and nothing is computed here.
+"""
+
+from __future__ import annotations
+
+import math
+import textwrap
+from dataclasses import dataclass
+
+WIDTH = 80
+
+
+# ---------------------------------------------------------------- number formatting
+def _clean(value: float, decimals: int) -> float:
+    return round(float(value), decimals) + 0.0  # no "-0.00"
+
+
+def fixed(value: float, decimals: int) -> str:
+    if not math.isfinite(value):
+        return "-"
+    return f"{_clean(value, decimals):.{decimals}f}"
+
+
+def auto_decimals(values) -> int | None:
+    """Decimals that show about four significant digits of the largest value; None means
+    the values need powers of ten."""
+    finite = [abs(float(v)) for v in values if math.isfinite(v)]
+    largest = max(finite, default=0.0)
+    if largest == 0.0:
+        return 2
+    if largest >= 1e6 or largest < 1e-3:
+        return None
+    return max(0, min(6, 3 - math.floor(math.log10(largest))))
+
+
+def auto(values, counts: bool = False) -> list[str]:
+    """Values with about four significant digits; `counts`: whole numbers without
+    decimals (flags and counts, for dimensionless values)."""
+    finite = [float(v) for v in values if math.isfinite(v)]
+    if counts and finite and all(v.is_integer() and abs(v) < 1e6 for v in finite):
+        return [fixed(v, 0) for v in values]
+    decimals = auto_decimals(values)
+    if decimals is None:
+        return [f"{float(v):.3e}" if math.isfinite(v) else "-" for v in values]
+    return [fixed(v, decimals) for v in values]
+
+
+def pressure_text(pascals: float, system: str) -> str:
+    return f"{pascals:g}" if system == "si" else f"{pascals / 100:g}"
+
+
+# ---------------------------------------------------------------- tables
+@dataclass
+class TableColumn:
+    heading: str
+    unit: str
+    cells: list[str]
+
+
+def table_lines(label_heading: str, label_unit: str, labels: list[str],
+                columns: list[TableColumn], width: int = WIDTH) -> list[str]:
+    """Right-aligned columns after a left-aligned label; split into several tables (each
+    repeating the labels) when one would be wider than `width`."""
+    label_width = max(len(label_heading), len(label_unit), *(len(x) for x in labels))
+    blocks, current, used = [], [], label_width
+    for col in columns:
+        w = max(len(col.heading), len(col.unit), *(len(c) for c in col.cells)) + 2
+        if current and used + w > width:
+            blocks.append(current)
+            current, used = [], label_width
+        current.append((col, w))
+        used += w
+    if current:
+        blocks.append(current)
+    lines: list[str] = []
+    for n, block in enumerate(blocks):
+        if n:
+            lines.append("")
+        lines.append(label_heading.ljust(label_width)
+                     + "".join(c.heading.rjust(w) for c, w in block))
+        if label_unit or any(c.unit for c, _ in block):
+            lines.append(label_unit.ljust(label_width)
+                         + "".join(c.unit.rjust(w) for c, w in block))
+        for i, label in enumerate(labels):
+            lines.append(label.ljust(label_width)
+                         + "".join(c.cells[i].rjust(w) for c, w in block))
+    return [line.rstrip() for line in lines]
+
+
+def wrap(text: str, indent: str = "", width: int = WIDTH) -> list[str]:
+    return textwrap.wrap(text, width=width - 1, initial_indent=indent,
+                         subsequent_indent=indent + "  ", break_on_hyphens=False) or [indent]
+
+
+# ---------------------------------------------------------------- small pieces
+def is_zero(text: str) -> bool:
+    number = text.split(" ", 1)[0]
+    try:
+        return float(number) == 0.0
+    except ValueError:
+        return False
+
+
+def unit_words(text: str) -> str:
+    """Unit text as printed: 'hPa/(3 h)' reads 'hPa per 3 h'."""
+    return {"hPa/(3 h)": "hPa per 3 h", "1e-5 s^-1": "1e-5/s"}.get(text, text)
+
+
+def wrap_pair(label: str, text: str, label_width: int) -> list[str]:
+    first = "  " + label.ljust(label_width)
+    lines = textwrap.wrap(text, width=WIDTH - 1 - len(first)) or [""]
+    return [first + lines[0], *(" " * len(first) + rest for rest in lines[1:])]
+
+
+def grid(entries: list[str]) -> list[str]:
+    width = max(len(e) for e in entries) + 4
+    per_line = max(1, (WIDTH - 2) // width)
+    return ["  " + "".join(e.ljust(width) for e in entries[i:i + per_line]).rstrip()
+            for i in range(0, len(entries), per_line)]
+
