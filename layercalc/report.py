@@ -82,6 +82,7 @@ class _Report:
         self.add("")
         self.layer_table()
         self.summary()
+        self.soundings()
         self.user_columns()
         self.user_cells()
         if self.every_column:
@@ -265,6 +266,12 @@ class _Report:
         if self.system != "si":
             return f"{name} hPa"
         return "-".join(f"{float(part) * 100:g}" for part in name.split("-")) + " Pa"
+
+    def soundings(self) -> None:
+        from .report_soundings import section_lines
+
+        self.add(*section_lines(self.sheet.checked.soundings, self.system, self.heights,
+                                self.result.scenario))
 
     def user_column_names(self) -> list[str]:
         names = [n for n in self.checked.input_columns if n not in CANONICAL_INPUTS]
