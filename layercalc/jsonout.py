@@ -15,6 +15,35 @@ The JSON document (one per variant; values in SI, layers from the surface upward
      "notices": [{"line": int|null, "column": int|null, "message": str}], "caution": str}
 
 A documented key the sheet cannot compute (no `div` column: no omega) is present with null.
+
+A sheet built from soundings (`levels` tables or `station` blocks, soundings.py) has one
+more key, "soundings", after "summary" (sheets with a layers table have none): what the
+soundings gave, in SI, levels and layers from the surface upward, null for a missing value.
+It is the same for every scenario (scenario changes act on the layers, not the soundings).
+
+    "soundings": {
+      "thermodynamics_from": "the levels table" | "the mean over the stations",
+      "hydrostatic_tolerance": ..,                  # per layer
+      "units": {field name: SI unit},               # for every field below
+      "column_levels": {"pressure": [..], "T": [..], "Td": [..], ..., "z": [..]},
+                       # the column's values at its levels; "z" [] without heights
+      "network": null | {                           # station blocks only
+        "centroid_latitude": .., "centroid_longitude": .., "area": ..,
+        "smallest_angle": .., "collinearity": .., "smallest_separation": ..,
+        "largest_separation": ..,
+        "stations": [{"name": str, "latitude": .., "longitude": .., "x": .., "y": ..,
+                      "u": [..], "v": [..]}],      # x, y on the tangent plane about the
+                                                    # centroid; u, v east and north, per level
+        "levels": {"pressure": [..], "divergence": [..],
+                   "divergence_interpolated": [bool], "vorticity": [..],
+                   "stations_used": [int], "u_at_centroid": [..], "v_at_centroid": [..]},
+        "layer_divergence": [..]},                  # the layers' div (mean of two levels)
+      "layer_wind": null | {"p_bottom": [..], "p_top": [..], "u": [..], "v": [..]},
+                                                    # a levels table with winds only
+      "hydrostatic": [{"sounding": str, "tolerance": .., "p_bottom": [..], "p_top": [..],
+                       "observed_thickness": [..], "hypsometric_thickness": [..],
+                       "difference": [..], "flagged": [bool],
+                       "implied_virtual_temperature": [..], "messages": [str]}]}
 """
 
 from __future__ import annotations
@@ -53,6 +82,20 @@ TRADE_CELL_UNITS = {
     "dines_ratio": "1",
 }
 HEIGHT_NAMES = ("thickness", "z_bottom", "z_top", "column_thickness", "surface_height")
+
+# SI units of the "soundings" fields (column_levels other than z take their column's unit).
+SOUNDINGS_UNITS = {
+    "hydrostatic_tolerance": "m", "pressure": "Pa", "z": "m",
+    "centroid_latitude": "deg", "centroid_longitude": "deg", "area": "m^2",
+    "smallest_angle": "deg", "collinearity": "1", "smallest_separation": "m",
+    "largest_separation": "m", "latitude": "deg", "longitude": "deg", "x": "m", "y": "m",
+    "u": "m/s", "v": "m/s", "divergence": "s^-1", "vorticity": "s^-1", "stations_used": "1",
+    "u_at_centroid": "m/s", "v_at_centroid": "m/s", "layer_divergence": "s^-1",
+    "p_bottom": "Pa", "p_top": "Pa", "tolerance": "m", "observed_thickness": "m",
+    "hypsometric_thickness": "m", "difference": "m", "implied_virtual_temperature": "K",
+}
+NETWORK_KEYS = ("centroid_latitude", "centroid_longitude", "area", "smallest_angle",
+                "collinearity", "smallest_separation", "largest_separation")
 
 # SI symbols for named dimensions; anything else is spelt from its base units.
 _SI_BY_NAME = {
@@ -156,7 +199,7 @@ def result_document(sheet, result) -> dict:
             units[key] = "m"
     description, scenario_notices = _scenario_info(sheet, result.scenario)
     notices = [*sheet.check(), *scenario_notices]
-    return {
+    document = {
         "title": sheet.title,
         "scenario": result.scenario,
         "description": description,
@@ -164,12 +207,48 @@ def result_document(sheet, result) -> dict:
         "units": units,
         "layers": layers,
         "summary": summary,
+    }
+    soundings = soundings_document(sheet.checked)
+    if soundings is not None:
+        document["soundings"] = soundings
+    document.update({
         "options": dict(checked.options),
         "notes": sheet.notes,
         "remarks": list(checked.remarks),
         "replaced_defaults": list(checked.replaced_defaults),
         "notices": [_notice(n) for n in notices],
         "caution": _caution(),
+    })
+    return document
+
+
+def soundings_document(checked) -> dict | None:
+    """The "soundings" key of a result document (see the module docstring), from the
+    details soundings.py keeps in checked.soundings; None for a sheet with a layers table."""
+    details = checked.soundings
+    if not details:
+        return None
+    units = dict(SOUNDINGS_UNITS)
+    for name in details["column_levels"]:
+        if name in checked.column_names:
+            units[name] = si_unit_text(checked.unit_of(name, "column").dimension)
+    network = None
+    if details.get("stations"):
+        given = details["stations"]
+        levels = dict(given["levels"])
+        levels["u_at_centroid"] = levels.pop("u")
+        levels["v_at_centroid"] = levels.pop("v")
+        network = {**{key: given[key] for key in NETWORK_KEYS},
+                   "stations": [dict(station) for station in given["stations"]],
+                   "levels": levels, "layer_divergence": list(given["layer_divergence"])}
+    return {
+        "thermodynamics_from": details["thermodynamics_from"],
+        "hydrostatic_tolerance": details["hydrostatic_tolerance"],
+        "units": units,
+        "column_levels": dict(details["column_levels"]),
+        "network": network,
+        "layer_wind": dict(details["layer_wind"]) if details.get("layer_wind") else None,
+        "hydrostatic": [dict(table) for table in details["hydrostatic"]],
     }
 
 

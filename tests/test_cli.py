@@ -7,11 +7,14 @@ from __future__ import annotations
 import csv
 import json
 import os
+import re
 import subprocess
 import sys
 from pathlib import Path
 
+import numpy as np
 import pytest
+from numpy.testing import assert_allclose
 
 import layercalc
 from layercalc.cli import main, worked_cases_folder
@@ -275,3 +278,99 @@ def test_export_and_import(capsys, tmp_path):
     layercalc.load(back).evaluate()
     code, _, err = run(capsys, "import", str(book), "-o", str(back))
     assert code == 1 and "exists already" in err
+
+
+# ---------------------------------------------------------------- soundings (issue 7)
+THREE_STATIONS = CASES / "three_stations.layers"
+
+
+def test_run_a_station_network_report(capsys):
+    for options in ((), ("--units", "si"), ("--heights", "dam", "--every-column")):
+        code, out, err = run(capsys, "run", str(THREE_STATIONS), *options)
+        assert code == 0 and err == "", options
+        assert max(len(line) for line in out.splitlines()) <= 80, options
+        assert out.rstrip().endswith("local procedures.")
+        assert "Station network" in out and "Divergence and relative vorticity" in out
+        for name in ("Northfield", "Eastmoor", "Southvale"):
+            assert f'Hydrostatic check, station "{name}"' in out
+    # every layer passes (the case's header: "every station's heights pass")
+    _, out, _ = run(capsys, "run", str(THREE_STATIONS))
+    tables = out.split("Hydrostatic check", 1)[1].split("observed:")[0]
+    flags = [line.split()[-2] for line in tables.splitlines() if re.match(r"\d+-\d+ ", line)]
+    assert flags == ["ok"] * 24  # 3 stations x 8 layers
+
+
+def test_json_gains_a_soundings_key_and_keeps_the_rest(capsys):
+    _, plain, _ = run(capsys, "run", str(WARMING), "--json")
+    plain_keys = list(json.loads(plain))
+    assert "soundings" not in plain_keys  # a layers table: no soundings
+    code, out, _ = run(capsys, "run", str(THREE_STATIONS), "--json")
+    assert code == 0
+    document = json.loads(out)
+    assert [k for k in document if k != "soundings"] == plain_keys  # nothing else moves
+    soundings = document["soundings"]
+    assert list(soundings) == ["thermodynamics_from", "hydrostatic_tolerance", "units",
+                               "column_levels", "network", "layer_wind", "hydrostatic"]
+    units = soundings["units"]
+    network = soundings["network"]
+    # SI, as documented in jsonout.py
+    assert units["divergence"] == "s^-1" and units["x"] == "m" and units["area"] == "m^2"
+    assert units["T"] == "K" and units["implied_virtual_temperature"] == "K"
+    assert soundings["hydrostatic_tolerance"] == 10.0  # physics.levels default, 10 m
+    assert [(s["name"], s["latitude"], s["longitude"]) for s in network["stations"]] == [
+        ("Northfield", 47.10, 8.30), ("Eastmoor", 45.85, 11.25), ("Southvale", 44.70, 7.70)]
+    levels = network["levels"]
+    assert levels["pressure"][0] == 100000.0 and levels["pressure"][-1] == 20000.0
+    assert levels["divergence_interpolated"] == [False] * 9
+    # a layer's div is the mean of its two levels' divergences (soundings.py: linear in
+    # ln p; arithmetic), and equals the layer table's div
+    divergence = np.array(levels["divergence"])
+    layer_div = [layer["div"] for layer in document["layers"]]
+    assert_allclose(layer_div, (divergence[:-1] + divergence[1:]) / 2, rtol=1e-12)
+    assert_allclose(network["layer_divergence"], layer_div, rtol=1e-12)
+    # the station mean of the reported 1000 hPa heights, 88, 104 and 121 m (the file)
+    assert soundings["column_levels"]["z"][0] == pytest.approx((88 + 104 + 121) / 3)
+    assert soundings["layer_wind"] is None  # winds only in station blocks
+    assert [t["sounding"] for t in soundings["hydrostatic"]] == [
+        'station "Northfield"', 'station "Eastmoor"', 'station "Southvale"']
+    assert all(not any(t["flagged"]) and t["messages"] == [] for t in soundings["hydrostatic"])
+
+
+def test_json_soundings_of_a_linear_wind_field_with_a_missing_wind(capsys, tmp_path):
+    from .test_soundings import LEVEL_DIVERGENCE, LEVEL_VORTICITY, network_text
+    from .test_stations import pentagon
+
+    latitudes, longitudes = pentagon(45.0, 20.0, 0.0)
+    case = tmp_path / "five.layers"
+    case.write_text(network_text(latitudes, longitudes, missing=[(3, 1)]), encoding="utf-8")
+    code, out, err = run(capsys, "run", str(case), "--json")
+    assert code == 0, err
+    network = json.loads(out)["soundings"]["network"]
+    # divergence a + d and vorticity c - b by construction (tests/test_stations.py,
+    # plane_linear_winds); four stations still fit the 850 hPa level exactly
+    assert_allclose(network["levels"]["divergence"], LEVEL_DIVERGENCE, rtol=0, atol=1e-17)
+    assert_allclose(network["levels"]["vorticity"], LEVEL_VORTICITY, rtol=0, atol=1e-17)
+    assert network["levels"]["stations_used"] == [5, 4, 5, 5, 5]
+    assert network["stations"][3]["u"][1] is None  # the missing wind is null, not NaN
+
+
+def test_json_soundings_of_a_levels_table_with_winds(capsys, tmp_path):
+    case = tmp_path / "levels.layers"
+    case.write_text("cell surface_height = 110 m\nlevels\n"
+                    "  p [hPa]  T [degC]  dir [deg]  speed [m/s]\n"
+                    "  1000  14.0  180  10\n  850  6.0  270  20\n  700  -4.0  360  30\nend\n",
+                    encoding="utf-8")
+    code, out, err = run(capsys, "run", str(case), "--json")
+    assert code == 0, err
+    soundings = json.loads(out)["soundings"]
+    assert soundings["network"] is None and soundings["hydrostatic"] == []
+    assert soundings["thermodynamics_from"] == "the levels table"
+    assert soundings["column_levels"]["T"] == pytest.approx([287.15, 279.15, 269.15])
+    assert soundings["column_levels"]["z"] == []  # no heights given
+    wind = soundings["layer_wind"]
+    # WMO convention (direction the wind blows from; tests/test_stations.py): from 180 ->
+    # (0, +10), from 270 -> (+20, 0), from 360 -> (0, -30) m/s; a layer's wind is the mean
+    # of its two levels (soundings.py: linear in ln p)
+    assert wind["p_bottom"] == [100000.0, 85000.0] and wind["p_top"] == [85000.0, 70000.0]
+    assert_allclose(wind["u"], [10.0, 10.0], atol=1e-12)
+    assert_allclose(wind["v"], [5.0, -15.0], atol=1e-12)
