@@ -1,7 +1,9 @@
 """The profile figure: divergence by layer (steps) and omega at the interfaces (a line)
 against pressure on a log axis increasing downward, heights on the right, the level(s) of
 non-divergence marked and the surface tendency in the title; a second panel compares the
-omega profiles of the scenarios when the sheet has any.
+omega profiles of the scenarios when the sheet has any; a last panel shows the station
+network with its winds at one level (default 500 hPa, or the nearest level) when the sheet
+has `station` blocks (plot_stations.py).
 
 matplotlib is imported here only, inside the functions, through its object-oriented API
 (a Figure on an Agg canvas) so that no global backend or pyplot state is touched.
@@ -15,9 +17,12 @@ from pathlib import Path
 import numpy as np
 
 from .errors import OutputError
+from .plot_stations import DEFAULT_LEVEL_HPA, check_level, station_panel
 
 SINGLE_SIZE = (8.0, 6.5)    # inches: one panel
 COMPARE_SIZE = (12.0, 6.5)  # inches: profile and scenario panels
+STATION_PANEL_WIDTH = 6.0   # inches added for the station panel
+PANEL_RATIOS = {"profile": 3.0, "scenarios": 2.0, "stations": 2.6}
 STANDARD_TICKS = (1000, 925, 850, 700, 600, 500, 400, 300, 250, 200, 150, 100, 70, 50)
 DIVERGENCE_COLOUR = "tab:blue"
 OMEGA_COLOUR = "tab:red"
@@ -193,40 +198,60 @@ def _scenario_panel(ax, sheet, names: list[str], u) -> None:
     ax.legend(loc="best", fontsize="small")
 
 
-def profile_figure(sheet, scenario: str | None = None):
-    """The profile of one variant (the base unless `scenario` is named), with a second
-    panel comparing all variants when the sheet has scenarios. Returns a matplotlib
-    Figure (on an Agg canvas), for saving or for reading axis limits in tests."""
+def figure_size(sheet) -> tuple[float, float]:
+    """Width and height (inches) of the profile figure for this sheet's panels."""
+    width, height = COMPARE_SIZE if sheet.scenarios else SINGLE_SIZE
+    if _station_details(sheet):
+        width += STATION_PANEL_WIDTH
+    return width, height
+
+
+def _station_details(sheet) -> dict | None:
+    details = sheet.checked.soundings
+    return details if details and details.get("stations") else None
+
+
+def profile_figure(sheet, scenario: str | None = None,
+                   station_level: float = DEFAULT_LEVEL_HPA):
+    """The profile of one variant (the base unless `scenario` is named), with a panel
+    comparing all variants when the sheet has scenarios and a panel of the station network
+    with its winds at the level nearest `station_level` [hPa] when it has stations.
+    Returns a matplotlib Figure (on an Agg canvas), for saving or for reading in tests."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
+    check_level(station_level)  # also for a sheet without stations: the same rule
     u = _units()
     result = sheet.evaluate(scenario)
     names = ["base", *sheet.scenarios]
-    compare = len(names) > 1
-    figure = Figure(figsize=COMPARE_SIZE if compare else SINGLE_SIZE,
-                    layout="constrained")
+    stations = _station_details(sheet)
+    panels = ["profile"] + (["scenarios"] if len(names) > 1 else []) + \
+        (["stations"] if stations else [])
+    figure = Figure(figsize=figure_size(sheet), layout="constrained")
     FigureCanvasAgg(figure)
-    if compare:
-        ax, other = figure.subplots(1, 2, gridspec_kw={"width_ratios": (3, 2)})
-        _scenario_panel(other, sheet, names, u)
-    else:
-        ax = figure.subplots()
-    _profile_panel(ax, sheet, result, u)
+    axes = figure.subplots(1, len(panels), squeeze=False,
+                           gridspec_kw={"width_ratios": [PANEL_RATIOS[p] for p in panels]})[0]
+    by_panel = dict(zip(panels, axes))
+    if "scenarios" in by_panel:
+        _scenario_panel(by_panel["scenarios"], sheet, names, u)
+    if stations:
+        station_panel(by_panel["stations"], stations, station_level)
+    _profile_panel(by_panel["profile"], sheet, result, u)
     figure.suptitle(_title(sheet, result, u), fontsize="medium")
     return figure
 
 
 def save_profile(sheet, path: str | Path, scenario: str | None = None,
-                 dpi: int = 100) -> None:
-    """Draw the profile to a .png or .svg file (written whole, then renamed into place)."""
+                 dpi: int = 100, station_level: float = DEFAULT_LEVEL_HPA) -> None:
+    """Draw the profile to a .png or .svg file (written whole, then renamed into place);
+    `station_level` [hPa]: the level of the station panel's winds (the nearest level)."""
     from .jsonout import write_atomic
 
     path = Path(path)
     suffix = path.suffix.lower().lstrip(".")
     if suffix not in ("png", "svg"):
         raise OutputError(f"cannot draw to '{path}': the picture must end in .png or .svg")
-    figure = profile_figure(sheet, scenario)
+    figure = profile_figure(sheet, scenario, station_level)
     buffer = io.BytesIO()
     figure.savefig(buffer, format=suffix, dpi=dpi)
     write_atomic(path, buffer.getvalue())

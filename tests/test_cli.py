@@ -354,6 +354,19 @@ def test_json_soundings_of_a_linear_wind_field_with_a_missing_wind(capsys, tmp_p
     assert network["stations"][3]["u"][1] is None  # the missing wind is null, not NaN
 
 
+def test_plot_a_station_network(capsys, tmp_path):
+    from matplotlib.image import imread
+
+    from layercalc.plot import SINGLE_SIZE, STATION_PANEL_WIDTH
+
+    target = tmp_path / "three.png"
+    code, _, err = run(capsys, "plot", str(THREE_STATIONS), "-o", str(target), "--dpi", "50")
+    assert code == 0 and f"wrote {target}" in err
+    # profile panel plus the station panel (plot.py's sizes, in inches, at 50 dpi)
+    assert imread(target).shape[:2] == (round(SINGLE_SIZE[1] * 50),
+                                        round((SINGLE_SIZE[0] + STATION_PANEL_WIDTH) * 50))
+
+
 def test_json_soundings_of_a_levels_table_with_winds(capsys, tmp_path):
     case = tmp_path / "levels.layers"
     case.write_text("cell surface_height = 110 m\nlevels\n"

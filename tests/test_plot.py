@@ -109,3 +109,147 @@ def test_a_column_without_divergence_draws_temperature(tmp_path):
     target = tmp_path / "standard.svg"
     save_profile(sheet, target)
     assert "<svg" in target.read_text(encoding="utf-8")[:1000]
+
+
+# ---------------------------------------------------------------- the station panel
+# Where the expected values come from:
+# - positions: pyproj 3.7.2's stereographic projection (+proj=stere, k_0=1, sphere of the
+#   GRS80 mean radius) of the file's latitudes and longitudes about the details' centroid;
+# - arrow directions: the same pyproj projection of a point a few metres downwind of each
+#   station (a finite difference of the projection, independent of layercalc's rotation);
+# - arrow lengths and labels: the reported winds in the worked case (1 kt = 1852 m/h,
+#   NIST SP 811, exact), turning a wind into the plane does not change its speed;
+# - divergence and vorticity in the title: the details (layercalc.physics.stations,
+#   checked independently in tests/test_stations.py).
+from layercalc.errors import OutputError  # noqa: E402
+from layercalc.plot import STATION_PANEL_WIDTH, figure_size  # noqa: E402
+
+THREE = CASES / "three_stations.layers"
+KNOT = 1852.0 / 3600.0  # m/s
+RADIUS = 6371008.7714   # m, GRS80 mean radius
+# The worked case at 500 and 700 hPa: station -> (latitude, longitude, {hPa: (dir, kt)}).
+REPORTED = {"Northfield": (47.10, 8.30, {500: (229, 47), 700: (219, 31)}),
+            "Eastmoor": (45.85, 11.25, {500: (232, 53), 700: (219, 38)}),
+            "Southvale": (44.70, 7.70, {500: (229, 50), 700: (222, 36)})}
+
+
+def station_axes(figure):
+    return next(ax for ax in figure.axes if any(ln.get_gid() == "stations"
+                                                for ln in ax.get_lines()))
+
+
+def quiver(ax, gid: str):
+    from matplotlib.quiver import Quiver
+
+    return next(c for c in ax.collections if isinstance(c, Quiver) and c.get_gid() == gid)
+
+
+def projection(network):
+    import pyproj
+
+    return pyproj.Proj(proj="stere", lat_0=network["centroid_latitude"],
+                       lon_0=network["centroid_longitude"], k_0=1.0, R=RADIUS)
+
+
+def downwind_direction(project, latitude, longitude, direction_from_deg):
+    """Unit vector on the plane along which a wind from `direction_from_deg` blows."""
+    to = np.deg2rad(direction_from_deg + 180.0)  # blows towards
+    step = 5.0 / RADIUS  # 5 m along the sphere
+    lat2 = latitude + np.rad2deg(step * np.cos(to))
+    lon2 = longitude + np.rad2deg(step * np.sin(to) / np.cos(np.deg2rad(latitude)))
+    x1, y1 = project(longitude, latitude)
+    x2, y2 = project(lon2, lat2)
+    vector = np.array([x2 - x1, y2 - y1])
+    return vector / np.linalg.norm(vector)
+
+
+@pytest.mark.parametrize("asked, drawn", [(500.0, 500), (480.0, 500), (620.0, 700)])
+def test_station_panel_positions_and_winds(asked, drawn):
+    sheet = layercalc.load(THREE)
+    network = sheet.checked.soundings["stations"]
+    figure = profile_figure(sheet, station_level=asked)
+    ax = station_axes(figure)
+    project = projection(network)
+    stations = line([ax], "stations")
+    for i, (name, (latitude, longitude, winds)) in enumerate(REPORTED.items()):
+        x, y = project(longitude, latitude)
+        assert stations.get_xdata()[i] == pytest.approx(x / 1e3, abs=1e-6)  # km
+        assert stations.get_ydata()[i] == pytest.approx(y / 1e3, abs=1e-6)
+    arrows = quiver(ax, "station_winds")
+    assert_allclose(arrows.X, stations.get_xdata())
+    assert_allclose(arrows.Y, stations.get_ydata())
+    for i, (name, (latitude, longitude, winds)) in enumerate(REPORTED.items()):
+        direction, speed_kt = winds[drawn]  # the nearest level: 480 -> 500, 620 -> 700
+        vector = np.array([arrows.U[i], arrows.V[i]])
+        assert np.linalg.norm(vector) == pytest.approx(speed_kt * KNOT, rel=1e-9)
+        want = downwind_direction(project, latitude, longitude, direction)
+        angle = np.degrees(np.arccos(np.clip(vector @ want / np.linalg.norm(vector), -1, 1)))
+        assert angle < 0.01  # degrees; the north angle here is 0.6 to 1.6 degrees
+        label = next(t for t in ax.texts if t.get_gid() == f"label_{name}")
+        assert label.get_text() == f"{name}\n{direction:03d}\N{DEGREE SIGN} {speed_kt} kt"
+    level = network["levels"]["pressure"].index(drawn * 100.0)
+    centre = quiver(ax, "centroid_wind")
+    assert_allclose([centre.U[0], centre.V[0]], [network["levels"]["u"][level],
+                                                 network["levels"]["v"][level]])
+    assert line([ax], "centroid").get_xdata()[0] == 0.0  # the plane's origin
+    title = ax.get_title()
+    assert f"winds at {drawn} hPa" in title
+    assert f"divergence {network['levels']['divergence'][level] * 1e5:+.2f}" in title
+    assert f"vorticity {network['levels']['vorticity'][level] * 1e5:+.2f}" in title
+    # every arrow tip and label anchor lies inside the axes
+    (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
+    tips_x = arrows.X + arrows.U / arrows.scale
+    tips_y = arrows.Y + arrows.V / arrows.scale
+    assert np.all((x0 < tips_x) & (tips_x < x1) & (y0 < tips_y) & (tips_y < y1))
+
+
+def test_station_panel_png_size_and_no_panel_without_stations(tmp_path):
+    from matplotlib.image import imread
+
+    sheet = layercalc.load(THREE)
+    assert figure_size(sheet) == (SINGLE_SIZE[0] + STATION_PANEL_WIDTH, SINGLE_SIZE[1])
+    target = tmp_path / "three.png"
+    save_profile(sheet, target, dpi=60, station_level=300.0)
+    pixels = imread(target)
+    assert pixels.shape[:2] == (round(SINGLE_SIZE[1] * 60),
+                                round((SINGLE_SIZE[0] + STATION_PANEL_WIDTH) * 60))
+    assert pixels.std() > 0.05
+    plain = layercalc.load(CASES / "dines_compensation.layers")
+    assert figure_size(plain) == SINGLE_SIZE
+    assert len(profile_figure(plain).axes) == 2  # profile and its omega axis: no stations
+
+
+def test_station_panel_beside_the_scenario_panel():
+    text = THREE.read_text(encoding="utf-8") + (
+        'scenario stronger from base "More divergence aloft"\n'
+        "  scale div by 1.5 above 400 hPa\nend\n")
+    sheet = layercalc.loads(text, name="three.layers")
+    figure = profile_figure(sheet)
+    assert figure_size(sheet) == (COMPARE_SIZE[0] + STATION_PANEL_WIDTH, COMPARE_SIZE[1])
+    line(figure.axes, "omega_stronger")  # the scenario panel is there
+    ax = station_axes(figure)
+    assert ax.get_position().x0 > 0.6  # the last panel, on the right
+
+
+def test_a_station_without_wind_at_the_level_has_no_arrow():
+    from .test_soundings import network_text
+    from .test_stations import triangle
+
+    latitudes, longitudes = triangle(50.0, 5.0, 15.0)
+    sheet = layercalc.loads(network_text(latitudes, longitudes, missing=[(1, 2)]),
+                            name="gap.layers")
+    ax = station_axes(profile_figure(sheet, station_level=700.0))
+    arrows = quiver(ax, "station_winds")
+    hidden = np.broadcast_to(arrows.Umask, arrows.U.shape)  # matplotlib keeps the mask
+    assert hidden.tolist() == [False, True, False]            # apart: Station B is masked
+    label = next(t for t in ax.texts if t.get_gid() == "label_Station B")
+    assert label.get_text() == "Station B\nno wind"
+    assert "(interpolated)" in ax.get_title()  # soundings.py: two winds cannot be fitted
+    assert "vorticity -" in ax.get_title()
+
+
+@pytest.mark.parametrize("case", [THREE, CASES / "dines_compensation.layers"])
+@pytest.mark.parametrize("level", [0.0, -500.0, float("nan"), "500"])
+def test_a_bad_station_level_is_our_error(case, level):
+    with pytest.raises(OutputError, match="above 0 hPa"):
+        profile_figure(layercalc.load(case), station_level=level)
