@@ -101,7 +101,10 @@ def build_parser() -> argparse.ArgumentParser:
                     "Draw divergence by layer and omega at the interfaces against pressure "
                     "(log axis, heights on the right), with the level(s) of non-divergence "
                     "and the surface tendency; a second panel compares the scenarios when "
-                    "the sheet has any.")
+                    "the sheet has any. For a sheet with station blocks, a last panel shows "
+                    "the stations on the tangent plane with wind arrows at one level "
+                    "(--station-level), the fitted centroid wind and that level's divergence "
+                    "and vorticity.")
     plot.add_argument("case", metavar="CASE", help="a .layers file (or an .xlsx workbook)")
     plot.add_argument("-o", "--output", metavar="FILE", required=True,
                       help="the picture to write: FILE.png or FILE.svg")
@@ -109,6 +112,9 @@ def build_parser() -> argparse.ArgumentParser:
                       "panel instead of the base")
     plot.add_argument("--dpi", type=int, default=100,
                       help="resolution of a PNG in dots per inch (default 100)")
+    plot.add_argument("--station-level", metavar="HPA", type=float, default=500.0,
+                      help="pressure of the station panel's winds in hPa (default 500; the "
+                           "nearest level is drawn)")
     plot.set_defaults(handler=command_plot)
 
     export = _command(sub, "export", "write the sheet as an .xlsx workbook",
@@ -182,7 +188,7 @@ def _available(module: str) -> bool:
 
 def _emit(text: str, output: str | None) -> None:
     if output:
-        from .jsonout import write_text_atomic
+        from .files import write_text_atomic
 
         write_text_atomic(output, text)
     else:
@@ -190,31 +196,10 @@ def _emit(text: str, output: str | None) -> None:
 
 
 def _write_files(outputs: list[tuple[str, bytes]]) -> None:
-    """Write several output files all or none, each atomically (jsonout.write_atomic): if
-    one cannot be written, those already written by this call get their old bytes back, or
-    are removed when they are new, so a failed command leaves no partial set of outputs."""
-    from .jsonout import write_atomic
+    """Write several output files all or none (layercalc.files.write_all_or_none)."""
+    from .files import write_all_or_none
 
-    written: list[tuple[Path, bytes | None]] = []
-    try:
-        for path, data in outputs:
-            target = Path(path)
-            try:
-                old = target.read_bytes() if target.is_file() else None
-            except OSError as exc:
-                raise OutputError(f"cannot replace {path}: {exc.strerror}") from None
-            write_atomic(target, data)
-            written.append((target, old))
-    except BaseException:
-        for target, old in reversed(written):
-            try:
-                if old is None:
-                    target.unlink(missing_ok=True)
-                else:
-                    write_atomic(target, old)
-            except (OSError, OutputError):
-                pass  # the newer file is complete (atomic); the first error is the one to tell
-        raise
+    write_all_or_none(outputs)
 
 
 def _refuse_overwrite(path: str, force: bool) -> None:
@@ -371,7 +356,8 @@ def command_plot(args) -> int:
     from .plot import save_profile
 
     sheet = load_case(args.case)
-    save_profile(sheet, args.output, scenario=args.scenario, dpi=args.dpi)
+    save_profile(sheet, args.output, scenario=args.scenario, dpi=args.dpi,
+                 station_level=args.station_level)
     print(f"wrote {args.output}", file=sys.stderr)
     return 0
 
@@ -390,7 +376,7 @@ def command_import(args) -> int:
     if not _available("xlsx_import"):
         raise LayercalcError("reading workbooks is not part of this version yet")
     from . import loads
-    from .jsonout import write_text_atomic
+    from .files import write_text_atomic
 
     module = importlib.import_module("layercalc.xlsx_import")
     _refuse_overwrite(args.output, args.force)

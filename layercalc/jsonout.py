@@ -50,12 +50,9 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import tempfile
 from pathlib import Path
 
 from . import units as U
-from .errors import OutputError
 
 LAYER_KEYS = ("p_bottom", "p_top", "T", "Tv", "div", "thickness", "z_bottom", "z_top",
               "omega_bottom", "omega_top", "w_bottom", "w_top")
@@ -290,45 +287,3 @@ def layer_table_csv(result, system: str = "trade", heights: str = "m") -> str:
 
 
 # ---------------------------------------------------------------- writing files
-def _file_mode(path: Path) -> int:
-    """The mode a replaced file keeps, or what a new file gets under the umask (a temporary
-    file starts readable by its owner only)."""
-    try:
-        return path.stat().st_mode & 0o7777
-    except OSError:
-        umask = os.umask(0)
-        os.umask(umask)
-        return 0o666 & ~umask
-
-
-def write_text_atomic(path: str | Path, text: str) -> None:
-    """Write text (UTF-8) to a file atomically; see write_atomic."""
-    write_atomic(path, text.encode("utf-8"))
-
-
-def write_atomic(path: str | Path, data: bytes) -> None:
-    """Write bytes to a file through a temporary file in the same folder, then rename, so a
-    reader never sees half a file and a failed write leaves the old file as it was."""
-    path = Path(path)
-    folder = path.parent
-    if path.is_dir():
-        raise OutputError(f"cannot write {path}: it is a folder")
-    try:
-        handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp",
-                                             dir=folder)
-    except FileNotFoundError:
-        raise OutputError(f"cannot write {path}: the folder {folder} does not exist",
-                          hint="create the folder first or choose another path") from None
-    except OSError as exc:
-        raise OutputError(f"cannot write {path}: {exc.strerror}") from None
-    try:
-        with os.fdopen(handle, "wb") as stream:
-            stream.write(data)
-        os.chmod(temporary, _file_mode(path))
-        os.replace(temporary, path)
-    except OSError as exc:
-        try:
-            os.unlink(temporary)
-        except OSError:
-            pass
-        raise OutputError(f"cannot write {path}: {exc.strerror}") from None

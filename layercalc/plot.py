@@ -245,7 +245,7 @@ def save_profile(sheet, path: str | Path, scenario: str | None = None,
                  dpi: int = 100, station_level: float = DEFAULT_LEVEL_HPA) -> None:
     """Draw the profile to a .png or .svg file (written whole, then renamed into place);
     `station_level` [hPa]: the level of the station panel's winds (the nearest level)."""
-    from .jsonout import write_atomic
+    from .files import write_atomic
 
     path = Path(path)
     suffix = path.suffix.lower().lstrip(".")

@@ -16,8 +16,6 @@ results sheet. The file is written to a temporary file beside the target, then r
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -317,34 +315,15 @@ def _size(ws, widths: dict[int, float]) -> None:
 
 # ---------------------------------------------------------------- atomic write
 def save_atomic(workbook, path: Path) -> None:
-    """Save to a temporary file in the target's folder, then rename it over the target."""
-    folder = path.parent if str(path.parent) else Path(".")
-    hint = "check that the folder exists and that you may write there"
-    try:
-        descriptor, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp",
-                                                 dir=folder)
-    except OSError as exc:
-        raise OutputError(f"cannot write {path}: {exc.strerror or exc}", location=str(path),
-                          hint=hint) from None
-    try:
-        with os.fdopen(descriptor, "wb") as handle:
-            workbook.save(handle)
-            handle.flush()
-            os.fsync(handle.fileno())
-        os.chmod(temporary, _mode_for(path))
-        os.replace(temporary, path)
-    except OSError as exc:
-        raise OutputError(f"cannot write {path}: {exc.strerror or exc}", location=str(path),
-                          hint=hint) from None
-    finally:
-        if os.path.exists(temporary):
-            os.unlink(temporary)
+    """Save the workbook whole into memory, then write it atomically (layercalc.files)."""
+    import io
 
+    from .files import write_atomic
 
-def _mode_for(path: Path) -> int:
+    buffer = io.BytesIO()
     try:
-        return path.stat().st_mode & 0o777
-    except OSError:
-        mask = os.umask(0)
-        os.umask(mask)
-        return 0o666 & ~mask
+        workbook.save(buffer)
+    except OSError as exc:
+        raise OutputError(f"cannot write {path}: {exc.strerror or exc}",
+                          location=str(path)) from None
+    write_atomic(path, buffer.getvalue())

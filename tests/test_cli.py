@@ -367,6 +367,27 @@ def test_plot_a_station_network(capsys, tmp_path):
                                         round((SINGLE_SIZE[0] + STATION_PANEL_WIDTH) * 50))
 
 
+
+def test_plot_station_level_option(capsys, tmp_path, monkeypatch):
+    import layercalc.plot as plot_module
+
+    seen = []
+    real = plot_module.profile_figure
+
+    def spy(sheet, scenario=None, station_level=500.0):
+        figure = real(sheet, scenario, station_level)
+        seen.append([ax.get_title() for ax in figure.axes])
+        return figure
+
+    monkeypatch.setattr(plot_module, "profile_figure", spy)
+    target = tmp_path / "three.png"
+    code, _, _ = run(capsys, "plot", str(THREE_STATIONS), "-o", str(target), "--dpi", "30",
+                     "--station-level", "850")
+    assert code == 0
+    # the worked case reports at 850 hPa (a standard level), so that level is drawn
+    assert any("winds at 850 hPa" in title for title in seen[0])
+
+
 def test_json_soundings_of_a_levels_table_with_winds(capsys, tmp_path):
     case = tmp_path / "levels.layers"
     case.write_text("cell surface_height = 110 m\nlevels\n"

@@ -23,7 +23,7 @@ import numpy as np
 import pytest
 
 import layercalc
-from layercalc import jsonout
+from layercalc import files
 from layercalc.cli import _available, main, worked_cases, worked_cases_folder
 from layercalc.constants import G0, RD
 from layercalc.parser import MAX_NESTING
@@ -533,7 +533,7 @@ class _HalfWriter:
 
 
 class _FailingWrites:
-    """Stands in for `os` inside layercalc.jsonout: the `fail_on`-th file opened there for
+    """Stands in for `os` inside layercalc.files: the `fail_on`-th file opened there for
     writing fails half-way (disk full, or an interrupt); the others are written normally."""
 
     def __init__(self, failure, fail_on=1):
@@ -567,7 +567,7 @@ def test_a_write_that_fails_half_way_leaves_the_destination_as_it_was(
         arguments_used = arguments(target)
     before = snapshot(tmp_path)
     failing = _FailingWrites(DISK_FULL)
-    monkeypatch.setattr(jsonout, "os", failing)
+    monkeypatch.setattr(files, "os", failing)
     code, out, err = cli(capsys, *arguments_used)
     monkeypatch.undo()
     assert failing.log and failing.log[0] > 0  # the failure happened after a partial write
@@ -582,7 +582,7 @@ def test_a_failed_second_write_takes_back_the_first(capsys, tmp_path, monkeypatc
             table.write_bytes(old)
         before = snapshot(tmp_path)
         failing = _FailingWrites(DISK_FULL, fail_on=2)  # the CSV goes through, the report fails
-        monkeypatch.setattr(jsonout, "os", failing)
+        monkeypatch.setattr(files, "os", failing)
         code, out, err = cli(capsys, "run", WARMING, "--csv", table, "-o", report)
         monkeypatch.undo()
         assert failing.opened >= 2 and failing.log
@@ -614,17 +614,14 @@ def test_an_export_that_fails_half_way_leaves_the_destination_as_it_was(
         assert snapshot(tmp_path) == before
 
 
-@pytest.mark.xfail(strict=True, reason="jsonout.write_atomic removes its temporary file only "
-                   "on OSError: an interrupt (KeyboardInterrupt) mid-write leaves "
-                   ".NAME.*.tmp behind (reported; jsonout.py is not ours to change)")
 def test_an_interrupt_in_the_middle_of_a_write_leaves_no_temporary_file(
         capsys, tmp_path, monkeypatch):
     target = tmp_path / "out.csv"
     target.write_bytes(OLD)
-    monkeypatch.setattr(jsonout, "os", _FailingWrites(KeyboardInterrupt()))
+    monkeypatch.setattr(files, "os", _FailingWrites(KeyboardInterrupt()))
     with pytest.raises(KeyboardInterrupt):
         main(["run", str(WARMING), "--csv", str(target)])
     monkeypatch.undo()
     capsys.readouterr()
     assert target.read_bytes() == OLD  # the destination is untouched either way
-    assert list(tmp_path.iterdir()) == [target]  # fails today: the temporary file stays
+    assert list(tmp_path.iterdir()) == [target]  # and the temporary file is gone
