@@ -301,6 +301,13 @@ class _TextBuilder:
             message = first.message if first.kind in ("error", "spreadsheet error") else \
                 f"{first.kind}: {first.message}"
             raise self.error(message, where[0], where[1], hint=hint or None) from None
+        for scenario in (None, *sheet.scenarios):  # evaluation errors, placed too
+            try:
+                sheet.evaluate(scenario)
+            except LayercalcError as exc:
+                where = self.place(exc.span)
+                raise self.error(f"{exc.kind}: {exc.message}", where[0] or self.raw.layers_name,
+                                 where[1], hint=exc.hint) from None
         for notice in sheet.checked.notices:
             where = self.place(notice.span)
             if where[0] is not None:

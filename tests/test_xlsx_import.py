@@ -344,3 +344,20 @@ def test_import_command_writes_a_layers_file_with_the_same_results(tmp_path, cap
     assert main(["import", str(path), "-o", str(bad_out)]) == 1
     assert "layers!C3" in capsys.readouterr().err
     assert not bad_out.exists()
+
+
+def test_an_evaluation_error_after_import_names_a_cell(tmp_path):
+    book = Workbook()
+    ws = book.active
+    ws.title = "layers"
+    ws.append(["p_bottom [hPa]", "p_top [hPa]", "T [degC]", "x"])
+    ws.append([1000, 850, 12, 0])
+    ws.append([850, 700, 10, 1])
+    book.create_sheet("formulas").append(["column y = T / x"])
+    path = tmp_path / "zero.xlsx"
+    book.save(path)
+    with pytest.raises(SpreadsheetError) as info:
+        layercalc.load(path)
+    text = info.value.format()
+    assert text.startswith(f"{path}:formulas!A1:")
+    assert "column 'y' is infinite" in text and "1000-850 hPa" in text
