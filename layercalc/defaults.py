@@ -83,7 +83,7 @@ def _kinematic(names: set[str], options: dict[str, str], add, notes: list[str]) 
         add("cell omega_surface [hPa/h] = lowest_layer(omega_bottom)")
     else:
         add("cell surface_boundary [hPa/h] = omega_surface")
-        add("cell top_mismatch [hPa/h] = surface_boundary + sum(div * dp) - top_boundary")
+        add("cell top_mismatch [hPa/h] = surface_boundary + net_mass_divergence - top_boundary")
         if adjust == "none":
             add("column div_adjusted [1e-5 s^-1] = div")
         elif adjust == "uniform":
@@ -98,10 +98,13 @@ def _kinematic(names: set[str], options: dict[str, str], add, notes: list[str]) 
         add("column w_bottom [cm/s] = vertical_velocity(omega_bottom, p_bottom, Tv)")
         add("column w_top [cm/s] = vertical_velocity(omega_top, p_top, Tv)")
     _tendency(names, add)
-    add("cell column_mean_divergence [1e-5 s^-1] = sum(div * dp) / sum(dp)")
+    # net and gross mass divergence of the column (as given, before any adjustment)
+    add("cell net_mass_divergence [hPa/h] = sum(div * dp)")
+    add("cell gross_mass_divergence [hPa/h] = sum(abs(div) * dp)")
+    add("cell column_mean_divergence [1e-5 s^-1] = net_mass_divergence / sum(dp)")
     # 0 for a column without any divergence (nothing to compensate), instead of 0/0
-    add("cell dines_ratio = where(sum(abs(div) * dp) > 0 [Pa/s], abs(sum(div * dp))"
-        " / sum(abs(div) * dp), 0)")
+    add("cell dines_ratio = where(gross_mass_divergence > 0 [Pa/s],"
+        " abs(net_mass_divergence) / gross_mass_divergence, 0)")
     add("cell max_ascent [hPa/h] = min(lowest_layer(omega_bottom), min(omega_top))")
     add("cell max_ascent_pressure [hPa] = where(lowest_layer(omega_bottom) < min(omega_top),"
         " lowest_layer(p_bottom), at_min(omega_top, p_top))")

@@ -102,6 +102,10 @@ class Environment:
 
 
 def _check_finite(formula, value: np.ndarray, sheet) -> None:
+    # One reduction first (no temporary array): a finite sum means every value is finite;
+    # only a non-finite sum (or an overflow of a huge but finite sum) needs the full look.
+    if np.isfinite(np.add.reduce(value, axis=None)):
+        return
     finite = np.isfinite(value)
     if finite.all():
         return
