@@ -11,6 +11,7 @@ KEY_CELLS = (
     ("max_ascent", "hPa/h"),
     ("column_thickness", "m"),
     ("column_mean_divergence", "1e-5 s^-1"),
+    ("top_mismatch", "hPa/h"),
 )
 
 

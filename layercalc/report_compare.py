@@ -17,7 +17,7 @@ from .report_layout import (WIDTH, TableColumn, auto_decimals, fixed, is_zero, t
 COMPARISON_LABELS = {
     "surface_pressure_tendency": "pressure tendency", "omega_surface": "omega at surface",
     "max_ascent": "strongest ascent", "column_thickness": "column thickness",
-    "column_mean_divergence": "mean divergence",
+    "column_mean_divergence": "mean div. as given", "top_mismatch": "raw top mismatch",
 }
 COMPARISON_DECIMALS = {"hPa/(3 h)": 2, "hPa/h": 2, "1e-5 s^-1": 3, "m": 0, "dam": 1, "hPa": 0}
 
