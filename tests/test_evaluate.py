@@ -1,5 +1,8 @@
 """The evaluator: dependency order, cycles, scans both ways, neighbours, aggregates,
-conditions; every result equal to the plain numpy computation of the same thing."""
+conditions; every result equal to the plain numpy computation of the same thing.
+
+Source of every expected number here: the same arithmetic written directly in numpy in the
+test, on the table's SI values (common practice, no source)."""
 
 from __future__ import annotations
 

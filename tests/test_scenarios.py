@@ -1,4 +1,8 @@
-"""Scenario semantics: range selections, chains, degC deltas, option switches, sweeps."""
+"""Scenario semantics: range selections, chains, degC deltas, option switches, sweeps.
+
+Expected values: the base sheet's own SI inputs changed by hand in numpy as each scenario
+line says (common practice, no source), the hypsometric equation where named, and
+one-at-a-time evaluation for the sweep."""
 
 from __future__ import annotations
 
