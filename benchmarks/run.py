@@ -103,24 +103,35 @@ def result_bytes(evaluation, size):
 
 
 def cold_start(runs=9):
-    env = dict(os.environ)
+    """Median wall times of `layercalc run` with the unit check done by sympy (cache off),
+    with the earlier check reused (cache on), and of the import baseline; and whether the
+    two runs print the same JSON."""
+    import tempfile
+
+    cache = tempfile.mkdtemp(prefix="layercalc-bench-cache-")
+    env = dict(os.environ, LAYERCALC_CACHE_DIR=cache)
+    uncached_env = dict(env, LAYERCALC_NO_DIMENSION_CACHE="1")
     cli = [sys.executable, "-m", "layercalc", "run", str(CASE)]
     base = [sys.executable, "-c", "import numpy, lark, sympy"]
     # byte-compile the package first, as pip does when it installs the wheel (this machine
     # sets PYTHONDONTWRITEBYTECODE, so a checkout would otherwise compile on every start)
     subprocess.run([sys.executable, "-m", "compileall", "-q", str(ROOT / "layercalc")],
                    check=True, env=env)
-    subprocess.run(cli, capture_output=True, cwd=ROOT, env=env, check=True)  # warm the cache
+    first = subprocess.run(cli + ["--json"], capture_output=True, cwd=ROOT, env=env,
+                           check=True).stdout  # checked with sympy; remembered
+    again = subprocess.run(cli + ["--json"], capture_output=True, cwd=ROOT, env=env,
+                           check=True).stdout  # reused
+    same = first == again
 
-    def median(cmd):
+    def median(cmd, environment):
         times = []
         for _ in range(runs):
             start = time.perf_counter()
-            subprocess.run(cmd, capture_output=True, cwd=ROOT, env=env, check=True)
+            subprocess.run(cmd, capture_output=True, cwd=ROOT, env=environment, check=True)
             times.append(time.perf_counter() - start)
         return statistics.median(times)
 
-    return median(cli), median(base)
+    return median(cli, uncached_env), median(cli, env), median(base, env), same
 
 
 def main() -> int:
@@ -149,7 +160,7 @@ def main() -> int:
     _, peak = tracemalloc.get_traced_memory()
     tracemalloc.stop()
     size_results = result_bytes(evaluation, warming.size)
-    t_cli, t_base = cold_start()
+    t_uncached, t_cached, t_base, same_output = cold_start()
 
     lines.append("# Benchmark results\n")
     lines.append(f"Measured by `python benchmarks/run.py` on {time.strftime('%Y-%m-%d')}, "
@@ -171,11 +182,18 @@ def main() -> int:
                  f"{peak / 2**20:.1f} MiB; result arrays (every column and cell counted dense, "
                  f"scenarios x layers of float64): {size_results / 2**20:.1f} MiB; "
                  f"ratio {peak / size_results:.2f} (target < 8).\n")
-    lines.append(f"Cold start (package byte-compiled, as installed), median of 9: "
-                 f"`python -m layercalc run "
-                 f"worked_cases/midlevel_warming.layers` {t_cli:.3f} s; "
-                 f"`python -c \"import numpy, lark, sympy\"` {t_base:.3f} s; ratio "
-                 f"{t_cli / t_base:.2f} (target <= 1.5).\n")
+    lines.append("Cold start (package byte-compiled, as installed), median of 9 runs each:\n")
+    lines.append("| command | time [s] | ratio to the import baseline (target <= 1.5) |")
+    lines.append("|---|---|---|")
+    lines.append(f"| `python -c \"import numpy, lark, sympy\"` | {t_base:.3f} | 1.00 |")
+    lines.append(f"| `layercalc run worked_cases/midlevel_warming.layers`, unit check by sympy "
+                 f"(`LAYERCALC_NO_DIMENSION_CACHE=1`, or the first run of a text) | "
+                 f"{t_uncached:.3f} | {t_uncached / t_base:.2f} |")
+    lines.append(f"| the same, reusing the earlier sympy check of the same text | "
+                 f"{t_cached:.3f} | {t_cached / t_base:.2f} |")
+    lines.append("")
+    lines.append(f"The reused run printed {'the same' if same_output else 'DIFFERENT'} JSON "
+                 "as the sympy-checked run (byte for byte).\n")
     lines.append("Times are the best of five runs (sweeps) or medians (cold start); the loop "
                  "times a sample of scenarios one at a time through `Sheet.evaluate_many` "
                  "and scales to the full count. Other processes on the machine add noise.")

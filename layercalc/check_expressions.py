@@ -153,10 +153,8 @@ class ExpressionChecker:
                 f"a {U.dimension_name(left.meta.dimension)} can only be raised to a fixed "
                 f"number", right.meta.span,
                 hint="write the exponent as a number, e.g. x^2 or x^0.5")
-        from sympy import Rational
-
         frac = Fraction(exponent).limit_denominator(1000)
-        dim = left.meta.dimension ** Rational(frac.numerator, frac.denominator)
+        dim = left.meta.dimension ** U.rational(frac)
         return TBinary(Meta(node.span, dim, shape), op, left, right)
 
     def call(self, node: Call, prefer_columns: bool, diff: bool):
@@ -205,9 +203,7 @@ class ExpressionChecker:
             return U.DIMENSIONLESS
         if rule == "sqrt":
             self.refuse_affine(numeric[0], "passed to sqrt")
-            from sympy import Rational
-
-            return numeric[0].meta.dimension ** Rational(1, 2)
+            return numeric[0].meta.dimension ** U.rational(Fraction(1, 2))
         if rule == "same":
             first = numeric[0]
             for a in numeric[1:]:

@@ -179,7 +179,7 @@ def load_case(path: str):
     if Path(path).suffix.lower() in (".xlsx", ".xlsm") and not _available("xlsx_import"):
         raise InputError(f"{path}: reading workbooks is not part of this version yet",
                          hint="give a .layers file")
-    return load(path)
+    return load(path, reuse_checks=True)
 
 
 def _available(module: str) -> bool:

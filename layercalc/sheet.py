@@ -23,22 +23,37 @@ def loads(text: str, name: str = "<string>") -> "Sheet":
     return Sheet(_compile(Source(name, text)))
 
 
-def load(path: str | Path) -> "Sheet":
-    """A sheet from a `.layers` file or an `.xlsx` workbook."""
+def load(path: str | Path, *, reuse_checks: bool = False) -> "Sheet":
+    """A sheet from a `.layers` file or an `.xlsx` workbook.
+
+    `reuse_checks` (the command line sets it): when this process has not yet needed a unit
+    dimension and the very same text passed a sympy unit check in an earlier run, reuse
+    what sympy derived then instead of importing sympy's unit systems (dimensions.py).
+    """
     path = Path(path)
     if path.suffix.lower() in (".xlsx", ".xlsm"):
         from .xlsx_import import import_workbook
 
         return import_workbook(path).sheet  # problems point at sheet!cell
-    return Sheet(_compile(read_source(path)))
+    return Sheet(_compile(read_source(path), reuse_checks=reuse_checks))
 
 
-def _compile(source: Source):
+def _compile(source: Source, reuse_checks: bool = False):
+    from . import dimensions, units
     from .build import build_document
     from .check import check_document
     from .parser import parse
 
-    return check_document(build_document(source, parse(source)))
+    key = None
+    if reuse_checks and units.source() is None and not dimensions.is_disabled():
+        key = dimensions.sheet_key(source.text)
+        table = dimensions.cached_outcome(key)
+        if table is not None:
+            units.use_cached(table)
+    checked = check_document(build_document(source, parse(source)))
+    if key is not None and units.source() == "sympy":
+        dimensions.remember(key, units.outcome_table())
+    return checked
 
 
 def problems(path_or_text: str | Path, *, is_text: bool = False) -> list[LayercalcError]:

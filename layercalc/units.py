@@ -1,8 +1,14 @@
 """The unit table and unit algebra, checked with sympy dimensions.
 
-Every unit is a sympy dimension, an SI scale and an offset (only degC has one):
+Every unit is a dimension, an SI scale and an offset (only degC has one):
     value_SI = value * scale + offset
 Unit work happens once per formula at check time; evaluation only sees SI floats.
+
+Dimensions are sympy's (sympy.physics.units), compared through dimsys_SI's dependency
+dicts. The command line may instead reuse what sympy derived for the same sheet text in an
+earlier run (dimensions.py): `use_cached(table)` before anything else asks for a dimension.
+The names below (DIMENSIONLESS, PRESSURE, ENERGY, length, mass, temperature, time,
+UNIT_TABLE, ONE) are built on first use, by whichever source was chosen.
 """
 
 from __future__ import annotations
@@ -13,19 +19,87 @@ from dataclasses import dataclass
 from fractions import Fraction
 from functools import lru_cache
 from types import MappingProxyType
-from typing import Mapping
 
-from sympy.physics.units.definitions.dimension_definitions import (
-    length, mass, temperature, time,
-)
-from sympy.physics.units.dimensions import Dimension
-from sympy.physics.units.systems.si import dimsys_SI
-
+from .dimensions import PlainDimension
 from .errors import UnitError
 
-DIMENSIONLESS = Dimension(1)
-PRESSURE = mass / (length * time ** 2)
-ENERGY = mass * length ** 2 / time ** 2
+_LAZY = ("DIMENSIONLESS", "PRESSURE", "ENERGY", "length", "mass", "temperature", "time",
+         "UNIT_TABLE", "_DIMENSION_NAMES", "ONE")
+_SOURCE: list[str] = []  # "sympy" or "cache", once chosen
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        _ensure()
+        return globals()[name]
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def source() -> str | None:
+    """Where dimensions come from in this process: "sympy", "cache" or None (not yet)."""
+    return _SOURCE[0] if _SOURCE else None
+
+
+def _ensure() -> None:
+    if not _SOURCE:
+        use_sympy()
+
+
+def use_sympy() -> None:
+    """Build the unit table with sympy's dimensions (the default)."""
+    if _SOURCE:
+        return
+    from sympy.physics.units.definitions.dimension_definitions import (
+        length, mass, temperature, time,
+    )
+    from sympy.physics.units.dimensions import Dimension
+
+    _install("sympy", Dimension(1), length, mass, temperature, time)
+
+
+def use_cached(table: dict) -> bool:
+    """Build the unit table from exponents sympy derived in an earlier run (see
+    dimensions.py); False (and nothing changed) when the table does not fit."""
+    if _SOURCE:
+        return source() == "cache"
+    try:
+        bases = {name: PlainDimension(table["bases"][name])
+                 for name in ("length", "mass", "temperature", "time")}
+        stored_units = {k: PlainDimension(v) for k, v in table["units"].items()}
+    except (KeyError, TypeError, ValueError, ZeroDivisionError):
+        return False
+    _install("cache", PlainDimension({}), bases["length"], bases["mass"],
+             bases["temperature"], bases["time"])
+    built = {k: e.dimension for k, e in globals()["UNIT_TABLE"].items()}
+    if built != stored_units:  # a table from another version: do not trust it
+        _SOURCE.clear()
+        return False
+    return True
+
+
+def outcome_table() -> dict:
+    """The base exponents of the current unit table, for dimensions.remember()."""
+    from .dimensions import exponents_text
+
+    _ensure()
+    g = globals()
+    return {"bases": {name: exponents_text(dependencies(g[name]))
+                      for name in ("length", "mass", "temperature", "time")},
+            "units": {k: exponents_text(dependencies(e.dimension))
+                      for k, e in g["UNIT_TABLE"].items()}}
+
+
+def _install(name, one, length, mass, temperature, time) -> None:
+    g = globals()
+    g.update(DIMENSIONLESS=one, length=length, mass=mass, temperature=temperature,
+             time=time)
+    g["PRESSURE"] = mass / (length * time ** 2)
+    g["ENERGY"] = mass * length ** 2 / time ** 2
+    g["UNIT_TABLE"] = MappingProxyType(_entries())
+    g["_DIMENSION_NAMES"] = _dimension_names()
+    g["ONE"] = Unit(one, 1.0, 0.0, "1")
+    _SOURCE.append(name)
+    _names_by_dependencies.cache_clear()
 
 
 @dataclass(frozen=True)
@@ -34,13 +108,16 @@ class UnitEntry:
 
     symbol: str
     name: str
-    dimension: Dimension
+    dimension: object  # sympy Dimension, or PlainDimension from the cache
     scale: float
     offset: float
     source: str
 
 
 def _entries() -> dict[str, UnitEntry]:
+    g = globals()
+    DIMENSIONLESS, PRESSURE, ENERGY = g["DIMENSIONLESS"], g["PRESSURE"], g["ENERGY"]
+    length, mass, temperature, time = g["length"], g["mass"], g["temperature"], g["time"]
     nist = "NIST SP 811 (2008), Appendix B.8"
     si = "SI Brochure, BIPM, 9th ed. (2019)"
     rows = [
@@ -80,10 +157,12 @@ def _entries() -> dict[str, UnitEntry]:
     return {r[0]: UnitEntry(*r) for r in rows}
 
 
-UNIT_TABLE: Mapping[str, UnitEntry] = MappingProxyType(_entries())
-
-# Dimension names used in messages, keyed by their SI dependency dicts.
-_DIMENSION_NAMES = [
+def _dimension_names() -> list:
+    """Dimension names used in messages, keyed by their SI dependency dicts."""
+    g = globals()
+    DIMENSIONLESS, PRESSURE, ENERGY = g["DIMENSIONLESS"], g["PRESSURE"], g["ENERGY"]
+    length, mass, temperature, time = g["length"], g["mass"], g["temperature"], g["time"]
+    return [
     ("dimensionless", DIMENSIONLESS),
     ("pressure", PRESSURE),
     ("temperature", temperature),
@@ -103,34 +182,41 @@ _DIMENSION_NAMES = [
     ("inverse pressure", 1 / PRESSURE),
     ("length per pressure", length / PRESSURE),
     ("area", length ** 2),
-]
+    ]
 
 
 @lru_cache(maxsize=4096)
-def dependencies(dimension: Dimension) -> frozenset:
+def dependencies(dimension) -> frozenset:
     """A dimension's SI base-dimension exponents, as a hashable set of (base, power).
 
     Comparing these (not the sympy expressions) is what makes `length + time` a mismatch
     rather than an unevaluated sum, and keeps temperature apart from time.
     """
+    if isinstance(dimension, PlainDimension):
+        return dimension.deps
+    from sympy.physics.units.dimensions import Dimension
+    from sympy.physics.units.systems.si import dimsys_SI
+
     deps = dimsys_SI.get_dimensional_dependencies(dimension, mark_dimensionless=True)
-    return frozenset((str(k), v) for k, v in deps.items() if k != Dimension(1))
+    return frozenset((str(k.name), Fraction(int(v.p), int(v.q)))
+                     for k, v in deps.items() if k != Dimension(1))
 
 
 @lru_cache(maxsize=1)
 def _names_by_dependencies() -> dict[frozenset, str]:
-    return {dependencies(d): name for name, d in _DIMENSION_NAMES}
+    _ensure()
+    return {dependencies(d): name for name, d in globals()["_DIMENSION_NAMES"]}
 
 
-def same_dimension(a: Dimension, b: Dimension) -> bool:
+def same_dimension(a, b) -> bool:
     return dependencies(a) == dependencies(b)
 
 
-def is_dimensionless(a: Dimension) -> bool:
+def is_dimensionless(a) -> bool:
     return not dependencies(a)
 
 
-def dimension_name(dimension: Dimension) -> str:
+def dimension_name(dimension) -> str:
     """A dimension in words: "pressure", "temperature", or base powers spelt out."""
     deps = dependencies(dimension)
     named = _names_by_dependencies().get(deps)
@@ -147,7 +233,7 @@ def dimension_name(dimension: Dimension) -> str:
 class Unit:
     """A resolved unit: SI value = value * scale + offset."""
 
-    dimension: Dimension
+    dimension: object
     scale: float
     offset: float = 0.0
     text: str = "1"
@@ -166,11 +252,10 @@ class Unit:
         return f"{dimension_name(self.dimension)} [{self.text}]"
 
 
-ONE = Unit(DIMENSIONLESS, 1.0, 0.0, "1")
-
-
 def lookup(symbol: str, span=None) -> Unit:
     """One unit symbol from the table, or a UnitError naming close matches."""
+    _ensure()
+    UNIT_TABLE = globals()["UNIT_TABLE"]
     entry = UNIT_TABLE.get(symbol)
     if entry is None:
         close = difflib.get_close_matches(symbol, list(UNIT_TABLE), n=3, cutoff=0.5)
@@ -202,14 +287,22 @@ def divide(a: Unit, b: Unit, span=None) -> Unit:
 def power(a: Unit, exponent: Fraction | int, span=None) -> Unit:
     _refuse_affine(a, span)
     exponent = Fraction(exponent)
+    return Unit(a.dimension ** rational(exponent), a.scale ** float(exponent), 0.0,
+                f"{a.text}^{exponent}")
+
+
+def rational(value: Fraction):
+    """An exact exponent for the current dimensions: sympy's Rational or a Fraction."""
+    if source() == "cache":
+        return Fraction(value)
     from sympy import Rational
 
-    return Unit(a.dimension ** Rational(exponent.numerator, exponent.denominator),
-                a.scale ** float(exponent), 0.0, f"{a.text}^{exponent}")
+    return Rational(value.numerator, value.denominator)
 
 
 def number(value: float) -> Unit:
-    return Unit(DIMENSIONLESS, float(value), 0.0, repr(value))
+    _ensure()
+    return Unit(globals()["DIMENSIONLESS"], float(value), 0.0, repr(value))
 
 
 def bare_unit(text: str, span=None) -> Unit:
