@@ -69,6 +69,12 @@ BOLTON_EXPONENT_COEFFICIENT = 17.67
 BOLTON_TEMPERATURE_OFFSET = 243.5
 
 
+# Mean radius of the Earth R1 = (2a + b) / 3 of the Geodetic Reference System 1980 [m]
+# (Moritz, H., 2000: Geodetic Reference System 1980. J. Geodesy 74, 128-133; the IUGG
+# mean radius, 6371.0088 km).
+EARTH_MEAN_RADIUS = 6371008.7714
+
+
 class Constant(NamedTuple):
     """One entry of the constants table: value in SI, unit text, source text."""
 

@@ -17,6 +17,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from layercalc.constants import EARTH_MEAN_RADIUS  # GRS80 mean radius; source there
 from layercalc.errors import DefinitionError
 
 __all__ = [
@@ -25,11 +26,6 @@ __all__ = [
     "linear_wind_fit", "polygon_shape", "shape_warnings", "station_polygon_divergence",
     "spherical_line_integral_divergence",
 ]
-
-# Mean radius of the Earth R1 = (2a + b) / 3 of the Geodetic Reference System 1980 [m]
-# (Moritz, H., 2000: Geodetic Reference System 1980. J. Geodesy 74, 128-133; the IUGG
-# mean radius, 6371.0088 km). TODO: move to constants.py.
-EARTH_MEAN_RADIUS = 6371008.7714
 
 # Fewest stations that determine a linear wind field (3 unknowns per component) [1].
 MINIMUM_STATIONS = 3
