@@ -20,10 +20,12 @@ from .report_layout import TableColumn, auto, fixed, pressure_text, table_lines,
 TRADE = {
     "position": ("km", 1), "area": ("km^2", 0), "separation": ("km", 0),
     "divergence": ("1e-5 s^-1", 2), "virtual_temperature": ("degC", 1),
+    "speed": ("kt", 0),
 }
 SI = {
     "position": ("m", 0), "area": ("m^2", None), "separation": ("m", 0),
     "divergence": ("s^-1", None), "virtual_temperature": ("K", 2),
+    "speed": ("m/s", 1),
 }
 FLAG_TEXT = {True: "FLAG", False: "ok"}
 INTERPOLATED_MARK = " *"
@@ -173,6 +175,22 @@ class _Section:
                                       "column to the levels to check them against the "
                                       "temperatures).")
 
+    # -- layer-mean winds of a levels table -------------------------------------
+    def layer_wind(self, wind: dict) -> None:
+        from .physics.winds import wind_direction_and_speed
+
+        p_bottom = _floats(wind["p_bottom"])[::-1]
+        p_top = _floats(wind["p_top"])[::-1]
+        direction, speed = wind_direction_and_speed(_floats(wind["u"])[::-1],
+                                                    _floats(wind["v"])[::-1])
+        speed_unit, speeds = self.numbers("speed", speed)
+        labels = [f"{pressure_text(b, self.system)}-{pressure_text(t, self.system)}"
+                  for b, t in zip(p_bottom, p_top)]
+        columns = [TableColumn("from", "deg", [fixed(d, 0) for d in direction]),
+                   TableColumn("speed", speed_unit, speeds)]
+        self.lines += ["", "Layer-mean wind (the mean of u and v at the two levels), top first"]
+        self.lines += table_lines("layer", self.pressure_unit(), labels, columns)
+
     def render(self, scenario: str) -> list[str]:
         self.lines += ["", "Soundings"]
         source = self.details.get("thermodynamics_from")
@@ -185,6 +203,8 @@ class _Section:
         stations = self.details.get("stations")
         if stations:
             self.network(stations)
+        if self.details.get("layer_wind"):
+            self.layer_wind(self.details["layer_wind"])
         self.hydrostatic_all()
         return self.lines
 

@@ -375,3 +375,17 @@ def test_a_scenario_report_says_the_soundings_are_as_given():
     flat = " ".join(render(sheet, sheet.evaluate("stronger")).split())
     assert "As given in the file: the changes of scenario stronger act on the layers" in flat
     assert "As given" not in render(sheet, sheet.evaluate())
+
+
+def test_layer_mean_wind_of_a_levels_table():
+    text = ("cell surface_height = 110 m\nlevels\n  p [hPa]  T [degC]  dir [deg]  speed [kt]\n"
+            "  1000  14.0  180  10\n  850  6.0  270  20\n  700  -4.0  360  30\nend\n")
+    sheet = layercalc.loads(text, name="winds.layers")
+    report = render(sheet, sheet.evaluate())
+    rows = {line.split()[0]: line.split()[1:] for line in report.splitlines()
+            if line[:1].isdigit() and "-" in line.split()[0]}
+    # vector mean of the two levels (WMO convention, common practice, no source):
+    # 850-700: (u, v) = ((20 + 0) / 2, (0 - 30) / 2) = (10, -15) kt -> from 326 deg, 18 kt
+    # 1000-850: ((0 + 20) / 2, (10 + 0) / 2) = (10, 5) kt -> from 243 deg, 11 kt
+    assert rows["850-700"][:2] == ["326", "18"]
+    assert rows["1000-850"][:2] == ["243", "11"]
