@@ -25,8 +25,12 @@ __all__ = ["CheckedSheet", "InputCell", "InputColumn", "MAX_LAYERS", "PLAUSIBLE_
            "check_document", "entry_span", "parse_unit_string", "resolve_unit", "unit_text",
            "written_unit"]
 from .constants import CONSTANTS
-from .defaults import CELL_DEFAULTS, OPTION_DEFAULTS, OPTIONS, prelude
-from .errors import CycleError, DefinitionError, LayercalcError, Notice, UnknownNameError
+from .defaults import (
+    CELL_DEFAULTS, CELL_DIMENSIONS, INPUT_DIMENSIONS, OPTION_DEFAULTS, OPTIONS, prelude,
+)
+from .errors import (
+    CycleError, DefinitionError, LayercalcError, Notice, UnitError, UnknownNameError,
+)
 from .nodes import Definition, Document, Note, Option, Scenario, Station, Table, Title
 from .source import Source
 from .typed import CELL, COLUMN, Formula, references
@@ -139,8 +143,9 @@ class _Checker(TableChecker, ExpressionChecker):
                     cells[d.name] = cell
             else:
                 derived[key] = d
+        inputs_ok = self.canonical_inputs(columns, cells)
         names = set(columns) | set(cells) | {n for _, n in derived}
-        text, remarks = prelude(names, options)
+        text, remarks = prelude(names, options) if inputs_ok else ("", [])
         defaults_source = Source("<defaults>", text)
         default_defs = self.prelude_definitions(defaults_source)
         replaced = []
@@ -175,6 +180,27 @@ class _Checker(TableChecker, ExpressionChecker):
         self.compile_all(sheet, formulas_in)
         return sheet
 
+    def canonical_inputs(self, columns, cells) -> bool:
+        """The inputs the built-in diagnostics read must have the dimension they expect;
+        a mismatch is reported where the user wrote it (and the built-in formulas, which
+        would only repeat it, are not compiled)."""
+        ok = True
+        for table, expected, what in ((columns, INPUT_DIMENSIONS, "column"),
+                                      (cells, CELL_DIMENSIONS, "cell")):
+            for name, item in table.items():
+                if name not in expected:
+                    continue
+                want = parse_unit_string(expected[name])
+                if not U.same_dimension(item.unit.dimension, want.dimension):
+                    got = U.dimension_name(item.unit.dimension)
+                    need = U.dimension_name(want.dimension)
+                    self.fail(UnitError(
+                        f"{what} {name} must be {_a(need)}, not {_a(got)} [{item.unit.text}]",
+                        item.span, found=got, expected=need,
+                        hint=f"give it a unit such as [{expected[name]}]"))
+                    ok = False
+        return ok
+
     def input_cell(self, d: Definition) -> InputCell | None:
         try:
             value, unit = _constant_value(d.expr)
@@ -205,6 +231,7 @@ class _Checker(TableChecker, ExpressionChecker):
         self.sheet = sheet
         self.formula_keys = set(formulas_in)
         self.formula_defs = formulas_in
+        in_defaults: list[LayercalcError] = []
         for key, (d, is_default) in formulas_in.items():
             try:
                 formula = self.compile_definition(d, is_default)
@@ -212,7 +239,10 @@ class _Checker(TableChecker, ExpressionChecker):
                 failed.add(key)
                 continue
             except LayercalcError as exc:
-                self.fail(exc)
+                if is_default and not isinstance(exc, CycleError):
+                    in_defaults.append(exc)
+                else:
+                    self.fail(exc)
                 failed.add(key)
                 continue
             compiled[key] = formula
@@ -228,6 +258,33 @@ class _Checker(TableChecker, ExpressionChecker):
                                  hint="one of them must be computed from other values"))
             return
         sheet.formulas = [compiled[k] for k in order if k in compiled]
+        if in_defaults and not self.problems:
+            self.blame_user_definitions(in_defaults, formulas_in)
+
+    def blame_user_definitions(self, errors, formulas_in) -> None:
+        """A built-in formula fails only because of something the user defined under a
+        name it reads (a column of another dimension, say): report it at that definition."""
+        formulas = {d.name: d.name_span for d, default in formulas_in.values() if not default}
+        user = {name: col.span for name, col in self.sheet.input_columns.items()}
+        user.update({name: cell.span for name, cell in self.sheet.input_cells.items()
+                     if cell.span is not None})
+        user.update(formulas)
+        for exc in errors:
+            d = next((d for d, default in formulas_in.values() if default and exc.span
+                      and d.span.start <= exc.span.start < d.span.end), None)
+            if d is None:
+                self.fail(exc)
+                continue
+            read = sorted(_referenced_names([d]) & set(user),
+                          key=lambda n: (n not in formulas, user[n].start))
+            span = user[read[0]] if read else None
+            text = d.span.source.text[d.span.start:d.span.end].strip()
+            self.fail(DefinitionError(
+                f"the built-in formula for '{d.name}' cannot use "
+                + (f"your '{read[0]}'" if read else "your definitions") + f": {exc.message}",
+                span, hint=f"the built-in formula is: {text}; give '{read[0] if read else d.name}'"
+                           " the unit it expects, rename yours, or define "
+                           f"'{d.name}' yourself"))
 
     def compile_definition(self, d: Definition, is_default: bool) -> Formula:
         self.current_kind = d.kind
@@ -245,6 +302,12 @@ class _Checker(TableChecker, ExpressionChecker):
             unit = _si_unit(expr.meta.dimension)
         text = d.span.source.text[d.span.start:d.span.end].strip()
         return Formula(d.kind, d.name, expr, unit, d.span, is_default, text)
+
+def _a(words: str) -> str:
+    if words == "dimensionless":
+        return "a plain number"
+    return ("an " if words[:1] in "aeiou" else "a ") + words
+
 
 def check_document(document: Document) -> CheckedSheet:
     return _Checker(document).run()

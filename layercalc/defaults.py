@@ -30,6 +30,17 @@ INPUT_UNITS = {
 
 HUMIDITY_INPUTS = ("Td", "RH", "r")
 
+# What the defaults expect each canonical input to be (checked where the user wrote it).
+INPUT_DIMENSIONS = {
+    "p_bottom": "hPa", "p_top": "hPa", "T": "K", "Td": "K", "div": "s^-1", "RH": "%",
+    "r": "g/kg",
+}
+CELL_DIMENSIONS = {
+    "surface_height": "m", "surface_pressure": "hPa", "omega_top": "Pa/s",
+    "omega_surface": "Pa/s", "upslope_wind": "m/s", "terrain_slope": "1",
+    "pressure_advection": "Pa/s",
+}
+
 
 def prelude(names: set[str], options: dict[str, str]) -> tuple[str, list[str]]:
     """The default formulas for a sheet whose input and user-formula names are `names`.
