@@ -34,6 +34,7 @@ class CheckedChange:
     bounds: tuple[float, ...] = ()
     condition: TExpr | None = None
     text: str = ""
+    span: object = None  # the change's line in the file
 
 
 @dataclass
@@ -45,6 +46,8 @@ class CheckedScenario:
     cells: dict[str, float]  # input cell -> SI value
     options: dict[str, str]
     notices: list[Notice] = field(default_factory=list)
+    span: object = None  # the scenario's name in the file
+    option_spans: dict = field(default_factory=dict)
 
 
 def check_scenarios(checker, sheet, scenarios: list[Scenario]) -> dict[str, CheckedScenario]:
@@ -64,7 +67,32 @@ def check_scenarios(checker, sheet, scenarios: list[Scenario]) -> dict[str, Chec
                                    f"'{sc.base}'", sc.base_span, close)
         _check_chain(sc, by_name)
         checked[sc.name] = _check_one(checker, sheet, sc)
+    for name, sc in checked.items():
+        _check_options(sheet, name, checked)
     return checked
+
+
+def _check_options(sheet, name: str, checked: dict) -> None:
+    """A scenario that switches integrate/adjust compiles the sheet anew: do it now, so
+    that a combination that does not work is reported at the scenario's own line."""
+    options: dict[str, str] = {}
+    spans: dict = {}
+    current, line = checked[name], []
+    while current is not None:
+        line.append(current)
+        current = checked.get(current.base) if current.base else None
+    for sc in reversed(line):
+        options.update(sc.options)
+        spans.update(sc.option_spans)
+    if {**sheet.options, **options} == sheet.options:
+        return
+    sheet.scenarios = checked  # sheet_for_options reads the base document from the sheet
+    try:
+        sheet_for_options(sheet, options)
+    except LayercalcError as exc:
+        span = next(iter(spans.values()), None) or checked[name].span
+        raise DefinitionError(f"scenario '{name}': {exc.message}", span,
+                              hint=exc.hint) from None
 
 
 def _check_chain(sc: Scenario, by_name: dict[str, Scenario]) -> None:
@@ -88,11 +116,13 @@ def _check_one(checker, sheet, sc: Scenario) -> CheckedScenario:
     for d in sc.cells:
         cells[d.name] = _check_cell(checker, sheet, d)
     options: dict[str, str] = {}
+    option_spans: dict = {}
     for opt in sc.options:
-        checker.option(opt, options, {})
+        checker.option(opt, options, option_spans)
     notices = [n for ch in changes if (n := _empty_selection(sheet, ch, sc)) is not None]
     return CheckedScenario(sc.name, None if sc.base in (None, "base") else sc.base,
-                           sc.description, changes, cells, options, notices)
+                           sc.description, changes, cells, options, notices, sc.name_span,
+                           option_spans)
 
 
 def _check_change(checker, sheet, ch) -> CheckedChange:
@@ -141,7 +171,8 @@ def _check_change(checker, sheet, ch) -> CheckedChange:
                 values.append(typed.value)
             bounds = tuple(values)
     text = ch.span.source.text[ch.span.start:ch.span.end].strip()
-    return CheckedChange(ch.action, ch.target, amount, selection, bounds, condition, text)
+    return CheckedChange(ch.action, ch.target, amount, selection, bounds, condition, text,
+                         ch.span)
 
 
 def _inputs_only(expr: TExpr, span) -> None:
@@ -187,7 +218,7 @@ def _empty_selection(sheet, ch: CheckedChange, sc) -> Notice | None:
         return None
     mask = selection_mask(sheet, ch)
     if not mask.any():
-        return Notice(f"scenario {sc.name}: '{ch.text}' selects no layer", sc.span)
+        return Notice(f"scenario {sc.name}: '{ch.text}' selects no layer", ch.span or sc.span)
     return None
 
 
@@ -268,7 +299,32 @@ def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
                 else:
                     new = np.where(mask, amount, current)
                 columns[ch.target] = np.asarray(new, dtype=float)
+                _still_physical(checked_sheet, sc, ch, columns[ch.target])
     return columns, cells
+
+
+def _still_physical(checked_sheet, sc: CheckedScenario, ch: CheckedChange, values) -> None:
+    """A change must not take a temperature to or below absolute zero (the table refuses
+    such values; a scenario must too), nor produce a value that is not a number."""
+    from .evaluate import EvaluationError
+
+    unit = checked_sheet.input_columns[ch.target].unit
+    is_temperature = U.same_dimension(unit.dimension, U.lookup("K").dimension)
+    bad = ~np.isfinite(values) | ((values <= 0.0) if is_temperature else False)
+    if not np.any(bad):
+        return
+    variant, layer = (int(i[0]) for i in np.nonzero(np.atleast_2d(bad)))
+    value = np.atleast_2d(values)[variant, layer]
+    pb = checked_sheet.input_columns["p_bottom"].values[layer] / 100
+    pt = checked_sheet.input_columns["p_top"].values[layer] / 100
+    what = (f"{value - 273.15:.1f} degC, at or below absolute zero," if np.isfinite(value)
+            else "not a number")
+    where = f" in the layer {pb:g}-{pt:g} hPa"
+    if np.atleast_2d(values).shape[0] > 1:
+        where += f", variant {variant + 1} of the sweep"
+    raise EvaluationError(f"scenario '{sc.name}': '{ch.text}' makes {ch.target} {what}{where}",
+                          ch.span, layer=layer, hint="a scenario's change must keep the "
+                          "inputs physical; check its amount (and the cells it reads)")
 
 
 def scenario_inputs(checked_sheet, name: str):

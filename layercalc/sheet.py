@@ -106,10 +106,15 @@ class Sheet:
 
         if scenario in (None, "base"):
             return Result(evaluate(self.checked), 0, "base")
+        from .errors import EvaluationError
         from .scenarios import scenario_inputs
 
         checked, columns, cells = scenario_inputs(self.checked, scenario)
-        return Result(evaluate(checked, columns, cells), 0, scenario)
+        try:
+            return Result(evaluate(checked, columns, cells), 0, scenario)
+        except EvaluationError as exc:
+            raise EvaluationError(f"scenario '{scenario}': {exc.message}", exc.span,
+                                  layer=exc.layer, hint=exc.hint) from None
 
     def evaluate_many(self, cell_values: Mapping[str, np.ndarray],
                       scenario: str | None = None):

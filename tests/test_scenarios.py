@@ -135,3 +135,33 @@ end
         tend = np.broadcast_to(many.cells["surface_pressure_tendency"], (w.size, 1))[i, 0]
         assert_allclose(tend, one.si_cells["surface_pressure_tendency"], rtol=1e-12,
                         atol=1e-15)
+
+
+def test_a_scenario_cannot_take_temperatures_below_absolute_zero():
+    s = sheet("scenario cold\n  add -400 K to T\nend\n")
+    with pytest.raises(layercalc.EvaluationError) as info:
+        s.evaluate("cold")
+    text = info.value.format()
+    assert "scenario 'cold': 'add -400 K to T' makes T" in text
+    assert "absolute zero" in text and "test.layers:" in text
+    assert layercalc.problems(BASE_TABLE + "scenario cold\n  add -400 K to T\nend\n",
+                              is_text=True)  # `check` finds it too
+
+
+def test_a_sweep_variant_below_absolute_zero_is_named():
+    s = sheet("cell k = 1\nscenario scaled\n  scale T by k\nend\n")
+    with pytest.raises(layercalc.EvaluationError, match="variant 1 of the sweep"):
+        s.evaluate_many({"k": np.array([-1.0, 1.0])}, scenario="scaled")
+
+
+def test_evaluation_errors_name_their_scenario():
+    s2 = sheet("column q = 1 / (T - 300 K)\nscenario s\n  set T to 300 K\nend\n")
+    s2.evaluate()  # the base is fine: no layer at 300 K
+    with pytest.raises(layercalc.EvaluationError, match="scenario 's': column 'q' is infinite"):
+        s2.evaluate("s")
+
+
+def test_a_scenario_option_that_cannot_work_is_reported_at_its_line():
+    err = error_of(BASE_TABLE + "scenario s\n  option adjust = obrien\nend\n")
+    assert err.format().startswith("test.layers:10:3: error: scenario 's': 'adjust = obrien' "
+                                   "needs 'integrate = from_surface'")
