@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import difflib
 import graphlib
+import math
 
 from . import units as U
 from .check_expressions import (
@@ -212,6 +213,9 @@ class _Checker(TableChecker, ExpressionChecker):
                 value_si = _constant_si(d.expr)
             else:
                 value_si = _constant_si(d.expr)
+            if not math.isfinite(value_si):
+                raise DefinitionError(f"cell {d.name} is too large to be a number", d.expr.span,
+                                      hint="give a finite value")
             return InputCell(d.name, unit, value_si, d.span)
         except LayercalcError as exc:
             self.fail(exc)

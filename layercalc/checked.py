@@ -101,8 +101,16 @@ def unit_text(source: Source, node) -> str:
 
 
 def written_unit(node) -> U.Unit:
+    import math
+
+    from .errors import UnitError
+
     unit = resolve_unit(node)
     text = node.span.source.text[node.span.start:node.span.end].strip().strip("[]").strip()
+    if not (math.isfinite(unit.scale) and unit.scale > 0):
+        raise UnitError(f"the unit [{text}] has the factor {unit.scale:g}; a unit's factor "
+                        "must be a positive number", node.span,
+                        hint="write a scaled unit like [1e-5 s^-1] or [10 m]")
     return U.Unit(unit.dimension, unit.scale, unit.offset, text or unit.text)
 
 

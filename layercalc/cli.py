@@ -161,8 +161,13 @@ def main(argv: list[str] | None = None) -> int:
     if args.command is None:
         parser.print_help(sys.stderr)
         return 2
+    import numpy as np
+
     try:
-        return args.handler(args)
+        # absurd but accepted values (1e308 Pa/s) overflow in unit conversions: the report
+        # shows them as '-', and numpy's warnings would only add noise on stderr
+        with np.errstate(all="ignore"):
+            return args.handler(args)
     except LayercalcError as err:
         print(err.format(), file=sys.stderr)
         return err.exit_code

@@ -26,6 +26,11 @@ def summarise(result) -> dict:
     from .physics.hypsometric import height_at_pressure
     from .physics.kinematic import nondivergence_levels
 
+    with np.errstate(all="ignore"):  # absurd but accepted inputs must not print warnings
+        return _summarise(result, height_at_pressure, nondivergence_levels)
+
+
+def _summarise(result, height_at_pressure, nondivergence_levels) -> dict:
     columns = result.si_columns
     out: dict = {}
     if "div_adjusted" in columns:

@@ -318,7 +318,7 @@ def test_json_gains_a_soundings_key_and_keeps_the_rest(capsys):
     assert units["T"] == "K" and units["implied_virtual_temperature"] == "K"
     assert soundings["hydrostatic_tolerance"] == 10.0  # physics.levels default, 10 m
     assert [(s["name"], s["latitude"], s["longitude"]) for s in network["stations"]] == [
-        ("Northfield", 47.10, 8.30), ("Eastmoor", 45.85, 11.25), ("Southvale", 44.70, 7.70)]
+        ("Northfield", 47.10, -31.70), ("Eastmoor", 45.85, -28.75), ("Southvale", 44.70, -32.30)]
     levels = network["levels"]
     assert levels["pressure"][0] == 100000.0 and levels["pressure"][-1] == 20000.0
     assert levels["divergence_interpolated"] == [False] * 9

@@ -128,9 +128,9 @@ THREE = CASES / "three_stations.layers"
 KNOT = 1852.0 / 3600.0  # m/s
 RADIUS = 6371008.7714   # m, GRS80 mean radius
 # The worked case at 500 and 700 hPa: station -> (latitude, longitude, {hPa: (dir, kt)}).
-REPORTED = {"Northfield": (47.10, 8.30, {500: (229, 47), 700: (219, 31)}),
-            "Eastmoor": (45.85, 11.25, {500: (232, 53), 700: (219, 38)}),
-            "Southvale": (44.70, 7.70, {500: (229, 50), 700: (222, 36)})}
+REPORTED = {"Northfield": (47.10, -31.70, {500: (229, 47), 700: (219, 31)}),
+            "Eastmoor": (45.85, -28.75, {500: (232, 53), 700: (219, 38)}),
+            "Southvale": (44.70, -32.30, {500: (229, 50), 700: (222, 36)})}
 
 
 def station_axes(figure):

@@ -226,8 +226,8 @@ def test_station_network_positions_centroid_area_and_separations():
     assert list(rows) == ["Northfield", "Eastmoor", "Southvale"]
     projection = pyproj.Proj(proj="stere", lat_0=network["centroid_latitude"],
                              lon_0=network["centroid_longitude"], k_0=1.0, R=6371008.7714)
-    file_positions = {"Northfield": (47.10, 8.30), "Eastmoor": (45.85, 11.25),
-                      "Southvale": (44.70, 7.70)}  # the worked case's station lines
+    file_positions = {"Northfield": (47.10, -31.70), "Eastmoor": (45.85, -28.75),
+                      "Southvale": (44.70, -32.30)}  # the worked case's station lines
     plane = {}
     for name, (latitude, longitude) in file_positions.items():
         x, y = projection(longitude, latitude)
@@ -237,8 +237,8 @@ def test_station_network_positions_centroid_area_and_separations():
         assert rows[name][3] == pytest.approx(y / 1e3, abs=0.051)
     flat = " ".join(text.split())
     latitude, longitude = network["centroid_latitude"], network["centroid_longitude"]
-    assert f"centroid {latitude:.2f} N, {longitude:.2f} E" in flat
-    assert 45.0 < latitude < 47.1 and 7.7 < longitude < 11.25  # inside the triangle
+    assert f"centroid {latitude:.2f} N, {-longitude:.2f} W" in flat  # west of Greenwich
+    assert 45.0 < latitude < 47.1 and -32.3 < longitude < -28.75  # inside the triangle
     # area: shoelace formula on the pyproj plane positions (common practice, no source);
     # the stereographic scale (1.0002 at 170 km) moves it by less than 0.1 %
     (x1, y1), (x2, y2), (x3, y3) = plane.values()
