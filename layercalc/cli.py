@@ -392,12 +392,41 @@ def command_import(args) -> int:
     return 0
 
 
+def _sweep_workbook(frame, units: dict, title: str) -> bytes:
+    """The sweep table as a workbook: title, caution, a header and a units row, values."""
+    import io
+
+    from openpyxl import Workbook
+    from openpyxl.styles import Font
+
+    from .sheet import CAUTION
+
+    book = Workbook()
+    sheet = book.active
+    sheet.title = "sweep"
+    for row, text in ((1, title or "layercalc sweep"), (2, CAUTION)):
+        cell = sheet.cell(row=row, column=1, value=text)
+        cell.data_type = "s"  # text as text, never a formula
+    sheet.cell(row=1, column=1).font = Font(bold=True)
+    for column, name in enumerate(frame.columns, start=1):
+        sheet.cell(row=4, column=column, value=str(name)).font = Font(bold=True)
+        sheet.cell(row=5, column=column, value=units.get(name, "")).data_type = "s"
+        for row, value in enumerate(frame[name].tolist(), start=6):
+            sheet.cell(row=row, column=column, value=float(value))
+    sheet.freeze_panes = "A6"
+    buffer = io.BytesIO()
+    book.save(buffer)
+    return buffer.getvalue()
+
+
 def command_sweep(args) -> int:
     from .report import TableColumn, auto, table_lines, wrap
     from .sweep import parse_range, plot_sweep, run_sweep
 
     if len(args.vary) > 2:
-        raise OutputError("a sweep varies one or two cells", hint="give --vary once or twice")
+        print("layercalc sweep: error: a sweep varies one or two cells (give --vary once or "
+              "twice)", file=sys.stderr)
+        return 2  # a usage error
     if args.plot and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
         raise OutputError(f"cannot draw to '{args.plot}': the picture must end in .png or "
                           ".svg")
@@ -412,11 +441,7 @@ def command_sweep(args) -> int:
         text = header + frame.to_csv(index=False, header=False)
         files.append((args.csv, text.encode("utf-8")))
     if args.xlsx:
-        import io
-
-        buffer = io.BytesIO()
-        frame.to_excel(buffer, index=False, sheet_name="sweep")
-        files.append((args.xlsx, buffer.getvalue()))
+        files.append((args.xlsx, _sweep_workbook(frame, units, sheet.title)))
     if args.plot:
         import tempfile
 

@@ -261,6 +261,26 @@ def test_sweep(capsys, tmp_path):
     assert code == 1 and "nothing" in err
 
 
+def test_sweep_workbook_has_caution_and_units_and_three_ranges_are_a_usage_error(
+        capsys, tmp_path):
+    from openpyxl import load_workbook
+
+    from layercalc.sheet import CAUTION
+
+    target = tmp_path / "s.xlsx"
+    code, _, _ = run(capsys, "sweep", str(WARMING), "--scenario", "warmed_divergent",
+                     "--vary", "warming=0:2:1", "--xlsx", str(target), "--quiet")
+    assert code == 0
+    rows = list(load_workbook(target)["sweep"].iter_rows(values_only=True))
+    assert rows[1][0] == CAUTION
+    assert rows[3][:2] == ("warming", "surface_pressure_tendency")
+    assert rows[4][:2] == ("K", "hPa/(3 h)")
+    assert [r[0] for r in rows[5:]] == [0, 1, 2]
+    code, _, err = run(capsys, "sweep", str(WARMING), "--vary", "warming=0:1:1",
+                       "--vary", "div_scale=1:2:1", "--vary", "surface_height=0:1:1")
+    assert code == 2 and "one or two cells" in err
+
+
 def test_export_and_import(capsys, tmp_path):
     from layercalc.cli import _available
 
