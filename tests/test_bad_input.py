@@ -51,7 +51,8 @@ def test_hundred_thousand_layers_work():
     text = f"layers\n p_bottom [hPa] p_top [hPa] T [degC] div [1e-5 s^-1]\n{rows}\nend\n"
     result = layercalc.loads(text).evaluate()
     assert result.si_columns["z_top"].shape == (n,)
-    # isothermal column: thickness = Rd T / g0 ln(1000/100) (hypsometric equation)
+    # isothermal column: thickness = Rd T / g0 ln(1000/100) (hypsometric equation, e.g.
+    # Wallace and Hobbs 2006, eq. 3.29, from memory)
     from layercalc.constants import G0, RD
 
     assert result.si_cells["column_thickness"] == pytest.approx(
@@ -62,7 +63,8 @@ def test_single_layer_works():
     one = "layers\n p_bottom [hPa] p_top [hPa] T [K] div [1e-5 s^-1]\n 1000 500 260 0.5\nend\n"
     result = layercalc.loads(one).evaluate()
     assert result.summary["level_of_nondivergence"] == []
-    # continuity equation, one layer: omega_s = -div dp = -0.5e-5 * 5e4 Pa = -0.25 Pa/s
+    # continuity equation in pressure coordinates, one layer (common practice, no source):
+    # omega_s = -div dp = -0.5e-5 * 5e4 Pa = -0.25 Pa/s
     assert result.si_cells["omega_surface"] == pytest.approx(-0.25)
 
 

@@ -59,7 +59,8 @@ def test_sweep_table_equals_one_at_a_time_and_hypsometric_rise():
         assert_allclose(row.surface_pressure_tendency, one["surface_pressure_tendency"],
                         rtol=1e-12)
         assert_allclose(row.column_thickness, one["column_thickness"], rtol=1e-12)
-    # hypsometric equation: warming dT in 500-300 hPa adds Rd dT/g0 ln(5/3) to the column
+    # hypsometric equation (e.g. Wallace and Hobbs 2006, eq. 3.29, from memory): warming dT
+    # in 500-300 hPa adds Rd dT/g0 ln(5/3) to the column
     base = frame[frame.warming == 0].column_thickness.iloc[0]
     warm = frame[frame.warming == 3].column_thickness.iloc[0]
     assert_allclose(warm - base, RD * 3 / G0 * np.log(5 / 3), rtol=1e-9)

@@ -132,6 +132,7 @@ def test_midlevel_warming_falls_and_the_warmed_layers_lift_the_surfaces_above():
     div = base.si_columns["div"]
     assert div[0] < 0 < div[-4]  # convergence below, divergence aloft
     tendency = hpa_per_3h(base.si_cells["surface_pressure_tendency"])
+    # the case is built to show a falling surface pressure (its header, a made-up scenario)
     assert tendency < -1.0
     # warming alone changes heights, not the tendency
     assert warmed.si_cells["surface_pressure_tendency"] == pytest.approx(
@@ -200,6 +201,10 @@ def test_standard_atmosphere_against_an_independent_library():
 
 
 def test_moist_summer_heights_rise_with_moisture():
+    """Thresholds from the virtual-temperature relation Tv = T (r + eps) / (eps (1 + r)):
+    r of about 15 g/kg near the ground gives Tv - T of about 0.6 r T = 2.6 K, and the dry
+    upper air gives almost none (common practice, no source); the 1000-500 hPa lift is
+    Rd dTv / g0 ln 2, some 20-40 m for a layer-mean dTv of 1-2 K (hypsometric equation)."""
     result = load("moist_summer").evaluate()
     columns, cells = result.si_columns, result.si_cells
     assert columns["Tv"][0] - columns["T"][0] > 2.5
@@ -213,7 +218,9 @@ def test_unbalanced_divergence_adjustments_close_the_column():
     sheet = load("unbalanced_divergence")
     base = sheet.evaluate()
     mismatch = base.si_cells["top_mismatch"]
-    assert mismatch * 3600 / 100 == pytest.approx(5.4)  # hPa/h: sum(div dp), + at the top
+    # hPa/h: sum(div dp) of the case's table worked by hand (continuity equation, from the
+    # surface with omega_surface = 0; common practice, no source), + at the top
+    assert mismatch * 3600 / 100 == pytest.approx(5.4)
     assert base.si_columns["omega_top"][-1] == pytest.approx(mismatch)
     for name in ("uniform", "obrien"):
         result = sheet.evaluate(name)
@@ -229,6 +236,8 @@ def test_unbalanced_divergence_adjustments_close_the_column():
 
 
 def test_dines_compensation_big_divergences_tiny_tendency():
+    """The case is built (made-up scenario, see its header) so that layer divergences of
+    3e-5 s^-1 nearly cancel: thresholds are the case's own design figures."""
     result = load("dines_compensation").evaluate()
     cells = result.si_cells
     assert np.abs(result.si_columns["div"]).max() > 2.5e-5
@@ -244,6 +253,8 @@ def test_trainer_exercise_user_columns_and_cells():
     for name in ("z_mid", "lapse_rate", "theta", "dtheta_dz", "stability"):
         assert name in columns
     lapse_k_per_km = columns["lapse_rate"] * 1000
+    # 9.8 K/km: the dry-adiabatic lapse rate g0/cp (from memory; any textbook, e.g. Wallace
+    # and Hobbs 2006, section 3.5)
     assert lapse_k_per_km[0] > 9.8 and columns["stability"][0] == 2  # superadiabatic
     assert columns["dtheta_dz"][0] < 0
     inversion = int(np.argmin(lapse_k_per_km))
