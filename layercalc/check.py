@@ -61,6 +61,9 @@ class _Checker(TableChecker, ExpressionChecker):
         tables, definitions, scenarios, stations = [], [], [], []
         for st in self.document.statements:
             if isinstance(st, Title):
+                if title:
+                    self.fail(DefinitionError("a sheet has one title; this is a second one",
+                                              st.span, hint="use note lines for more text"))
                 title = st.text
             elif isinstance(st, Note):
                 notes.append(st.text)

@@ -247,6 +247,9 @@ def _case_summary(path: Path) -> str:
 def command_run(args) -> int:
     from . import jsonout, report
 
+    if args.csv and args.output and Path(args.csv).resolve() == Path(args.output).resolve():
+        raise OutputError(f"--csv and -o both name {args.csv}; nothing was written",
+                          hint="give the table and the report different files")
     if args.all_scenarios and args.csv:
         raise OutputError("--csv writes one variant's layer table; with --all-scenarios "
                           "there are several", hint="use --scenario NAME with --csv")
@@ -370,6 +373,7 @@ def command_plot(args) -> int:
 def command_export(args) -> int:
     if not _available("xlsx_export"):
         raise LayercalcError("writing workbooks is not part of this version yet")
+    _need_suffix(args.output, (".xlsx",), "the workbook")
     module = importlib.import_module("layercalc.xlsx_export")
     sheet = load_case(args.case)
     module.write_workbook(sheet, args.output)
@@ -384,12 +388,20 @@ def command_import(args) -> int:
     from .files import write_text_atomic
 
     module = importlib.import_module("layercalc.xlsx_import")
+    _need_suffix(args.output, (".layers",), "the sheet")
     _refuse_overwrite(args.output, args.force)
     text = module.read_workbook(Path(args.workbook))
     loads(text, name=args.workbook)  # refuse to write a sheet that would not load
     write_text_atomic(args.output, text)
     print(f"wrote {args.output}", file=sys.stderr)
     return 0
+
+
+def _need_suffix(path: str, suffixes: tuple[str, ...], what: str) -> None:
+    if Path(path).suffix.lower() not in suffixes:
+        raise OutputError(f"cannot write {what} to '{path}': the name must end in "
+                          + " or ".join(suffixes),
+                          hint=f"e.g. -o {Path(path).stem or 'out'}{suffixes[0]}")
 
 
 def _sweep_workbook(frame, units: dict, title: str) -> bytes:
@@ -430,6 +442,8 @@ def command_sweep(args) -> int:
     if args.plot and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
         raise OutputError(f"cannot draw to '{args.plot}': the picture must end in .png or "
                           ".svg")
+    if args.xlsx:
+        _need_suffix(args.xlsx, (".xlsx",), "the sweep table")
     sheet = load_case(args.case)
     ranges = [parse_range(text, sheet) for text in args.vary]
     frame = run_sweep(sheet, ranges, scenario=args.scenario, outputs=args.show)

@@ -34,8 +34,10 @@ def _summarise(result, height_at_pressure, nondivergence_levels) -> dict:
     columns = result.si_columns
     out: dict = {}
     if "div_adjusted" in columns:
-        out["level_of_nondivergence"] = nondivergence_levels(columns["p_mid"],
-                                                             columns["div_adjusted"])
+        div = columns["div_adjusted"]
+        # a column without any divergence has no level where it changes sign
+        out["level_of_nondivergence"] = [] if not np.any(div) else nondivergence_levels(
+            columns["p_mid"], div)
     found = interfaces(columns)
     if found is not None:
         p, z = found

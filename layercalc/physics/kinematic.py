@@ -249,7 +249,8 @@ def dines_ratio(divergence, pressure_depth):
     ratio = |sum_k D[k] dp[k]| / sum_k |D[k]| dp[k]
 
     0 when convergence and divergence cancel exactly (Dines compensation), 1 when all
-    layers diverge or all converge; nan when every divergence is 0.
+    layers diverge or all converge; 0 when every divergence is 0 (nothing to cancel; the
+    sheet's default uses the same convention).
 
     Parameters
     ----------
@@ -261,7 +262,7 @@ def dines_ratio(divergence, pressure_depth):
     Returns
     -------
     numpy.ndarray, shape (...)
-        Ratio in [0, 1], or nan. [1]
+        Ratio in [0, 1]. [1]
 
     References
     ----------
@@ -271,7 +272,7 @@ def dines_ratio(divergence, pressure_depth):
     pressure_depth = np.asarray(pressure_depth, dtype=float)
     net = np.abs(np.sum(divergence * pressure_depth, axis=-1))
     gross = np.sum(np.abs(divergence) * pressure_depth, axis=-1)
-    return np.divide(net, gross, out=np.full(np.shape(gross), np.nan), where=gross > 0)
+    return np.divide(net, gross, out=np.zeros(np.shape(gross)), where=gross > 0)
 
 
 def nondivergence_levels(pressure_midpoint, divergence):
