@@ -310,6 +310,10 @@ def _still_physical(checked_sheet, sc: CheckedScenario, ch: CheckedChange, value
 
     unit = checked_sheet.input_columns[ch.target].unit
     is_temperature = U.same_dimension(unit.dimension, U.lookup("K").dimension)
+    lowest = np.min(values)  # one reduction: NaN propagates, so this also finds NaN
+    if np.isfinite(lowest) and np.isfinite(np.max(values)) and (
+            lowest > 0.0 or not is_temperature):
+        return
     bad = ~np.isfinite(values) | ((values <= 0.0) if is_temperature else False)
     if not np.any(bad):
         return
