@@ -47,7 +47,9 @@ def parse_range(text: str, sheet) -> Range:
         raise UnknownNameError(f"{where}: '{name}' is not an input cell of this sheet", None,
                                close, hint=None if close else
                                "input cells: " + ", ".join(cells))
-    if step == 0 or (stop - start) / step < 0 or not np.isfinite([start, stop, step]).all():
+    if not np.isfinite([start, stop, step]).all():
+        raise DefinitionError(f"{where}: START, STOP and STEP must be finite numbers")
+    if step == 0 or (stop - start) / step < 0:
         raise DefinitionError(f"{where}: STEP must be non-zero and lead from START to STOP")
     count = int(np.floor((stop - start) / step + 1e-9)) + 1
     if count > MAX_POINTS:
@@ -62,7 +64,8 @@ def grid(ranges: list[Range]) -> dict[str, np.ndarray]:
     if not 1 <= len(ranges) <= 2:
         raise DefinitionError("a sweep varies one or two cells")
     if len({r.name for r in ranges}) != len(ranges):
-        raise DefinitionError("the same cell is varied twice")
+        raise DefinitionError(f"the cell '{ranges[0].name}' is varied twice",
+                              hint="vary two different cells, or one")
     mesh = np.meshgrid(*[r.si_values for r in ranges], indexing="ij")
     total = mesh[0].size
     if total > MAX_POINTS:

@@ -32,6 +32,7 @@ def test_parse_range_includes_stop():
     ("warming=0:5:-1", "STEP must be non-zero"),
     ("warmin=0:5:1", "did you mean 'warming'"),
     ("warming=a:5:1", "must be numbers"),
+    ("warming=nan:5:1", "must be finite numbers"),
 ])
 def test_parse_range_errors(text, expected):
     with pytest.raises(layercalc.LayercalcError) as info:
