@@ -170,6 +170,11 @@ def _read_network(checker, stations: list[Station]) -> _Network:
                     np.array([st.longitude for st in stations]))
 
 
+# Beyond this latitude (deg) meridians converge so fast that a reported direction from
+# "north" changes meaning over a few km: a warning (our choice, no source).
+POLAR_LATITUDE = 85.0
+
+
 def _divergence(network: _Network, notices: list[Notice]) -> tuple[np.ndarray, dict]:
     """Divergence per level (inner gaps interpolated in ln p) and the details of the fit."""
     winds = [s.wind() for s in network.soundings]
@@ -180,6 +185,11 @@ def _divergence(network: _Network, notices: list[Notice]) -> tuple[np.ndarray, d
     span = network.stations[0].span
     for text in station_physics.shape_warnings(result.shape):
         notices.append(Notice(f"station network: {text}", span))
+    for st in network.stations:
+        if abs(st.latitude) > POLAR_LATITUDE:
+            notices.append(Notice(
+                f'station "{st.name}" is within {90 - POLAR_LATITUDE:g} degrees of a pole, '
+                "where a wind direction from north is ill-defined; check its winds", st.span))
     divergence = np.array(result.divergence, dtype=float)
     if not np.isfinite(divergence).any():
         raise DefinitionError("no level has a usable wind field: fewer than three stations "

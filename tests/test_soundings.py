@@ -506,3 +506,12 @@ def test_worked_case_header_figures_hold():
     change_faster = faster.cells["surface_pressure_tendency"] - cells["surface_pressure_tendency"]
     assert 6.5 < abs(change_turned) < 7.5             # "about 7 hPa/3h"
     assert 1.2 < abs(change_faster) < 1.4             # "about 1.3 hPa/3h"
+
+
+def test_a_station_near_a_pole_is_warned_about():
+    latitudes, longitudes = triangle(86.0, 20.0, 0.0)
+    sheet = load(network_text(latitudes, longitudes))
+    assert any("of a pole" in m for m in messages(sheet))
+    latitudes, longitudes = triangle(45.0, 20.0, 0.0)
+    assert not any("of a pole" in m for m in messages(load(network_text(latitudes,
+                                                                          longitudes))))
