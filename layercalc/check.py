@@ -13,7 +13,7 @@ import math
 from . import units as U
 from .check_expressions import (
     ExpressionChecker, _Poisoned, _constant_si, _constant_value, _is_constant,
-    _referenced_names, _si_unit,
+    _referenced_names,
 )
 from .check_table import MAX_LAYERS, PLAUSIBLE_TEMPERATURE, TableChecker, entry_span
 from .checked import (
@@ -306,7 +306,7 @@ class _Checker(TableChecker, ExpressionChecker):
             self.same(unit.dimension, expr.meta.dimension, d.expr.span,
                       f"{d.kind} {d.name} [{unit.text}]", "its formula", declared_first=True)
         else:
-            unit = _si_unit(expr.meta.dimension)
+            unit = U.si_unit(expr.meta.dimension)
         text = d.span.source.text[d.span.start:d.span.end].strip()
         return Formula(d.kind, d.name, expr, unit, d.span, is_default, text)
 

@@ -289,14 +289,6 @@ def _named_dimension(name: str):
     raise AssertionError(name)
 
 
-def _si_unit(dimension) -> U.Unit:
-    text = {"dimensionless": "1", "pressure": "Pa", "temperature": "K", "length": "m",
-            "time": "s", "speed": "m/s", "inverse time (e.g. divergence)": "s^-1",
-            "pressure per time (e.g. omega)": "Pa/s", "mass": "kg"}.get(
-        U.dimension_name(dimension), "SI")
-    return U.Unit(dimension, 1.0, 0.0, text)
-
-
 def _is_constant(expr) -> bool:
     if isinstance(expr, Literal):
         return True

@@ -94,33 +94,7 @@ SOUNDINGS_UNITS = {
 NETWORK_KEYS = ("centroid_latitude", "centroid_longitude", "area", "smallest_angle",
                 "collinearity", "smallest_separation", "largest_separation")
 
-# SI symbols for named dimensions; anything else is spelt from its base units.
-_SI_BY_NAME = {
-    "dimensionless": "1", "pressure": "Pa", "temperature": "K", "length": "m", "time": "s",
-    "mass": "kg", "speed": "m/s", "inverse time (e.g. divergence)": "s^-1",
-    "pressure per time (e.g. omega)": "Pa/s", "acceleration": "m/s^2",
-    "density": "kg/m^3", "energy": "J", "temperature per length (e.g. lapse rate)": "K/m",
-    "temperature per pressure": "K/Pa", "inverse length": "m^-1",
-    "inverse pressure": "Pa^-1", "length per pressure": "m/Pa", "area": "m^2",
-}
-_SI_BASE = {"length": "m", "mass": "kg", "time": "s", "temperature": "K", "current": "A",
-            "amount_of_substance": "mol", "luminous_intensity": "cd"}
 
-
-def si_unit_text(dimension) -> str:
-    """The SI unit of a dimension as text: "Pa/s", "K/m", or base units ("kg m^-1")."""
-    named = _SI_BY_NAME.get(U.dimension_name(dimension))
-    if named:
-        return named
-    parts = []
-    for base, power in sorted(U.dependencies(dimension)):
-        symbol = _SI_BASE.get(base, base)
-        parts.append(symbol if power == 1 else f"{symbol}^{power}")
-    return " ".join(parts) or "1"
-
-
-def si_unit(dimension) -> U.Unit:
-    return U.Unit(dimension, 1.0, 0.0, si_unit_text(dimension))
 
 
 def output_unit(sheet, name: str, kind: str, system: str = "trade",
@@ -132,7 +106,7 @@ def output_unit(sheet, name: str, kind: str, system: str = "trade",
 
     declared = sheet.unit_of(name, kind)
     if system == "si":
-        return si_unit(declared.dimension)
+        return U.si_unit(declared.dimension)
     table = TRADE_COLUMN_UNITS if kind == "column" else TRADE_CELL_UNITS
     text = table.get(name)
     if text is None:
@@ -170,7 +144,7 @@ def result_document(sheet, result) -> dict:
     units: dict[str, str] = {}
     for name in [*LAYER_KEYS, *checked.column_names]:
         if name in columns and name not in units:
-            units[name] = si_unit_text(checked.unit_of(name, "column").dimension)
+            units[name] = U.si_unit_text(checked.unit_of(name, "column").dimension)
     layers = []
     names = [*LAYER_KEYS, *(n for n in checked.column_names if n not in LAYER_KEYS)]
     for i in range(checked.layer_count):
@@ -184,12 +158,12 @@ def result_document(sheet, result) -> dict:
         else:
             summary[name] = _number(cells[name]) if name in cells else None
             if name in cells:
-                units.setdefault(name, si_unit_text(checked.unit_of(name, "cell").dimension))
+                units.setdefault(name, U.si_unit_text(checked.unit_of(name, "cell").dimension))
     for name in checked.cell_names:
         if name in summary or name in HIDDEN_CELLS:
             continue
         summary[name] = _number(cells[name])
-        units.setdefault(name, si_unit_text(checked.unit_of(name, "cell").dimension))
+        units.setdefault(name, U.si_unit_text(checked.unit_of(name, "cell").dimension))
     for key in ("standard_heights", "standard_thicknesses"):
         if key in summary_extra:
             summary[key] = {k: float(v) for k, v in summary_extra[key].items()}
@@ -228,7 +202,7 @@ def soundings_document(checked) -> dict | None:
     units = dict(SOUNDINGS_UNITS)
     for name in details["column_levels"]:
         if name in checked.column_names:
-            units[name] = si_unit_text(checked.unit_of(name, "column").dimension)
+            units[name] = U.si_unit_text(checked.unit_of(name, "column").dimension)
     network = None
     if details.get("stations"):
         given = details["stations"]

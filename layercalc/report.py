@@ -10,7 +10,8 @@ from __future__ import annotations
 import math
 
 from . import units as U
-from .jsonout import output_unit, si_unit_text
+from .jsonout import output_unit
+from .units import si_unit_text
 from .report_compare import render_comparison
 from .report_layout import (  # the layout helpers, public here as before
     WIDTH, TableColumn, auto, auto_decimals, fixed, grid, is_zero, pressure_text,

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 
-from .jsonout import si_unit_text
+from .units import si_unit_text
 from .report_layout import (WIDTH, TableColumn, auto_decimals, fixed, is_zero, table_lines,
                             unit_words, wrap)
 

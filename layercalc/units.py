@@ -252,6 +252,35 @@ class Unit:
         return f"{dimension_name(self.dimension)} [{self.text}]"
 
 
+# SI symbols for named dimensions; anything else is spelt from its base units.
+_SI_BY_NAME = {
+    "dimensionless": "1", "pressure": "Pa", "temperature": "K", "length": "m", "time": "s",
+    "mass": "kg", "speed": "m/s", "inverse time (e.g. divergence)": "s^-1",
+    "pressure per time (e.g. omega)": "Pa/s", "acceleration": "m/s^2",
+    "density": "kg/m^3", "energy": "J", "temperature per length (e.g. lapse rate)": "K/m",
+    "temperature per pressure": "K/Pa", "inverse length": "m^-1",
+    "inverse pressure": "Pa^-1", "length per pressure": "m/Pa", "area": "m^2",
+}
+_SI_BASE = {"length": "m", "mass": "kg", "time": "s", "temperature": "K", "current": "A",
+            "amount_of_substance": "mol", "luminous_intensity": "cd"}
+
+
+def si_unit_text(dimension) -> str:
+    """The SI unit of a dimension as text: "Pa/s", "K/m", or base units ("kg m^-1")."""
+    named = _SI_BY_NAME.get(dimension_name(dimension))
+    if named:
+        return named
+    parts = []
+    for base, power in sorted(dependencies(dimension)):
+        symbol = _SI_BASE.get(base, base)
+        parts.append(symbol if power == 1 else f"{symbol}^{power}")
+    return " ".join(parts) or "1"
+
+
+def si_unit(dimension) -> "Unit":
+    return Unit(dimension, 1.0, 0.0, si_unit_text(dimension))
+
+
 def lookup(symbol: str, span=None) -> Unit:
     """One unit symbol from the table, or a UnitError naming close matches."""
     _ensure()

@@ -28,9 +28,6 @@ from .xlsx_formulas import (
 
 HEADER_ROW = 5
 FIRST_ROW = 6
-SI_TEXT = {"dimensionless": "1", "pressure": "Pa", "temperature": "K", "length": "m",
-           "time": "s", "speed": "m/s", "inverse time (e.g. divergence)": "s^-1",
-           "pressure per time (e.g. omega)": "Pa/s", "mass": "kg"}
 CHART_UNITS = {"pressure": U.Unit(U.PRESSURE, 100.0, 0.0, "hPa"),
                "omega": U.Unit(U.PRESSURE / U.time, 100.0 / 3600.0, 0.0, "hPa/h"),
                "divergence": U.Unit(1 / U.time, 1e-5, 0.0, "1e-5 s^-1")}
@@ -107,10 +104,6 @@ def letter(column: int) -> str:
     return get_column_letter(column)
 
 
-def si_text(dimension) -> str:
-    return SI_TEXT.get(U.dimension_name(dimension), "SI")
-
-
 def source_text(node) -> str:
     span = node.meta.span
     return span.source.text[span.start:span.end].strip()
@@ -151,7 +144,7 @@ class ResultsLayout:
         self.helpers[texts] = letter(column)
         values = self._evaluate(node)
         self.grid.put(HEADER_ROW, column, Entry(
-            f"helper: {source_text(node)} [{si_text(node.meta.dimension)}]", style="header",
+            f"helper: {source_text(node)} [{U.si_unit_text(node.meta.dimension)}]", style="header",
             comment="intermediate values in SI units, for aggregates and running sums"))
         fmt = number_format(values)
         for row, text, value in zip(rows, texts, values):
