@@ -18,12 +18,12 @@ from .check_expressions import (
 from .check_table import MAX_LAYERS, PLAUSIBLE_TEMPERATURE, TableChecker, entry_span
 from .checked import (
     CheckedSheet, InputCell, InputColumn, _first_of, parse_unit_string, resolve_unit,
-    unit_text, written_unit,
+    written_unit,
 )
 
 # re-exported for importers of the older single module
 __all__ = ["CheckedSheet", "InputCell", "InputColumn", "MAX_LAYERS", "PLAUSIBLE_TEMPERATURE",
-           "check_document", "entry_span", "parse_unit_string", "resolve_unit", "unit_text",
+           "check_document", "entry_span", "parse_unit_string", "resolve_unit",
            "written_unit"]
 from .constants import CONSTANTS
 from .defaults import (
@@ -199,7 +199,8 @@ class _Checker(TableChecker, ExpressionChecker):
                     got = U.dimension_name(item.unit.dimension)
                     need = U.dimension_name(want.dimension)
                     self.fail(UnitError(
-                        f"{what} {name} must be {_a(need)}, not {_a(got)} [{item.unit.text}]",
+                        f"{what} {name} must be {U.with_article(need)}, "
+                        f"not {U.with_article(got)} [{item.unit.text}]",
                         item.span, found=got, expected=need,
                         hint=f"give it a unit such as [{expected[name]}]"))
                     ok = False
@@ -309,12 +310,6 @@ class _Checker(TableChecker, ExpressionChecker):
             unit = U.si_unit(expr.meta.dimension)
         text = d.span.source.text[d.span.start:d.span.end].strip()
         return Formula(d.kind, d.name, expr, unit, d.span, is_default, text)
-
-def _a(words: str) -> str:
-    if words == "dimensionless":
-        return "a plain number"
-    return ("an " if words[:1] in "aeiou" else "a ") + words
-
 
 def check_document(document: Document) -> CheckedSheet:
     return _Checker(document).run()

@@ -144,7 +144,7 @@ class ExpressionChecker:
         self.refuse_affine(left, "raised to a power")
         if not U.is_dimensionless(right.meta.dimension):
             raise UnitError(f"an exponent must be dimensionless, not "
-                            f"{_article(U.dimension_name(right.meta.dimension))}", right.meta.span)
+                            f"{U.with_article(U.dimension_name(right.meta.dimension))}", right.meta.span)
         if U.is_dimensionless(left.meta.dimension):
             return TBinary(Meta(node.span, U.DIMENSIONLESS, shape), op, left, right)
         exponent = _constant_number(node.right)
@@ -197,7 +197,7 @@ class ExpressionChecker:
                 if not U.is_dimensionless(a.meta.dimension):
                     raise UnitError(
                         f"{function.name} needs a dimensionless argument, not "
-                        f"{_article(U.dimension_name(a.meta.dimension))}", a.meta.span,
+                        f"{U.with_article(U.dimension_name(a.meta.dimension))}", a.meta.span,
                         found=U.dimension_name(a.meta.dimension), expected="dimensionless",
                         hint="divide by a reference value first, e.g. ln(p_bottom / p_top)")
             return U.DIMENSIONLESS
@@ -216,8 +216,8 @@ class ExpressionChecker:
         for a, want in zip(args, expected):
             if U.dimension_name(a.meta.dimension) != want:
                 raise UnitError(
-                    f"{function.name} needs {_article(want)} here, not "
-                    f"{_article(U.dimension_name(a.meta.dimension))}", a.meta.span,
+                    f"{function.name} needs {U.with_article(want)} here, not "
+                    f"{U.with_article(U.dimension_name(a.meta.dimension))}", a.meta.span,
                     found=U.dimension_name(a.meta.dimension), expected=want,
                     hint=function.summary)
         return _named_dimension(result)
@@ -226,8 +226,8 @@ class ExpressionChecker:
     def same(self, a, b, span, a_text, b_text, declared_first=False):
         if not U.same_dimension(a, b):
             raise UnitError(
-                f"{a_text} is {_article(U.dimension_name(a))} but {b_text} gives "
-                f"{_article(U.dimension_name(b))}", span,
+                f"{a_text} is {U.with_article(U.dimension_name(a))} but {b_text} gives "
+                f"{U.with_article(U.dimension_name(b))}", span,
                 found=U.dimension_name(b), expected=U.dimension_name(a),
                 hint="change the unit in brackets or the formula")
 
@@ -237,12 +237,12 @@ class ExpressionChecker:
         lt = source.text[left.meta.span.start:left.meta.span.end]
         rt = source.text[right.meta.span.start:right.meta.span.end]
         if verb in ("add", "subtract"):
-            message = f"cannot {verb} {_article(rn)} {'to' if verb == 'add' else 'from'} " \
-                      f"{_article(ln)}"
+            message = f"cannot {verb} {U.with_article(rn)} {'to' if verb == 'add' else 'from'} " \
+                      f"{U.with_article(ln)}"
         else:
-            message = f"cannot {verb} {_article(ln)} with {_article(rn)}"
+            message = f"cannot {verb} {U.with_article(ln)} with {U.with_article(rn)}"
         raise UnitError(message, node.span, found=rn, expected=ln,
-                        hint=f"{lt.strip()} is {_article(ln)}; {rt.strip()} is {_article(rn)}")
+                        hint=f"{lt.strip()} is {U.with_article(ln)}; {rt.strip()} is {U.with_article(rn)}")
 
     def need_condition(self, node, op):
         if not node.meta.condition:
@@ -274,10 +274,6 @@ class _CycleSignal(Exception):
 
 
 # ---------------------------------------------------------------- small helpers
-def _article(words: str) -> str:
-    return ("an " if words[:1] in "aeiou" else "a ") + words
-
-
 def _text(node) -> str:
     return node.span.source.text[node.span.start:node.span.end].strip()
 

@@ -96,10 +96,6 @@ def resolve_unit(node) -> U.Unit:
     raise AssertionError(f"unit node {node!r}")
 
 
-def unit_text(source: Source, node) -> str:
-    return source.text[node.span.start:node.span.end].strip()
-
-
 def written_unit(node) -> U.Unit:
     import math
 

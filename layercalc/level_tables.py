@@ -65,13 +65,6 @@ def mean_over_soundings(values) -> np.ndarray:
     return np.where(count > 0, total / np.maximum(count, 1), np.nan)
 
 
-def _a(words: str) -> str:
-    """'a pressure', 'an inverse time', but 'dimensionless'."""
-    if words == "dimensionless":
-        return words
-    return ("an " if words[:1] in "aeiou" else "a ") + words
-
-
 def jsonable(values) -> list:
     """Floats (None for NaN) or booleans, for JSON."""
     array = np.asarray(values)
@@ -127,8 +120,8 @@ def read_sounding(checker, table: Table, name: str) -> Sounding:
         want = EXPECTED_UNITS.get(heading.name)
         if want and not U.same_dimension(unit.dimension, parse_unit_string(want).dimension):
             expected = U.dimension_name(parse_unit_string(want).dimension)
-            raise UnitError(f"'{heading.name}' must be {_a(expected)}, not "
-                            f"{_a(U.dimension_name(unit.dimension))}", heading.span,
+            raise UnitError(f"'{heading.name}' must be {U.with_article(expected)}, not "
+                            f"{U.with_article(U.dimension_name(unit.dimension))}", heading.span,
                             found=U.dimension_name(unit.dimension), expected=expected,
                             hint=f"write it as e.g. {heading.name} [{want}]")
         values[heading.name], units[heading.name] = unit.to_si(data[:, j]), unit
@@ -247,7 +240,8 @@ def length_cell(checker, name: str, quiet: bool = False) -> tuple[float, Span] |
         raise DefinitionError(f"{name} must be a number with a length unit", st.expr.span,
                               hint=f"e.g. cell {name} = 15 m")
     if not length:
-        raise UnitError(f"{name} must be a length, not {_a(U.dimension_name(unit.dimension))}",
+        raise UnitError(f"{name} must be a length, not "
+                        f"{U.with_article(U.dimension_name(unit.dimension))}",
                         st.expr.span, found=U.dimension_name(unit.dimension),
                         expected="length", hint=f"e.g. cell {name} = 15 m")
     return sign * float(unit.to_si(expr.value)), st.expr.span

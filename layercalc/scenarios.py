@@ -106,10 +106,6 @@ def _check_chain(sc: Scenario, by_name: dict[str, Scenario]) -> None:
         seen.append(current.name)
 
 
-def _article(words: str) -> str:
-    return ("an " if words[:1] in "aeiou" else "a ") + words
-
-
 def _check_one(checker, sheet, sc: Scenario) -> CheckedScenario:
     changes = [_check_change(checker, sheet, ch) for ch in sc.changes]
     cells: dict[str, float] = {}
@@ -147,9 +143,9 @@ def _check_change(checker, sheet, ch) -> CheckedChange:
                             hint="e.g. scale div by 1.5")
     elif not U.same_dimension(amount.meta.dimension, target_dim):
         verb = "add" if ch.action == "add" else "set"
-        raise UnitError(f"cannot {verb} {_article(U.dimension_name(amount.meta.dimension))} "
+        raise UnitError(f"cannot {verb} {U.with_article(U.dimension_name(amount.meta.dimension))} "
                         f"{'to' if verb == 'add' else 'as'} {ch.target} "
-                        f"({_article(U.dimension_name(target_dim))})", ch.amount.span,
+                        f"({U.with_article(U.dimension_name(target_dim))})", ch.amount.span,
                         found=U.dimension_name(amount.meta.dimension),
                         expected=U.dimension_name(target_dim))
     selection, bounds, condition = None, (), None

@@ -35,11 +35,6 @@ class Source:
         end = self.text.find("\n", start)
         return self.text[start:] if end < 0 else self.text[start:end]
 
-    def offset(self, line: int, column: int) -> int:
-        """Character offset of a 1-based line and column."""
-        line = max(1, min(line, len(self._line_starts)))
-        return self._line_starts[line - 1] + column - 1
-
 
 def read_source(path: str | Path) -> Source:
     """Read a `.layers` file as UTF-8; a file that is not text is our error, not a traceback."""
@@ -103,8 +98,3 @@ class Span:
         caret_pad = " " * (column - 1 - start)
         width = max(1, min(width, len(text) - (column - 1 - start)))
         return f"{line:>{len(pad)}} | {text}\n{pad} | {caret_pad}{'^' * width}"
-
-    def join(self, other: "Span | None") -> "Span":
-        if other is None:
-            return self
-        return Span(self.source, min(self.start, other.start), max(self.end, other.end))

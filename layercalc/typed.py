@@ -5,7 +5,7 @@ translator. Numbers are already in SI."""
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Optional, Union
+from typing import Union
 
 from .functions import Function
 from .source import Span
@@ -92,8 +92,3 @@ class Formula:
     span: Span
     default: bool = False
     source_text: str = ""
-    description: Optional[str] = None
-
-    @property
-    def key(self) -> tuple[str, str]:
-        return (self.kind, self.name)

@@ -248,9 +248,6 @@ class Unit:
     def from_si(self, value):
         return (value - self.offset) / self.scale if self.offset else value / self.scale
 
-    def describe(self) -> str:
-        return f"{dimension_name(self.dimension)} [{self.text}]"
-
 
 # SI symbols for named dimensions; anything else is spelt from its base units.
 _SI_BY_NAME = {
@@ -263,6 +260,13 @@ _SI_BY_NAME = {
 }
 _SI_BASE = {"length": "m", "mass": "kg", "time": "s", "temperature": "K", "current": "A",
             "amount_of_substance": "mol", "luminous_intensity": "cd"}
+
+
+def with_article(words: str) -> str:
+    """A dimension's name for a sentence: "a pressure", "an inverse time", "a plain number"."""
+    if words == "dimensionless":
+        return "a plain number"
+    return ("an " if words[:1] in "aeiou" else "a ") + words
 
 
 def si_unit_text(dimension) -> str:
@@ -332,12 +336,3 @@ def rational(value: Fraction):
 def number(value: float) -> Unit:
     _ensure()
     return Unit(globals()["DIMENSIONLESS"], float(value), 0.0, repr(value))
-
-
-def bare_unit(text: str, span=None) -> Unit:
-    """A unit written without brackets after a number: `hPa`, `K`, `s^-1`."""
-    symbol, _, exponent = text.partition("^")
-    unit = lookup(symbol, span)
-    if exponent:
-        unit = power(unit, int(exponent), span)
-    return Unit(unit.dimension, unit.scale, unit.offset, text)
