@@ -13,17 +13,10 @@ import layercalc
 from layercalc.cli import worked_cases_folder
 from layercalc.report import TableColumn, auto, fixed, render, render_comparison, table_lines
 
+from .helpers import BASE_TABLE
+
 CASES = sorted(worked_cases_folder().glob("*.layers"))
-TABLE = """\
-layers
-  p_bottom [hPa]  p_top [hPa]  T [degC]  div [1e-5 s^-1]
-  1000  850   14.0  -1.0
-  850   700    6.0  -0.6
-  700   500   -6.0   0.0
-  500   300  -25.0   0.8
-  300   200  -45.0   1.0
-end
-"""
+TABLE = BASE_TABLE
 
 
 def report_of(text: str, **options) -> str:
