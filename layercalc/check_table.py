@@ -18,6 +18,16 @@ PLAUSIBLE_TEMPERATURE = (150.0, 340.0)  # K; outside: a warning (coldest/warmest
 MAX_LAYERS = 1_000_000
 
 
+def implausible_temperature(name: str, kelvin: float, where: str = "") -> str | None:
+    """The warning for a temperature outside PLAUSIBLE_TEMPERATURE (None inside it)."""
+    lo, hi = PLAUSIBLE_TEMPERATURE
+    if lo <= kelvin <= hi:
+        return None
+    celsius = U.lookup("degC").from_si
+    return (f"{name} = {celsius(kelvin):.1f} degC{where} is outside the plausible range "
+            f"{celsius(lo):.0f} to {celsius(hi):.0f} degC")
+
+
 class TableChecker:
     # -- the layer table ----------------------------------------------------
     def layer_table(self, tables: list[Table], stations: list[Station]) -> Table | None:
@@ -167,7 +177,6 @@ class TableChecker:
     def plausibility(self, table: Table, columns: dict[str, InputColumn]) -> None:
         order = getattr(self, "row_order", np.arange(len(table.rows)))
         names = [h.name for h in table.headings]
-        lo, hi = PLAUSIBLE_TEMPERATURE
         for name in ("T", "Td"):
             col = columns.get(name)
             if col is None or not U.same_dimension(col.unit.dimension, U.lookup("K").dimension):
@@ -179,10 +188,9 @@ class TableChecker:
                         f"{name} is below absolute zero ({value:.2f} K)", span,
                         hint="check the unit in the header ([degC] or [K])"))
                     return
-                if not lo <= value <= hi:
-                    self.notices.append(Notice(
-                        f"{name} = {value - 273.15:.1f} degC is outside the plausible range "
-                        f"{lo - 273.15:.0f} to {hi - 273.15:.0f} degC", span))
+                warning = implausible_temperature(name, value)
+                if warning:
+                    self.notices.append(Notice(warning, span))
         if "T" in columns and "Td" in columns:
             over = np.flatnonzero(columns["Td"].values > columns["T"].values + 1e-9)
             for k in over[:3]:

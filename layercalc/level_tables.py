@@ -14,7 +14,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import units as U
-from .check import PLAUSIBLE_TEMPERATURE, entry_span, parse_unit_string, resolve_unit
+from .check import entry_span, parse_unit_string, resolve_unit
+from .check_table import implausible_temperature
 from .errors import DefinitionError, LayercalcError, Notice, UnitError
 from .nodes import Definition, Literal, Table, Unary
 from .physics import humidity, levels as level_physics
@@ -166,14 +167,12 @@ def _plausible(s: Sounding) -> None:
 
 def level_notices(s: Sounding, notices: list[Notice]) -> None:
     """Warnings as the checker gives for layers: T, Td outside its range, Td above T."""
-    lo, hi = PLAUSIBLE_TEMPERATURE
     for name in ("T", "Td"):
         for k, value in enumerate(s.values.get(name, ())):
-            if np.isfinite(value) and not lo <= value <= hi:
-                notices.append(Notice(
-                    f"{s.name}: {name} = {value - 273.15:.1f} degC at {hpa(s.pressure[k])} is "
-                    f"outside the plausible range {lo - 273.15:.0f} to {hi - 273.15:.0f} degC",
-                    s.entry_span(name, k)))
+            warning = np.isfinite(value) and implausible_temperature(
+                name, value, f" at {hpa(s.pressure[k])}")
+            if warning:
+                notices.append(Notice(f"{s.name}: {warning}", s.entry_span(name, k)))
     if "T" in s.values and "Td" in s.values:
         for k in np.flatnonzero(s.values["Td"] > s.values["T"] + 1e-9)[:3]:
             notices.append(Notice(f"{s.name}: dewpoint above temperature at "

@@ -317,7 +317,8 @@ def _still_physical(checked_sheet, sc: CheckedScenario, ch: CheckedChange, value
     value = np.atleast_2d(values)[variant, layer]
     pb = checked_sheet.input_columns["p_bottom"].values[layer] / 100
     pt = checked_sheet.input_columns["p_top"].values[layer] / 100
-    what = (f"{value - 273.15:.1f} degC, at or below absolute zero," if np.isfinite(value)
+    what = (f"{U.lookup('degC').from_si(value):.1f} degC, at or below absolute zero,"
+            if np.isfinite(value)
             else "not a number")
     where = f" in the layer {pb:g}-{pt:g} hPa"
     if np.atleast_2d(values).shape[0] > 1:
