@@ -7,15 +7,20 @@ tendency, from a small declarative file format (`.layers`), with units checked s
     >>> sheet = layercalc.load("worked_cases/midlevel_warming.layers")   # doctest: +SKIP
     >>> result = sheet.evaluate()                                        # doctest: +SKIP
     >>> result.cells["surface_pressure_tendency"]                        # doctest: +SKIP
+
+The package is a pipeline of subpackages (DEVELOPERS.md has the map); this module only
+names the public API. The API itself is loaded on first use, so that `import layercalc`
+(and `layercalc --help`) stays light.
 """
 
-from .errors import (
+from layercalc.caution import CAUTION
+from layercalc.errors import (
     CycleError, DefinitionError, EvaluationError, InputError, LayercalcError,
     LayercalcSyntaxError, Notice, OutputError, SpreadsheetError, UnitError, UnknownNameError,
 )
-from .sheet import CAUTION, Result, Sheet, load, loads, problems
+from layercalc.version import __version__
 
-__version__ = "0.1.0"
+_FROM_API = ("Result", "Sheet", "load", "loads", "problems")
 
 __all__ = [
     "CAUTION", "CycleError", "DefinitionError", "EvaluationError", "InputError",
@@ -23,3 +28,15 @@ __all__ = [
     "SpreadsheetError", "UnitError", "UnknownNameError", "__version__", "load", "loads",
     "problems",
 ]
+
+
+def __getattr__(name: str):
+    if name in _FROM_API:
+        from layercalc import api
+
+        return getattr(api, name)
+    raise AttributeError(f"module 'layercalc' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(__all__)

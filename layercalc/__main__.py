@@ -1,6 +1,6 @@
 """`python -m layercalc`: the same command as `layercalc`."""
 
-from .cli import main
+from layercalc.cli.main import main
 
 if __name__ == "__main__":
     raise SystemExit(main())

@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING, Sequence
 
 if TYPE_CHECKING:
-    from .source import Span
+    from layercalc.source import Span
 
 
 class LayercalcError(Exception):

@@ -11,7 +11,7 @@ import os
 import tempfile
 from pathlib import Path
 
-from .errors import OutputError
+from layercalc.errors import OutputError
 
 _HINT = "check that the folder exists and that you may write there"
 

@@ -38,7 +38,7 @@ class Source:
 
 def read_source(path: str | Path) -> Source:
     """Read a `.layers` file as UTF-8; a file that is not text is our error, not a traceback."""
-    from .errors import InputError
+    from layercalc.errors import InputError
 
     path = Path(path)
     try:

@@ -29,7 +29,7 @@ TOKENS = ["title", "note", "option", "cell", "column", "layers", "levels", "end"
 def seeds() -> list[str]:
     texts = [p.read_text(encoding="utf-8") for p in sorted((ROOT / "worked_cases")
                                                            .glob("*.layers"))]
-    from .helpers import BASE_TABLE
+    from tests.helpers import BASE_TABLE
 
     return texts or [BASE_TABLE]
 

@@ -8,7 +8,7 @@ import pytest
 
 import layercalc
 
-from .helpers import BASE_TABLE, sheet
+from tests.helpers import BASE_TABLE, sheet
 
 TABLE = """layers
   p_bottom [hPa]  p_top [hPa]  T [degC]  Td [degC]

@@ -24,9 +24,9 @@ import pytest
 
 import layercalc
 from layercalc import files
-from layercalc.cli import _available, main, worked_cases, worked_cases_folder
+from layercalc.cli.main import main, worked_cases, worked_cases_folder
 from layercalc.constants import G0, RD
-from layercalc.parser import MAX_NESTING
+from layercalc.language.parser import MAX_NESTING
 
 ERRORS = Path(__file__).resolve().parent / "errors"
 GOLDEN = sorted(ERRORS.glob("*.layers"))
@@ -92,8 +92,6 @@ def assert_our_error(code, out, err, *needles) -> None:
 @pytest.fixture(scope="module")
 def workbook(tmp_path_factory) -> Path:
     """A workbook exported from the mid-level warming case (for import)."""
-    if not (_available("xlsx_export") and _available("xlsx_import")):
-        pytest.skip("workbook support is not part of this version")
     book = tmp_path_factory.mktemp("book") / "warming.xlsx"
     assert main(["export", str(WARMING), "-o", str(book)]) == 0
     return book

@@ -12,16 +12,16 @@ from pathlib import Path
 
 import pytest
 
-from layercalc.dimensions import PlainDimension
+from layercalc.language.dimensions import PlainDimension
 
 ROOT = Path(__file__).resolve().parent.parent
 CASE = ROOT / "worked_cases" / "midlevel_warming.layers"
 PROBE = ("import sys, io, contextlib\n"
-         "from layercalc.cli import main\n"
+         "from layercalc.cli.main import main\n"
          "out = io.StringIO()\n"
          "with contextlib.redirect_stdout(out):\n"
          "    code = main(['run', sys.argv[1], '--json'])\n"
-         "import layercalc.units as U\n"
+         "import layercalc.language.units as U\n"
          "print(repr((code, U.source(), 'sympy.physics.units' in sys.modules)))\n"
          "print(out.getvalue())\n")
 

@@ -12,7 +12,7 @@ from numpy.testing import assert_allclose
 
 import layercalc
 
-from .helpers import BASE_TABLE, error_of, sheet
+from tests.helpers import BASE_TABLE, error_of, sheet
 
 # The base table as SI numpy arrays, surface first (what the formulas should see).
 PB = np.array([1000, 850, 700, 500, 300]) * 100.0

@@ -6,7 +6,7 @@ import random
 
 from hypothesis import given, settings, strategies as st
 
-from .fuzz import check_one, mutate, run, seeds
+from tests.fuzz import check_one, mutate, run, seeds
 
 
 def test_mutated_worked_cases_for_thirty_seconds():

@@ -9,9 +9,9 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 import layercalc
-from layercalc.build import build_document
-from layercalc.nodes import Binary, Call, Definition, Literal, Scenario, Station, Table, Unary
-from layercalc.parser import parse
+from layercalc.language.build import build_document
+from layercalc.language.nodes import Binary, Call, Definition, Literal, Scenario, Station, Table, Unary
+from layercalc.language.parser import parse
 from layercalc.source import Source
 
 EVERYTHING = '''\
@@ -129,7 +129,7 @@ def test_long_chain_of_operators_is_a_clear_error():
 
 
 def test_grammar_loads_from_package_or_checkout():
-    from layercalc.parser import grammar_text
+    from layercalc.language.parser import grammar_text
 
     assert "start:" in grammar_text()
 

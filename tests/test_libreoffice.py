@@ -29,11 +29,11 @@ import pytest
 from openpyxl import load_workbook
 
 import layercalc
-import layercalc.cli
-from layercalc.xlsx_export import write_workbook
-from layercalc.xlsx_layout import FIRST_ROW
+import layercalc.cli.main
+from layercalc.formats.xlsx.export import write_workbook
+from layercalc.formats.xlsx.layout import FIRST_ROW
 
-from .test_xlsx_export import ALL_CASES, CASES, case_sheet, derived_places
+from tests.test_xlsx_export import ALL_CASES, CASES, case_sheet, derived_places
 
 SOFFICE = shutil.which("soffice") or shutil.which("libreoffice")
 # CI (.ci/run) installs LibreOffice and sets LAYERCALC_REQUIRE_LIBREOFFICE=1: there a missing
@@ -257,7 +257,7 @@ def test_text_that_looks_like_a_formula_stays_text_in_libreoffice(recalculated):
 
 def test_a_what_if_parameter_edited_in_settings_flows_into_the_scenarios(recalculated):
     exported, converted, _, _, what_if = recalculated
-    path = layercalc.cli.worked_cases_folder() / "midlevel_warming.layers"
+    path = layercalc.cli.main.worked_cases_folder() / "midlevel_warming.layers"
     text = path.read_text()
     assert "cell warming = 3 K" in text
     sheet = layercalc.loads(text.replace("cell warming = 3 K", f"cell warming = "

@@ -43,7 +43,7 @@ def test_installed_wheel_parses_and_runs_from_another_folder(wheel, tmp_path):
     env = dict(os.environ, PYTHONPATH=str(target), LAYERCALC_CACHE_DIR="")
     code = ("import layercalc, pathlib; "
             "assert pathlib.Path(layercalc.__file__).is_relative_to(pathlib.Path(r'%s')); "
-            "from layercalc.parser import grammar_text; "
+            "from layercalc.language.parser import grammar_text; "
             "s = layercalc.loads(open(r'%s').read()); "
             "print(round(s.evaluate().cells['column_thickness']))"
             % (target, ROOT / "worked_cases" / "standard_atmosphere.layers"))

@@ -8,8 +8,8 @@ import pytest
 from numpy.testing import assert_allclose
 
 import layercalc
-from layercalc.cli import main, worked_cases_folder
-from layercalc.plot import COMPARE_SIZE, SINGLE_SIZE, profile_figure, save_profile
+from layercalc.cli.main import main, worked_cases_folder
+from layercalc.plots.profile import COMPARE_SIZE, SINGLE_SIZE, profile_figure, save_profile
 
 pytest.importorskip("matplotlib")
 
@@ -122,7 +122,7 @@ def test_a_column_without_divergence_draws_temperature(tmp_path):
 # - divergence and vorticity in the title: the details (layercalc.physics.stations,
 #   checked independently in tests/test_stations.py).
 from layercalc.errors import OutputError  # noqa: E402
-from layercalc.plot import STATION_PANEL_WIDTH, figure_size  # noqa: E402
+from layercalc.plots.profile import STATION_PANEL_WIDTH, figure_size  # noqa: E402
 
 THREE = CASES / "three_stations.layers"
 KNOT = 1852.0 / 3600.0  # m/s
@@ -232,8 +232,8 @@ def test_station_panel_beside_the_scenario_panel():
 
 
 def test_a_station_without_wind_at_the_level_has_no_arrow():
-    from .test_soundings import network_text
-    from .test_stations import triangle
+    from tests.test_soundings import network_text
+    from tests.test_stations import triangle
 
     latitudes, longitudes = triangle(50.0, 5.0, 15.0)
     sheet = layercalc.loads(network_text(latitudes, longitudes, missing=[(1, 2)]),

@@ -10,10 +10,10 @@ import numpy as np
 import pytest
 
 import layercalc
-from layercalc.cli import worked_cases_folder
-from layercalc.report import TableColumn, auto, fixed, render, render_comparison, table_lines
+from layercalc.cli.main import worked_cases_folder
+from layercalc.report.text import TableColumn, auto, fixed, render, render_comparison, table_lines
 
-from .helpers import BASE_TABLE
+from tests.helpers import BASE_TABLE
 
 CASES = sorted(worked_cases_folder().glob("*.layers"))
 TABLE = BASE_TABLE
@@ -170,11 +170,11 @@ def test_wide_tables_are_split_and_keep_the_labels():
 #   Hobbs 2006, section 3.2) written out here, for an isothermal dry column.
 from layercalc.constants import G0, RD  # noqa: E402
 
-from .test_soundings import (  # noqa: E402
+from tests.test_soundings import (  # noqa: E402
     LEVEL_DIVERGENCE, LEVEL_VORTICITY, PRESSURES, great_circle_km, levels_block,
     network_text,
 )
-from .test_stations import triangle  # noqa: E402
+from tests.test_stations import triangle  # noqa: E402
 
 THREE_STATIONS = worked_cases_folder() / "three_stations.layers"
 

@@ -14,7 +14,7 @@ from numpy.testing import assert_allclose
 import layercalc
 from layercalc.constants import G0, RD
 
-from .helpers import BASE_TABLE, error_of, sheet
+from tests.helpers import BASE_TABLE, error_of, sheet
 
 SCENARIOS = """
 cell warming = 3 K

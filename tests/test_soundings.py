@@ -29,8 +29,8 @@ from layercalc.constants import G0, RD
 from layercalc.physics import stations as station_physics
 from layercalc.physics.winds import wind_direction_and_speed
 
-from .test_levels import COARSE_HPA, MANDATORY_HPA, trapezoid_error_bounds, ussa_column
-from .test_stations import pentagon, plane_linear_winds, triangle
+from tests.test_levels import COARSE_HPA, MANDATORY_HPA, trapezoid_error_bounds, ussa_column
+from tests.test_stations import pentagon, plane_linear_winds, triangle
 
 WORKED_CASE = Path(__file__).resolve().parent.parent / "worked_cases" / "three_stations.layers"
 KNOT = 1852.0 / 3600.0   # m/s, NIST SP 811 (1 kn = 1852 m/h), exact

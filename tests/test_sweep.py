@@ -8,9 +8,9 @@ from numpy.testing import assert_allclose
 
 import layercalc
 from layercalc.constants import G0, RD
-from layercalc.sweep import grid, parse_range, run_sweep
+from layercalc.evaluation.sweep import grid, parse_range, run_sweep
 
-from .helpers import sheet
+from tests.helpers import sheet
 
 BODY = """
 cell warming = 0 K
@@ -68,7 +68,7 @@ def test_sweep_table_equals_one_at_a_time_and_hypsometric_rise():
 
 
 def test_sweep_plot_writes_png(tmp_path):
-    from layercalc.sweep import plot_sweep
+    from layercalc.evaluation.sweep import plot_sweep
 
     s = sheet(BODY)
     ranges = [parse_range("warming=0:3:1", s), parse_range("div_scale=0.5:1.5:0.5", s)]

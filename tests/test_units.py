@@ -8,10 +8,10 @@ import pytest
 from numpy.testing import assert_allclose
 
 import layercalc
-from layercalc import units as U
-from layercalc.check import parse_unit_string
+from layercalc.language import units as U
+from layercalc.checking.checker import parse_unit_string
 
-from .helpers import error_of, sheet
+from tests.helpers import error_of, sheet
 
 # symbol, SI value of one unit, source of the factor
 PUBLISHED = [

@@ -16,9 +16,9 @@ import pytest
 from numpy.testing import assert_allclose
 
 import layercalc
-from layercalc.cli import worked_cases_folder
+from layercalc.cli.main import worked_cases_folder
 from layercalc.constants import G0, RD
-from layercalc.jsonout import LAYER_KEYS, SUMMARY_KEYS, dumps, scenarios_document
+from layercalc.formats.jsondoc import LAYER_KEYS, SUMMARY_KEYS, dumps, scenarios_document
 
 FOLDER = worked_cases_folder()
 CASES = sorted(FOLDER.glob("*.layers"))

@@ -15,13 +15,13 @@ from numpy.testing import assert_allclose
 from openpyxl import load_workbook
 
 import layercalc
-from layercalc.cli import worked_cases_folder
+from layercalc.cli.main import worked_cases_folder
 from layercalc.errors import OutputError
-from layercalc.evaluate import BINARY as EVALUATED_BINARY, UNARY as EVALUATED_UNARY
-from layercalc.functions import AGGREGATE_MAX, AGGREGATE_MIN, FUNCTIONS, ROW_MAX, ROW_MIN
-from layercalc.xlsx_export import write_workbook
-from layercalc.xlsx_formulas import BINARY, CALLS, UNARY, number_text
-from layercalc.xlsx_layout import FIRST_ROW, HEADER_ROW
+from layercalc.evaluation.engine import BINARY as EVALUATED_BINARY, UNARY as EVALUATED_UNARY
+from layercalc.language.functions import AGGREGATE_MAX, AGGREGATE_MIN, FUNCTIONS, ROW_MAX, ROW_MIN
+from layercalc.formats.xlsx.export import write_workbook
+from layercalc.formats.xlsx.formulas import BINARY, CALLS, UNARY, number_text
+from layercalc.formats.xlsx.layout import FIRST_ROW, HEADER_ROW
 
 EVERY_FUNCTION = """\
 title "=SUM(A1) is a title, not a formula"
@@ -339,8 +339,8 @@ def test_scenarios_get_their_own_sheets_and_a_comparison(exported):
 def test_what_cannot_be_a_formula_is_a_value_with_a_note(tmp_path, monkeypatch):
     # Every function has a spreadsheet form today; this removes one (ln) and shortens the
     # formula limit to show the fallback: the value layercalc computed, and a note.
-    from layercalc import xlsx_formulas, xlsx_layout
-    from layercalc.functions import ELEMENTWISE
+    from layercalc.formats.xlsx import formulas as xlsx_formulas, layout as xlsx_layout
+    from layercalc.language.functions import ELEMENTWISE
 
     monkeypatch.delitem(xlsx_formulas.CALLS, ("ln", ELEMENTWISE))
     monkeypatch.setattr(xlsx_layout, "MAX_FORMULA_LENGTH", 60)

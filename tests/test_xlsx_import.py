@@ -12,13 +12,13 @@ import pytest
 from openpyxl import Workbook, load_workbook
 
 import layercalc
-from layercalc import xlsx_import
+from layercalc.formats.xlsx import reader as xlsx_import
 from layercalc.constants import G0, RD, T_ZERO_CELSIUS
 from layercalc.errors import SpreadsheetError
-from layercalc.xlsx_export import write_workbook
-from layercalc.xlsx_import import import_workbook, read_workbook
+from layercalc.formats.xlsx.export import write_workbook
+from layercalc.formats.xlsx.reader import import_workbook, read_workbook
 
-from .test_xlsx_export import ALL_CASES, case_sheet
+from tests.test_xlsx_export import ALL_CASES, case_sheet
 
 # Inputs layercalc computes itself (means over stations) may need 17 significant digits;
 # a workbook stores 16 (openpyxl writes "%.16g"), so these re-import within 1e-16
@@ -331,7 +331,7 @@ def test_load_reads_workbooks(tmp_path):
 
 
 def test_import_command_writes_a_layers_file_with_the_same_results(tmp_path, capsys):
-    from layercalc.cli import main
+    from layercalc.cli.main import main
 
     path = hand_workbook(tmp_path / "hand.xlsx")
     out = tmp_path / "hand.layers"

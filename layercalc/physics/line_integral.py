@@ -10,7 +10,7 @@ import numpy as np
 from layercalc.constants import EARTH_MEAN_RADIUS  # GRS80 mean radius; source there
 from layercalc.errors import DefinitionError
 
-from .stations import _east_north_vectors, _great_circle_angles, _unit_vectors
+from layercalc.physics.stations import _east_north_vectors, _great_circle_angles, _unit_vectors
 
 
 class SphericalLineIntegral(NamedTuple):

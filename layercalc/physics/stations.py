@@ -449,6 +449,6 @@ def station_polygon_divergence(latitudes, longitudes, u, v, radius=EARTH_MEAN_RA
 
 def spherical_line_integral_divergence(latitudes, longitudes, u, v, radius=EARTH_MEAN_RADIUS):
     """The exact spherical reference for a triangle (physics/line_integral.py)."""
-    from .line_integral import spherical_line_integral_divergence as exact
+    from layercalc.physics.line_integral import spherical_line_integral_divergence as exact
 
     return exact(latitudes, longitudes, u, v, radius)

@@ -1,0 +1,213 @@
+"""The Python API: load a sheet, evaluate it, read the results."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TYPE_CHECKING, Iterable, Mapping
+
+import numpy as np
+
+from layercalc.errors import LayercalcError, Notice
+from layercalc.source import Source, read_source
+
+if TYPE_CHECKING:  # pragma: no cover
+    import pandas
+
+from layercalc.caution import CAUTION  # noqa: F401  (part of the public API)
+
+
+def loads(text: str, name: str = "<string>") -> "Sheet":
+    """A sheet from `.layers` text. Raises LayercalcError (with position) if it is invalid."""
+    return Sheet(_compile(Source(name, text)))
+
+
+def load(path: str | Path, *, reuse_checks: bool = False) -> "Sheet":
+    """A sheet from a `.layers` file or an `.xlsx` workbook.
+
+    `reuse_checks` (the command line sets it): when this process has not yet needed a unit
+    dimension and the very same text passed a sympy unit check in an earlier run, reuse
+    what sympy derived then instead of importing sympy's unit systems (dimensions.py).
+    """
+    path = Path(path)
+    if path.suffix.lower() in (".xlsx", ".xlsm"):
+        from layercalc.formats.xlsx.reader import import_workbook
+
+        return import_workbook(path).sheet  # problems point at sheet!cell
+    return Sheet(_compile(read_source(path), reuse_checks=reuse_checks))
+
+
+def _compile(source: Source, reuse_checks: bool = False):
+    from layercalc.language import dimensions, units
+    from layercalc.language.build import build_document
+    from layercalc.checking.checker import check_document
+    from layercalc.language.parser import parse
+
+    key = None
+    if reuse_checks and units.source() is None and not dimensions.is_disabled():
+        key = dimensions.sheet_key(source.text)
+        table = dimensions.cached_outcome(key)
+        if table is not None:
+            units.use_cached(table)
+    checked = check_document(build_document(source, parse(source)))
+    if key is not None and units.source() == "sympy":
+        dimensions.remember(key, units.outcome_table())
+    return checked
+
+
+def problems(path_or_text: str | Path, *, is_text: bool = False) -> list[LayercalcError]:
+    """Every problem found in a file (or text), without raising: for `layercalc check`.
+
+    Besides parsing and checking, this evaluates the base sheet and every scenario, so that
+    a file `check` passes is one `run` can evaluate (division by zero is found here too)."""
+    try:
+        sheet = loads(str(path_or_text)) if is_text else load(path_or_text)
+    except LayercalcError as exc:
+        return list(getattr(exc, "problems", [exc]))
+    found: list[LayercalcError] = []
+    for scenario in (None, *sheet.scenarios):  # so that `check` and `run` agree
+        try:
+            sheet.evaluate(scenario)
+        except LayercalcError as exc:
+            found.append(exc)
+    return found
+
+
+class Sheet:
+    """A checked column sheet. Evaluate it (for a scenario, or over a sweep) to get results."""
+
+    def __init__(self, checked) -> None:
+        self.checked = checked
+
+    @property
+    def title(self) -> str:
+        return self.checked.title
+
+    @property
+    def notes(self) -> list[str]:
+        return list(self.checked.notes)
+
+    @property
+    def scenarios(self) -> list[str]:
+        return list(self.checked.scenarios)
+
+    @property
+    def options(self) -> dict[str, str]:
+        return dict(self.checked.options)
+
+    def check(self) -> list[Notice]:
+        """Warnings found while checking (errors raise when the sheet is loaded)."""
+        return list(self.checked.notices)
+
+    def evaluate(self, scenario: str | None = None) -> "Result":
+        """Results for the base sheet or one named scenario."""
+        from layercalc.evaluation.engine import evaluate
+
+        if scenario in (None, "base"):
+            return Result(evaluate(self.checked), 0, "base")
+        from layercalc.errors import EvaluationError
+        from layercalc.checking.scenarios import scenario_inputs
+
+        checked, columns, cells = scenario_inputs(self.checked, scenario)
+        try:
+            return Result(evaluate(checked, columns, cells), 0, scenario)
+        except EvaluationError as exc:
+            raise EvaluationError(f"scenario '{scenario}': {exc.message}", exc.span,
+                                  layer=exc.layer, hint=exc.hint) from None
+
+    def evaluate_many(self, cell_values: Mapping[str, np.ndarray],
+                      scenario: str | None = None):
+        """One vectorised pass over many variants: each entry of `cell_values` is an array of
+        SI values, one per variant, for an input cell. Returns the raw Evaluation."""
+        from layercalc.checking.scenarios import sweep_evaluation
+
+        return sweep_evaluation(self.checked, dict(cell_values), scenario)
+
+    def compare(self, scenarios: Iterable[str] | None = None) -> "pandas.DataFrame":
+        """A tidy table of key results per scenario with the difference from the base."""
+        from layercalc.evaluation.compare import compare
+
+        return compare(self, list(scenarios) if scenarios is not None else None)
+
+    def to_xlsx(self, path: str | Path) -> None:
+        from layercalc.formats.xlsx.export import write_workbook
+
+        write_workbook(self, path)
+
+
+@dataclass
+class Result:
+    """Results for one variant. `layers`: a DataFrame, surface layer first, in each column's
+    unit (`units`); `cells`: name -> value in its unit; `si_layers` / `si_cells` in SI."""
+
+    evaluation: object
+    index: int
+    scenario: str
+    _frames: dict = field(default_factory=dict, repr=False)
+
+    @property
+    def sheet(self):
+        return self.evaluation.sheet
+
+    @property
+    def units(self) -> dict[str, str]:
+        sheet = self.sheet
+        units = {name: sheet.unit_of(name, "cell").text for name in sheet.cell_names}
+        units.update({name: sheet.unit_of(name, "column").text for name in sheet.column_names})
+        return units
+
+    @property
+    def cell_units(self) -> dict[str, str]:
+        sheet = self.sheet
+        return {name: sheet.unit_of(name, "cell").text for name in sheet.cell_names}
+
+    def _pick(self, array: np.ndarray) -> np.ndarray:
+        return array[min(self.index, array.shape[0] - 1)]
+
+    @property
+    def si_columns(self) -> dict[str, np.ndarray]:
+        return {name: np.array(self._pick(a), dtype=float)
+                for name, a in self.evaluation.columns.items()}
+
+    @property
+    def si_cells(self) -> dict[str, float]:
+        return {name: float(self._pick(a)[0]) for name, a in self.evaluation.cells.items()}
+
+    @property
+    def layers(self) -> "pandas.DataFrame":
+        if "display" not in self._frames:
+            self._frames["display"] = self._frame(si=False)
+        return self._frames["display"]
+
+    @property
+    def si_layers(self) -> "pandas.DataFrame":
+        if "si" not in self._frames:
+            self._frames["si"] = self._frame(si=True)
+        return self._frames["si"]
+
+    def _frame(self, si: bool):
+        import pandas as pd
+
+        sheet = self.sheet
+        data = {}
+        for name in sheet.column_names:
+            values = self.si_columns[name]
+            data[name] = values if si else sheet.unit_of(name, "column").from_si(values)
+        frame = pd.DataFrame(data)
+        frame.attrs["units"] = {n: ("SI" if si else sheet.unit_of(n, "column").text)
+                                for n in data}
+        return frame
+
+    @property
+    def cells(self) -> dict[str, float]:
+        sheet = self.sheet
+        return {name: float(sheet.unit_of(name, "cell").from_si(value))
+                for name, value in self.si_cells.items()}
+
+    @property
+    def summary(self) -> dict:
+        """Diagnostics that are not single formulas: levels of non-divergence, standard
+        thicknesses and heights (SI)."""
+        from layercalc.evaluation.summary import summarise
+
+        return summarise(self)

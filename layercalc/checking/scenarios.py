@@ -1,0 +1,363 @@
+"""What-if scenarios: named changes to the base sheet's inputs, checked once, applied as
+numpy masks so that a scenario (or a sweep over its parameters) is one vectorised pass.
+
+Selections, in terms of each layer's own bounds (base pressures):
+    between P1 and P2   the layer lies inside [min(P1, P2), max(P1, P2)]
+    above P             the layer lies wholly above P   (p_bottom <= P)
+    below P             the layer lies wholly below P   (p_top >= P)
+    where CONDITION     the condition holds for the layer (row by row)
+Temperatures added with `add` are differences: `add 3 degC to T` equals `add 3 K to T`.
+"""
+
+from __future__ import annotations
+
+import difflib
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from layercalc.language import units as U
+from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError, UnknownNameError
+from layercalc.language.nodes import Definition, Scenario
+from layercalc.language.typed import TExpr, TRef
+
+PRESSURE_TOLERANCE = 1e-6  # relative, when a layer bound equals a selection pressure
+FIXED_INPUTS = ("p_bottom", "p_top")
+
+
+@dataclass(frozen=True)
+class CheckedChange:
+    action: str  # add, scale, set
+    target: str
+    amount: TExpr
+    selection: str | None
+    bounds: tuple[float, ...] = ()
+    condition: TExpr | None = None
+    text: str = ""
+    span: object = None  # the change's line in the file
+
+
+@dataclass
+class CheckedScenario:
+    name: str
+    base: str | None
+    description: str
+    changes: list[CheckedChange]
+    cells: dict[str, float]  # input cell -> SI value
+    options: dict[str, str]
+    notices: list[Notice] = field(default_factory=list)
+    span: object = None  # the scenario's name in the file
+    option_spans: dict = field(default_factory=dict)
+
+
+def check_scenarios(checker, sheet, scenarios: list[Scenario]) -> dict[str, CheckedScenario]:
+    """Check every scenario block against the base sheet (names, dimensions, chains)."""
+    by_name: dict[str, Scenario] = {}
+    for sc in scenarios:
+        if sc.name in by_name or sc.name == "base":
+            raise DefinitionError(f"scenario '{sc.name}' is defined twice"
+                                  if sc.name != "base" else "'base' names the unchanged sheet",
+                                  sc.name_span)
+        by_name[sc.name] = sc
+    checked: dict[str, CheckedScenario] = {}
+    for sc in scenarios:
+        if sc.base not in (None, "base") and sc.base not in by_name:
+            close = difflib.get_close_matches(sc.base, [*by_name, "base"], n=2)
+            raise UnknownNameError(f"scenario '{sc.name}' builds on unknown scenario "
+                                   f"'{sc.base}'", sc.base_span, close)
+        _check_chain(sc, by_name)
+        checked[sc.name] = _check_one(checker, sheet, sc)
+    for name, sc in checked.items():
+        _check_options(sheet, name, checked)
+    return checked
+
+
+def _check_options(sheet, name: str, checked: dict) -> None:
+    """A scenario that switches integrate/adjust compiles the sheet anew: do it now, so
+    that a combination that does not work is reported at the scenario's own line."""
+    options: dict[str, str] = {}
+    spans: dict = {}
+    current, line = checked[name], []
+    while current is not None:
+        line.append(current)
+        current = checked.get(current.base) if current.base else None
+    for sc in reversed(line):
+        options.update(sc.options)
+        spans.update(sc.option_spans)
+    if {**sheet.options, **options} == sheet.options:
+        return
+    sheet.scenarios = checked  # sheet_for_options reads the base document from the sheet
+    try:
+        sheet_for_options(sheet, options)
+    except LayercalcError as exc:
+        span = next(iter(spans.values()), None) or checked[name].span
+        raise DefinitionError(f"scenario '{name}': {exc.message}", span,
+                              hint=exc.hint) from None
+
+
+def _check_chain(sc: Scenario, by_name: dict[str, Scenario]) -> None:
+    seen = [sc.name]
+    current = sc
+    while current.base not in (None, "base"):
+        current = by_name[current.base]
+        if current.name in seen:
+            raise DefinitionError("scenarios build on each other in a circle: "
+                                  + " -> ".join([*seen, current.name]), sc.name_span)
+        seen.append(current.name)
+
+
+def _check_one(checker, sheet, sc: Scenario) -> CheckedScenario:
+    changes = [_check_change(checker, sheet, ch) for ch in sc.changes]
+    cells: dict[str, float] = {}
+    for d in sc.cells:
+        cells[d.name] = _check_cell(checker, sheet, d)
+    options: dict[str, str] = {}
+    option_spans: dict = {}
+    for opt in sc.options:
+        checker.option(opt, options, option_spans)
+    notices = [n for ch in changes if (n := _empty_selection(sheet, ch, sc)) is not None]
+    return CheckedScenario(sc.name, None if sc.base in (None, "base") else sc.base,
+                           sc.description, changes, cells, options, notices, sc.name_span,
+                           option_spans)
+
+
+def _check_change(checker, sheet, ch) -> CheckedChange:
+    if ch.target in FIXED_INPUTS:
+        raise DefinitionError(f"a scenario cannot change {ch.target}: layers keep their "
+                              "pressures", ch.target_span,
+                              hint="change T, Td, div or another input column")
+    if ch.target not in sheet.input_columns:
+        close = difflib.get_close_matches(ch.target, list(sheet.input_columns), n=3)
+        raise UnknownNameError(f"'{ch.target}' is not an input column of the layers table",
+                               ch.target_span, close,
+                               hint=None if close else "scenarios change input columns: "
+                               + ", ".join(sheet.input_columns))
+    amount = checker.expr(ch.amount, prefer_columns=True,
+                          affine_as_difference=ch.action == "add")
+    _inputs_only(amount, ch.amount.span)
+    target_dim = sheet.input_columns[ch.target].unit.dimension
+    if ch.action == "scale":
+        if not U.is_dimensionless(amount.meta.dimension):
+            raise UnitError(f"'scale {ch.target} by' needs a plain number, not "
+                            f"{U.dimension_name(amount.meta.dimension)}", ch.amount.span,
+                            hint="e.g. scale div by 1.5")
+    elif not U.same_dimension(amount.meta.dimension, target_dim):
+        verb = "add" if ch.action == "add" else "set"
+        raise UnitError(f"cannot {verb} {U.with_article(U.dimension_name(amount.meta.dimension))} "
+                        f"{'to' if verb == 'add' else 'as'} {ch.target} "
+                        f"({U.with_article(U.dimension_name(target_dim))})", ch.amount.span,
+                        found=U.dimension_name(amount.meta.dimension),
+                        expected=U.dimension_name(target_dim))
+    selection, bounds, condition = None, (), None
+    if ch.selection is not None:
+        selection = ch.selection.kind
+        if selection == "where":
+            condition = checker.expr(ch.selection.first, prefer_columns=True)
+            _inputs_only(condition, ch.selection.first.span)
+            checker.need_condition(condition, "where")
+        else:
+            parts = [p for p in (ch.selection.first, ch.selection.second) if p is not None]
+            values = []
+            for part in parts:
+                typed = checker.expr(part, prefer_columns=True)
+                if not U.same_dimension(typed.meta.dimension, U.PRESSURE):
+                    raise UnitError(f"'{selection}' needs a pressure, not "
+                                    f"{U.dimension_name(typed.meta.dimension)}", part.span,
+                                    hint="e.g. between 500 hPa and 300 hPa")
+                values.append(typed.value)
+            bounds = tuple(values)
+    text = ch.span.source.text[ch.span.start:ch.span.end].strip()
+    return CheckedChange(ch.action, ch.target, amount, selection, bounds, condition, text,
+                         ch.span)
+
+
+def _inputs_only(expr: TExpr, span) -> None:
+    stack = [expr]
+    while stack:
+        node = stack.pop()
+        if isinstance(node, TRef) and node.kind in ("column", "cell"):
+            raise DefinitionError(
+                f"a scenario change can read inputs only; '{node.name}' is computed",
+                node.meta.span, hint="scenarios change inputs; results follow from them")
+        stack.extend(getattr(node, "args", ()))
+        for attr in ("operand", "left", "right"):
+            if hasattr(node, attr):
+                stack.append(getattr(node, attr))
+
+
+def _check_cell(checker, sheet, d: Definition) -> float:
+    from layercalc.checking.checker import _is_constant
+
+    if d.kind != "cell":
+        raise DefinitionError("a scenario changes input columns with add, scale or set; "
+                              "it cannot define a column", d.span)
+    if d.name not in sheet.input_cells:
+        close = difflib.get_close_matches(d.name, list(sheet.input_cells), n=3)
+        raise UnknownNameError(f"'{d.name}' is not an input cell of the sheet", d.name_span,
+                               close, hint="a scenario can set the sheet's input cells "
+                               "(" + ", ".join(sheet.input_cells) + ")")
+    if not _is_constant(d.expr):
+        raise DefinitionError("in a scenario, a cell is set to a number with a unit",
+                              d.expr.span, hint=f"e.g. cell {d.name} = 300 m")
+    cell = checker.input_cell(d)
+    if cell is None:
+        raise DefinitionError(f"cell {d.name} could not be read", d.span)
+    want = sheet.input_cells[d.name].unit.dimension
+    if not U.same_dimension(cell.unit.dimension, want):
+        raise UnitError(f"{d.name} is {U.dimension_name(want)}, not "
+                        f"{U.dimension_name(cell.unit.dimension)}", d.expr.span)
+    return cell.value
+
+
+def _empty_selection(sheet, ch: CheckedChange, sc) -> Notice | None:
+    if ch.selection in (None, "where"):
+        return None
+    mask = selection_mask(sheet, ch)
+    if not mask.any():
+        return Notice(f"scenario {sc.name}: '{ch.text}' selects no layer", ch.span or sc.span)
+    return None
+
+
+def selection_mask(sheet, ch: CheckedChange) -> np.ndarray:
+    """Which layers a range selection picks, shape (L,)."""
+    pb = sheet.input_columns["p_bottom"].values
+    pt = sheet.input_columns["p_top"].values
+    tol = PRESSURE_TOLERANCE
+    if ch.selection == "between":
+        high, low = max(ch.bounds), min(ch.bounds)
+        return (pb <= high * (1 + tol)) & (pt >= low * (1 - tol))
+    if ch.selection == "above":
+        return pb <= ch.bounds[0] * (1 + tol)
+    if ch.selection == "below":
+        return pt >= ch.bounds[0] * (1 - tol)
+    return np.ones_like(pb, dtype=bool)
+
+
+# ---------------------------------------------------------------- applying scenarios
+def chain(checked_sheet, name: str) -> list[CheckedScenario]:
+    """The scenario and those it builds on, base first."""
+    if name not in checked_sheet.scenarios:
+        close = difflib.get_close_matches(name, list(checked_sheet.scenarios), n=3)
+        raise UnknownNameError(f"no scenario named '{name}'", None, close,
+                               hint=None if close else "scenarios in this sheet: "
+                               + (", ".join(checked_sheet.scenarios) or "none"))
+    out = []
+    current = checked_sheet.scenarios[name]
+    while current is not None:
+        out.append(current)
+        current = checked_sheet.scenarios.get(current.base) if current.base else None
+    return out[::-1]
+
+
+def sheet_for_options(checked_sheet, options: dict[str, str]):
+    """The base sheet compiled with other options (a scenario may switch integrate/adjust)."""
+    wanted = {**checked_sheet.options, **options}
+    if wanted == checked_sheet.options:
+        return checked_sheet
+    cache = checked_sheet.__dict__.setdefault("_option_variants", {})
+    key = tuple(sorted(wanted.items()))
+    if key not in cache:
+        from layercalc.checking.checker import _Checker
+
+        checker = _Checker(checked_sheet.document, option_overrides=wanted,
+                           with_scenarios=False)
+        cache[key] = checker.run()
+    return cache[key]
+
+
+def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
+                  cell_values: dict[str, np.ndarray] | None = None):
+    """Input arrays (SI) after applying the scenarios' changes; cells from `cell_values`
+    (arrays of shape (S,)) vary across a leading scenario axis."""
+    from layercalc.evaluation.engine import Environment
+
+    columns = {n: c.values[None, :] for n, c in checked_sheet.input_columns.items()}
+    cells = {n: np.array([[c.value]]) for n, c in checked_sheet.input_cells.items()}
+    for sc in scenarios:
+        for name, value in sc.cells.items():
+            cells[name] = np.array([[value]])
+    for name, values in (cell_values or {}).items():
+        cells[name] = np.asarray(values, dtype=float).reshape(-1, 1)
+    env = Environment(columns, cells, checked_sheet.layer_count)
+    with np.errstate(all="ignore"):
+        for sc in scenarios:
+            for ch in sc.changes:
+                if ch.condition is not None:
+                    mask = np.asarray(env.run(ch.condition), dtype=bool)
+                else:
+                    mask = selection_mask(checked_sheet, ch)[None, :]
+                amount = env.run(ch.amount)
+                current = columns[ch.target]
+                if ch.action == "add":
+                    new = current + np.where(mask, amount, 0.0)
+                elif ch.action == "scale":
+                    new = current * np.where(mask, amount, 1.0)
+                else:
+                    new = np.where(mask, amount, current)
+                columns[ch.target] = np.asarray(new, dtype=float)
+                _still_physical(checked_sheet, sc, ch, columns[ch.target])
+    return columns, cells
+
+
+def _still_physical(checked_sheet, sc: CheckedScenario, ch: CheckedChange, values) -> None:
+    """A change must not take a temperature to or below absolute zero (the table refuses
+    such values; a scenario must too), nor produce a value that is not a number."""
+    from layercalc.evaluation.engine import EvaluationError
+
+    unit = checked_sheet.input_columns[ch.target].unit
+    is_temperature = U.same_dimension(unit.dimension, U.lookup("K").dimension)
+    lowest = np.min(values)  # one reduction: NaN propagates, so this also finds NaN
+    if np.isfinite(lowest) and np.isfinite(np.max(values)) and (
+            lowest > 0.0 or not is_temperature):
+        return
+    bad = ~np.isfinite(values) | ((values <= 0.0) if is_temperature else False)
+    if not np.any(bad):
+        return
+    variant, layer = (int(i[0]) for i in np.nonzero(np.atleast_2d(bad)))
+    value = np.atleast_2d(values)[variant, layer]
+    pb = checked_sheet.input_columns["p_bottom"].values[layer] / 100
+    pt = checked_sheet.input_columns["p_top"].values[layer] / 100
+    what = (f"{U.lookup('degC').from_si(value):.1f} degC, at or below absolute zero,"
+            if np.isfinite(value)
+            else "not a number")
+    where = f" in the layer {pb:g}-{pt:g} hPa"
+    if np.atleast_2d(values).shape[0] > 1:
+        where += f", variant {variant + 1} of the sweep"
+    raise EvaluationError(f"scenario '{sc.name}': '{ch.text}' makes {ch.target} {what}{where}",
+                          ch.span, layer=layer, hint="a scenario's change must keep the "
+                          "inputs physical; check its amount (and the cells it reads)")
+
+
+def scenario_inputs(checked_sheet, name: str):
+    """(compiled sheet, column inputs, cell inputs) for one named scenario."""
+    scenarios = chain(checked_sheet, name)
+    options: dict[str, str] = {}
+    for sc in scenarios:
+        options.update(sc.options)
+    compiled = sheet_for_options(checked_sheet, options)
+    columns, cells = apply_changes(checked_sheet, scenarios)
+    return compiled, columns, cells
+
+
+def sweep_evaluation(checked_sheet, cell_values: dict[str, np.ndarray],
+                     scenario: str | None = None):
+    """Evaluate many variants in one pass: each input cell in `cell_values` takes an array of
+    SI values (all the same length S)."""
+    from layercalc.evaluation.engine import evaluate
+
+    for name in cell_values:
+        if name not in checked_sheet.input_cells:
+            close = difflib.get_close_matches(name, list(checked_sheet.input_cells), n=3)
+            raise UnknownNameError(f"'{name}' is not an input cell of this sheet", None, close,
+                                   hint=None if close else "input cells: "
+                                   + ", ".join(checked_sheet.input_cells))
+    lengths = {np.size(v) for v in cell_values.values()}
+    if len(lengths) > 1:
+        raise LayercalcError("every varied cell needs the same number of values")
+    scenarios = chain(checked_sheet, scenario) if scenario not in (None, "base") else []
+    options: dict[str, str] = {}
+    for sc in scenarios:
+        options.update(sc.options)
+    compiled = sheet_for_options(checked_sheet, options)
+    columns, cells = apply_changes(checked_sheet, scenarios, cell_values)
+    return evaluate(compiled, columns, cells)

@@ -1,0 +1,213 @@
+"""Checking the layers table: units of the header, values, pressure order, gaps and overlaps,
+plausibility. A mixin of the checker (check.py)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from layercalc.language import units as U
+from layercalc.checking.checked import InputColumn, parse_unit_string, written_unit
+from layercalc.language.defaults import INPUT_UNITS
+from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError
+from layercalc.language.nodes import Station, Table
+from layercalc.source import Span
+
+PLAUSIBLE_TEMPERATURE = (150.0, 340.0)  # K; outside: a warning (coldest/warmest observed air)
+MAX_LAYERS = 1_000_000
+
+
+def implausible_temperature(name: str, kelvin: float, where: str = "") -> str | None:
+    """The warning for a temperature outside PLAUSIBLE_TEMPERATURE (None inside it)."""
+    lo, hi = PLAUSIBLE_TEMPERATURE
+    if lo <= kelvin <= hi:
+        return None
+    celsius = U.lookup("degC").from_si
+    return (f"{name} = {celsius(kelvin):.1f} degC{where} is outside the plausible range "
+            f"{celsius(lo):.0f} to {celsius(hi):.0f} degC")
+
+
+class TableChecker:
+    # -- the layer table ----------------------------------------------------
+    def layer_table(self, tables: list[Table], stations: list[Station]) -> Table | None:
+        layer_tables = [t for t in tables if t.kind == "layers"]
+        level_tables = [t for t in tables if t.kind == "levels"]
+        if len(layer_tables) > 1:
+            self.fail(DefinitionError("a sheet has one layers table; this is a second one",
+                                      layer_tables[1].span))
+        if layer_tables:
+            if level_tables or stations:
+                other = (level_tables or stations)[0]
+                self.fail(DefinitionError(
+                    "a sheet takes its layers either from a layers table or from levels "
+                    "tables and stations, not both", other.span,
+                    hint="remove the layers table to build the layers from the soundings"))
+            return layer_tables[0]
+        if level_tables or stations:
+            from layercalc.soundings.column import layers_from_soundings
+
+            try:
+                built = layers_from_soundings(self, level_tables, stations)
+            except LayercalcError as exc:
+                self.fail(exc)
+                return None
+            self.notices.extend(built.notices)
+            self.sounding_details = built.details
+            return built
+        self.fail(DefinitionError(
+            "no layers table", Span(self.source, 0, 0),
+            hint="add a table: a line 'layers', a header such as "
+                 "'p_bottom [hPa]  p_top [hPa]  T [degC]', rows of numbers, and a line 'end'"))
+        return None
+
+    def inputs(self, table: Table) -> tuple[dict[str, InputColumn], int, bool]:
+        columns: dict[str, InputColumn] = {}
+        width = len(table.headings)
+        if not table.rows:
+            self.fail(DefinitionError("the layers table has no rows", table.span,
+                                      hint="add one row of numbers per layer"))
+            return {}, 0, False
+        if len(table.rows) > MAX_LAYERS:
+            self.fail(DefinitionError(f"more than {MAX_LAYERS} layers", table.span))
+            return {}, 0, False
+        for row, span in zip(table.rows, table.row_spans):
+            if len(row) != width:
+                self.fail(DefinitionError(
+                    f"this row has {len(row)} values but the header names {width} columns",
+                    span, hint="give one number per column, separated by spaces"))
+                return {}, 0, False
+        data = np.array(table.rows, dtype=float).reshape(len(table.rows), width)
+        for j, heading in enumerate(table.headings):
+            if heading.name in columns:
+                self.fail(DefinitionError(f"column '{heading.name}' appears twice in the header",
+                                          heading.span))
+                continue
+            try:
+                unit = self.heading_unit(heading)
+            except LayercalcError as exc:
+                self.fail(exc)
+                continue
+            values = data[:, j]
+            bad = np.flatnonzero(~np.isfinite(values))
+            if bad.size:
+                i = int(bad[0])
+                what = "missing ('-')" if math.isnan(values[i]) else "too large to be a number"
+                self.fail(DefinitionError(
+                    f"value in column '{heading.name}' is {what}",
+                    entry_span(table, i, j),
+                    hint="every layer needs a value here; leave the column out if unknown"))
+                continue
+            columns[heading.name] = InputColumn(heading.name, unit, unit.to_si(values),
+                                                heading.span)
+        for required in ("p_bottom", "p_top"):
+            if required not in columns and not self.problems:
+                self.fail(DefinitionError(
+                    f"the layers table has no '{required}' column", table.headings[0].span,
+                    hint="a layers table needs p_bottom and p_top (the layer's pressures)"))
+        if self.problems:
+            return columns, len(table.rows), False
+        top_first = self.order_layers(table, columns)
+        self.plausibility(table, columns)
+        return columns, len(table.rows), top_first
+
+    def heading_unit(self, heading) -> U.Unit:
+        if heading.unit is not None:
+            return written_unit(heading.unit)
+        if heading.name in INPUT_UNITS:
+            text = INPUT_UNITS[heading.name]
+            self.notices.append(Notice(f"column '{heading.name}' has no unit: using [{text}]",
+                                       heading.span))
+            return parse_unit_string(text)
+        return U.ONE
+
+    def order_layers(self, table: Table, columns: dict[str, InputColumn]) -> bool:
+        pb = columns["p_bottom"].values
+        pt = columns["p_top"].values
+        for name in ("p_bottom", "p_top"):
+            if not U.same_dimension(columns[name].unit.dimension, U.PRESSURE):
+                self.fail(UnitError(f"{name} must be a pressure, not "
+                                    f"{U.dimension_name(columns[name].unit.dimension)}",
+                                    columns[name].span, hint="write it as e.g. [hPa]"))
+                return False
+        j_pb = [h.name for h in table.headings].index("p_bottom")
+        j_pt = [h.name for h in table.headings].index("p_top")
+        for i in range(len(pb)):
+            if pb[i] <= 0 or pt[i] <= 0:
+                j = j_pb if pb[i] <= 0 else j_pt
+                self.fail(DefinitionError("pressures must be above zero",
+                                          entry_span(table, i, j)))
+                return False
+            if pt[i] >= pb[i]:
+                self.fail(DefinitionError(
+                    "p_top must be lower than p_bottom (pressure falls upward)",
+                    table.row_spans[i], hint="swap the two pressures of this layer"))
+                return False
+        top_first = len(pb) > 1 and pb[0] < pb[-1]
+        order = np.argsort(-pb, kind="stable")
+        if np.any(np.diff(pb[order]) == 0):
+            i = int(order[np.flatnonzero(np.diff(pb[order]) == 0)[0] + 1])
+            self.fail(DefinitionError("two layers start at the same pressure",
+                                      table.row_spans[i]))
+            return False
+        monotone = np.all(order == np.arange(len(pb))) or np.all(
+            order == np.arange(len(pb))[::-1])
+        if not monotone:
+            i = int(np.flatnonzero(order != np.arange(len(pb)))[0])
+            self.notices.append(Notice("layers are not in pressure order; sorted them",
+                                       table.row_spans[min(i, len(pb) - 1)]))
+        pbs, pts = pb[order], pt[order]
+        mismatch = np.abs(pts[:-1] - pbs[1:]) > 1e-9 * pbs[1:]
+        if np.any(mismatch):
+            k = int(np.flatnonzero(mismatch)[0])
+            row = int(order[k + 1])
+            word = "overlaps" if pbs[k + 1] > pts[k] else "leaves a gap below"
+            self.fail(DefinitionError(
+                f"this layer {word} the next one down: its p_bottom is "
+                f"{pbs[k + 1] / 100:g} hPa but the layer below ends at {pts[k] / 100:g} hPa",
+                table.row_spans[row],
+                hint="each layer's p_bottom must equal the p_top of the layer below"))
+            return top_first
+        for name, col in list(columns.items()):
+            columns[name] = InputColumn(name, col.unit, np.ascontiguousarray(col.values[order]),
+                                        col.span)
+        self.row_order = order
+        return bool(top_first)
+
+    def plausibility(self, table: Table, columns: dict[str, InputColumn]) -> None:
+        order = getattr(self, "row_order", np.arange(len(table.rows)))
+        names = [h.name for h in table.headings]
+        for name in ("T", "Td"):
+            col = columns.get(name)
+            if col is None or not U.same_dimension(col.unit.dimension, U.lookup("K").dimension):
+                continue
+            for k, value in enumerate(col.values):
+                span = entry_span(table, int(order[k]), names.index(name))
+                if value <= 0:
+                    self.fail(DefinitionError(
+                        f"{name} is below absolute zero ({value:.2f} K)", span,
+                        hint="check the unit in the header ([degC] or [K])"))
+                    return
+                warning = implausible_temperature(name, value)
+                if warning:
+                    self.notices.append(Notice(warning, span))
+        if "T" in columns and "Td" in columns:
+            over = np.flatnonzero(columns["Td"].values > columns["T"].values + 1e-9)
+            for k in over[:3]:
+                self.notices.append(Notice("dewpoint above temperature (supersaturated)",
+                                           table.row_spans[int(order[k])]))
+
+
+def entry_span(table: Table, row: int, column: int) -> Span:
+    """The span of one number in a table row (found by splitting the row's text)."""
+    span = table.row_spans[row]
+    text = span.source.text[span.start:span.end]
+    offset = 0
+    for index_, piece in enumerate(text.split()):
+        offset = text.index(piece, offset)
+        if index_ == column:
+            return Span(span.source, span.start + offset, span.start + offset + len(piece))
+        offset += len(piece)
+    return span
+
+

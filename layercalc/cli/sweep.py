@@ -1,0 +1,84 @@
+"""The `sweep` command: vary one or two input cells over a grid and tabulate the results
+(terminal, CSV, workbook, plot), all files written together or none."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+from layercalc.cli.main import PLOT_SUFFIXES, _need_suffix, _write_files, load_case
+from layercalc.errors import OutputError
+
+
+def _sweep_workbook(frame, units: dict, title: str) -> bytes:
+    """The sweep table as a workbook: title, caution, a header and a units row, values."""
+    import io
+
+    from openpyxl import Workbook
+    from openpyxl.styles import Font
+
+    from layercalc.caution import CAUTION
+
+    book = Workbook()
+    sheet = book.active
+    sheet.title = "sweep"
+    for row, text in ((1, title or "layercalc sweep"), (2, CAUTION)):
+        cell = sheet.cell(row=row, column=1, value=text)
+        cell.data_type = "s"  # text as text, never a formula
+    sheet.cell(row=1, column=1).font = Font(bold=True)
+    for column, name in enumerate(frame.columns, start=1):
+        sheet.cell(row=4, column=column, value=str(name)).font = Font(bold=True)
+        sheet.cell(row=5, column=column, value=units.get(name, "")).data_type = "s"
+        for row, value in enumerate(frame[name].tolist(), start=6):
+            sheet.cell(row=row, column=column, value=float(value))
+    sheet.freeze_panes = "A6"
+    buffer = io.BytesIO()
+    book.save(buffer)
+    return buffer.getvalue()
+
+
+def sweep_command(args) -> int:
+    from layercalc.report.text import TableColumn, auto, table_lines, wrap
+    from layercalc.evaluation.sweep import parse_range, plot_sweep, run_sweep
+
+    if len(args.vary) > 2:
+        print("layercalc sweep: error: a sweep varies one or two cells (give --vary once or "
+              "twice)", file=sys.stderr)
+        return 2  # a usage error
+    if args.plot and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
+        raise OutputError(f"cannot draw to '{args.plot}': the picture must end in .png or "
+                          ".svg")
+    if args.xlsx:
+        _need_suffix(args.xlsx, (".xlsx",), "the sweep table")
+    sheet = load_case(args.case)
+    ranges = [parse_range(text, sheet) for text in args.vary]
+    frame = run_sweep(sheet, ranges, scenario=args.scenario, outputs=args.show)
+    units = frame.attrs.get("units", {})
+    files = []  # every file is made before the first one is written
+    if args.csv:
+        header = ",".join(frame.columns) + "\n" + ",".join(units.get(c, "") for c in
+                                                           frame.columns) + "\n"
+        text = header + frame.to_csv(index=False, header=False)
+        files.append((args.csv, text.encode("utf-8")))
+    if args.xlsx:
+        files.append((args.xlsx, _sweep_workbook(frame, units, sheet.title)))
+    if args.plot:
+        import tempfile
+
+        shown = [c for c in frame.columns if c not in {r.name for r in ranges}]
+        with tempfile.TemporaryDirectory() as folder:
+            drawn = Path(folder) / Path(args.plot).name
+            plot_sweep(frame, ranges, shown[0], drawn)
+            files.append((args.plot, drawn.read_bytes()))
+    _write_files(files)
+    if not args.quiet:
+        columns = [TableColumn(name, units.get(name, ""), auto(frame[name].to_numpy()))
+                   for name in frame.columns[1:]]
+        first = frame.columns[0]
+        lines = table_lines(first, units.get(first, ""), auto(frame[first].to_numpy()),
+                            columns)
+        from layercalc.caution import CAUTION
+
+        lines += ["", f"{len(frame)} points", *wrap("caution: " + CAUTION)]
+        sys.stdout.write("\n".join(lines) + "\n")
+    return 0

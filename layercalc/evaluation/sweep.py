@@ -1,0 +1,132 @@
+"""Sweeps: vary one or two input cells over ranges (a full grid) and tabulate chosen results.
+
+All grid points are evaluated in one vectorised pass (Sheet.evaluate_many): the grid becomes
+the leading scenario axis of every array.
+"""
+
+from __future__ import annotations
+
+import difflib
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from layercalc.errors import DefinitionError, UnknownNameError
+
+MAX_POINTS = 2_000_000  # grid points in one sweep
+DEFAULT_OUTPUTS = ("surface_pressure_tendency", "omega_surface", "max_ascent",
+                   "column_thickness")
+_VARY = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*=\s*([^:]+):([^:]+):([^:]+)\s*$")
+
+
+@dataclass(frozen=True)
+class Range:
+    """One varied cell: values in the cell's own unit (as written in the sheet) and in SI."""
+
+    name: str
+    values: np.ndarray
+    si_values: np.ndarray
+    unit: str
+
+
+def parse_range(text: str, sheet) -> Range:
+    """`NAME=START:STOP:STEP` (STOP included when the steps land on it), in the cell's unit."""
+    match = _VARY.match(text)
+    where = f"--vary {text!r}"
+    if not match:
+        raise DefinitionError(f"{where}: expected NAME=START:STOP:STEP, e.g. warming=0:5:0.5")
+    name, *numbers = match.groups()
+    try:
+        start, stop, step = (float(n) for n in numbers)
+    except ValueError:
+        raise DefinitionError(f"{where}: START, STOP and STEP must be numbers") from None
+    cells = sheet.checked.input_cells
+    if name not in cells:
+        close = difflib.get_close_matches(name, list(cells), n=3)
+        raise UnknownNameError(f"{where}: '{name}' is not an input cell of this sheet", None,
+                               close, hint=None if close else
+                               "input cells: " + ", ".join(cells))
+    if not np.isfinite([start, stop, step]).all():
+        raise DefinitionError(f"{where}: START, STOP and STEP must be finite numbers")
+    if step == 0 or (stop - start) / step < 0:
+        raise DefinitionError(f"{where}: STEP must be non-zero and lead from START to STOP")
+    count = int(np.floor((stop - start) / step + 1e-9)) + 1
+    if count > MAX_POINTS:
+        raise DefinitionError(f"{where}: {count} values is more than {MAX_POINTS}")
+    values = start + step * np.arange(count)
+    unit = cells[name].unit  # a degC cell varies as an absolute temperature
+    return Range(name, values, np.asarray(unit.to_si(values), dtype=float), unit.text)
+
+
+def grid(ranges: list[Range]) -> dict[str, np.ndarray]:
+    """The full grid of one or two ranges, flattened (first range varies slowest)."""
+    if not 1 <= len(ranges) <= 2:
+        raise DefinitionError("a sweep varies one or two cells")
+    if len({r.name for r in ranges}) != len(ranges):
+        raise DefinitionError(f"the cell '{ranges[0].name}' is varied twice",
+                              hint="vary two different cells, or one")
+    mesh = np.meshgrid(*[r.si_values for r in ranges], indexing="ij")
+    total = mesh[0].size
+    if total > MAX_POINTS:
+        raise DefinitionError(f"the grid has {total} points; the limit is {MAX_POINTS}")
+    return {r.name: m.ravel() for r, m in zip(ranges, mesh)}
+
+
+def run_sweep(sheet, ranges: list[Range], scenario: str | None = None,
+              outputs: list[str] | None = None):
+    """A DataFrame: one row per grid point, the varied cells and the chosen result cells,
+    each in its display unit; `attrs['units']` names them."""
+    import pandas as pd
+
+    points = grid(ranges)
+    evaluation = sheet.evaluate_many(points, scenario=scenario)
+    checked = evaluation.sheet
+    outputs = list(outputs) if outputs else [o for o in DEFAULT_OUTPUTS
+                                             if o in evaluation.cells]
+    n = next(iter(points.values())).size
+    data, units = {}, {}
+    for r in ranges:
+        unit = checked.input_cells[r.name].unit
+        data[r.name] = unit.from_si(points[r.name])
+        units[r.name] = r.unit
+    for name in outputs:
+        if name not in evaluation.cells:
+            close = difflib.get_close_matches(name, list(evaluation.cells), n=3)
+            raise UnknownNameError(f"'{name}' is not a cell of this sheet", None, close)
+        unit = checked.unit_of(name, "cell")
+        values = np.broadcast_to(evaluation.cells[name], (n, 1))[:, 0]
+        data[name] = unit.from_si(values)
+        units[name] = unit.text
+    frame = pd.DataFrame(data)
+    frame.attrs["units"] = units
+    return frame
+
+
+def plot_sweep(frame, ranges: list[Range], output: str, path) -> None:
+    """A line (one varied cell) or a shaded grid (two) of one output column."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    units = frame.attrs.get("units", {})
+    fig, ax = plt.subplots(figsize=(6.4, 4.4), dpi=100)
+    label = f"{output} [{units.get(output, '')}]"
+    if len(ranges) == 1:
+        x = ranges[0].name
+        ax.plot(frame[x], frame[output], marker="o", ms=3)
+        ax.set_xlabel(f"{x} [{units.get(x, '')}]")
+        ax.set_ylabel(label)
+        ax.axhline(0.0, color="0.6", lw=0.8)
+    else:
+        a, b = ranges
+        z = frame[output].to_numpy().reshape(a.values.size, b.values.size)
+        mesh = ax.pcolormesh(b.values, a.values, z, shading="nearest", cmap="RdBu_r")
+        fig.colorbar(mesh, ax=ax, label=label)
+        ax.set_xlabel(f"{b.name} [{b.unit}]")
+        ax.set_ylabel(f"{a.name} [{a.unit}]")
+    ax.set_title(f"Sweep: {output}")
+    fig.tight_layout()
+    fig.savefig(path)
+    plt.close(fig)

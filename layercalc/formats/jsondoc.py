@@ -1,0 +1,263 @@
+"""Results as JSON and CSV, and the unit conventions of every output (SI or the trade's).
+
+The JSON document (one per variant; values in SI, layers from the surface upward):
+
+    {"title": str, "scenario": str, "description": str, "case": str,
+     "units": {name: SI unit},
+     "layers": [{"p_bottom": .., "p_top": .., "T": .., "Tv": .., "div": .., "thickness": ..,
+                 "z_bottom": .., "z_top": .., "omega_bottom": .., "omega_top": ..,
+                 "w_bottom": .., "w_top": .., ...every other column}],
+     "summary": {"omega_surface": .., "omega_top": .., "surface_pressure_tendency": ..,
+                 "top_mismatch": .., "column_thickness": .., "column_mean_divergence": ..,
+                 "dines_ratio": .., "level_of_nondivergence": [..], ...every other cell,
+                 "standard_heights": {"500": ..}, "standard_thicknesses": {"1000-500": ..}},
+     "options": {..}, "notes": [..], "remarks": [..], "replaced_defaults": [..],
+     "notices": [{"line": int|null, "column": int|null, "message": str}], "caution": str}
+
+A documented key the sheet cannot compute (no `div` column: no omega) is present with null.
+
+A sheet built from soundings (`levels` tables or `station` blocks, soundings.py) has one
+more key, "soundings", after "summary" (sheets with a layers table have none): what the
+soundings gave, in SI, levels and layers from the surface upward, null for a missing value.
+It is the same for every scenario (scenario changes act on the layers, not the soundings).
+
+    "soundings": {
+      "thermodynamics_from": "the levels table" | "the mean over the stations",
+      "hydrostatic_tolerance": ..,                  # per layer
+      "units": {field name: SI unit},               # for every field below
+      "column_levels": {"pressure": [..], "T": [..], "Td": [..], ..., "z": [..]},
+                       # the column's values at its levels; "z" [] without heights
+      "network": null | {                           # station blocks only
+        "centroid_latitude": .., "centroid_longitude": .., "area": ..,
+        "smallest_angle": .., "collinearity": .., "smallest_separation": ..,
+        "largest_separation": ..,
+        "stations": [{"name": str, "latitude": .., "longitude": .., "x": .., "y": ..,
+                      "u": [..], "v": [..]}],      # x, y on the tangent plane about the
+                                                    # centroid; u, v east and north, per level
+        "levels": {"pressure": [..], "divergence": [..],
+                   "divergence_interpolated": [bool], "vorticity": [..],
+                   "stations_used": [int], "u_at_centroid": [..], "v_at_centroid": [..]},
+        "layer_divergence": [..]},                  # the layers' div (mean of two levels)
+      "layer_wind": null | {"p_bottom": [..], "p_top": [..], "u": [..], "v": [..]},
+                                                    # a levels table with winds only
+      "hydrostatic": [{"sounding": str, "tolerance": .., "p_bottom": [..], "p_top": [..],
+                       "observed_thickness": [..], "hypsometric_thickness": [..],
+                       "difference": [..], "flagged": [bool],
+                       "implied_virtual_temperature": [..], "messages": [str]}]}
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+from layercalc.language import units as U
+
+LAYER_KEYS = ("p_bottom", "p_top", "T", "Tv", "div", "thickness", "z_bottom", "z_top",
+              "omega_bottom", "omega_top", "w_bottom", "w_top")
+SUMMARY_KEYS = ("omega_surface", "omega_top", "surface_pressure_tendency", "top_mismatch",
+                "column_thickness", "column_mean_divergence", "dines_ratio",
+                "level_of_nondivergence")
+# Cells that are the sheet's own bookkeeping rather than results or inputs.
+HIDDEN_CELLS = ("top_boundary", "surface_boundary")
+
+# The units forecasters read, for the canonical names (columns, then cells).
+TRADE_COLUMN_UNITS = {
+    "p_bottom": "hPa", "p_top": "hPa", "p_mid": "hPa", "dp": "hPa",
+    "depth_from_bottom": "hPa", "e": "hPa",
+    "T": "degC", "Td": "degC", "Tv": "degC", "r": "g/kg", "RH": "%",
+    "thickness": "m", "z_bottom": "m", "z_top": "m",
+    "div": "1e-5 s^-1", "div_adjusted": "1e-5 s^-1",
+    "omega_bottom": "hPa/h", "omega_top": "hPa/h", "w_bottom": "cm/s", "w_top": "cm/s",
+}
+TRADE_CELL_UNITS = {
+    "omega_surface": "hPa/h", "omega_top": "hPa/h", "top_mismatch": "hPa/h",
+    "surface_pressure_tendency": "hPa/(3 h)", "column_thickness": "m",
+    "column_mean_divergence": "1e-5 s^-1", "max_ascent": "hPa/h",
+    "max_ascent_pressure": "hPa", "surface_height": "m", "surface_pressure": "hPa",
+    "dines_ratio": "1",
+}
+HEIGHT_NAMES = ("thickness", "z_bottom", "z_top", "column_thickness", "surface_height")
+
+# SI units of the "soundings" fields (column_levels other than z take their column's unit).
+SOUNDINGS_UNITS = {
+    "hydrostatic_tolerance": "m", "pressure": "Pa", "z": "m",
+    "centroid_latitude": "deg", "centroid_longitude": "deg", "area": "m^2",
+    "smallest_angle": "deg", "collinearity": "1", "smallest_separation": "m",
+    "largest_separation": "m", "latitude": "deg", "longitude": "deg", "x": "m", "y": "m",
+    "u": "m/s", "v": "m/s", "divergence": "s^-1", "vorticity": "s^-1", "stations_used": "1",
+    "u_at_centroid": "m/s", "v_at_centroid": "m/s", "layer_divergence": "s^-1",
+    "p_bottom": "Pa", "p_top": "Pa", "tolerance": "m", "observed_thickness": "m",
+    "hypsometric_thickness": "m", "difference": "m", "implied_virtual_temperature": "K",
+}
+NETWORK_KEYS = ("centroid_latitude", "centroid_longitude", "area", "smallest_angle",
+                "collinearity", "smallest_separation", "largest_separation")
+
+
+
+
+def output_unit(sheet, name: str, kind: str, system: str = "trade",
+                heights: str = "m") -> U.Unit:
+    """The unit a column or cell is shown in: SI (`system="si"`), or the trade's unit for
+    the canonical names and the sheet's own unit for everything else. `heights` ("m" or
+    "dam") applies to thicknesses and heights in trade units."""
+    from layercalc.checking.checker import parse_unit_string
+
+    declared = sheet.unit_of(name, kind)
+    if system == "si":
+        return U.si_unit(declared.dimension)
+    table = TRADE_COLUMN_UNITS if kind == "column" else TRADE_CELL_UNITS
+    text = table.get(name)
+    if text is None:
+        return declared
+    if name in HEIGHT_NAMES:
+        text = heights
+    unit = parse_unit_string(text)
+    return unit if U.same_dimension(unit.dimension, declared.dimension) else declared
+
+
+# ---------------------------------------------------------------- the JSON document
+def _number(value):
+    value = float(value)
+    return value + 0.0 if math.isfinite(value) else None  # + 0.0: no "-0.0"
+
+
+def _notice(notice) -> dict:
+    span = getattr(notice, "span", None)
+    return {"line": span.line if span is not None else None,
+            "column": span.column if span is not None else None,
+            "message": notice.message}
+
+
+def _scenario_info(sheet, name: str):
+    found = sheet.checked.scenarios.get(name) if name != "base" else None
+    return (found.description if found else ""), (list(found.notices) if found else [])
+
+
+def result_document(sheet, result) -> dict:
+    """One variant's results in the documented shape (SI units)."""
+    checked = result.sheet  # the compiled sheet this variant used (options may differ)
+    columns = result.si_columns
+    cells = result.si_cells
+    summary_extra = result.summary
+    units: dict[str, str] = {}
+    for name in [*LAYER_KEYS, *checked.column_names]:
+        if name in columns and name not in units:
+            units[name] = U.si_unit_text(checked.unit_of(name, "column").dimension)
+    layers = []
+    names = [*LAYER_KEYS, *(n for n in checked.column_names if n not in LAYER_KEYS)]
+    for i in range(checked.layer_count):
+        layers.append({n: (_number(columns[n][i]) if n in columns else None) for n in names})
+    summary: dict = {}
+    for name in SUMMARY_KEYS:
+        if name == "level_of_nondivergence":
+            levels = summary_extra.get(name)
+            summary[name] = None if levels is None else [float(p) for p in levels]
+            units[name] = "Pa"
+        else:
+            summary[name] = _number(cells[name]) if name in cells else None
+            if name in cells:
+                units.setdefault(name, U.si_unit_text(checked.unit_of(name, "cell").dimension))
+    for name in checked.cell_names:
+        if name in summary or name in HIDDEN_CELLS:
+            continue
+        summary[name] = _number(cells[name])
+        units.setdefault(name, U.si_unit_text(checked.unit_of(name, "cell").dimension))
+    for key in ("standard_heights", "standard_thicknesses"):
+        if key in summary_extra:
+            summary[key] = {k: float(v) for k, v in summary_extra[key].items()}
+            units[key] = "m"
+    description, scenario_notices = _scenario_info(sheet, result.scenario)
+    notices = [*sheet.check(), *scenario_notices]
+    document = {
+        "title": sheet.title,
+        "scenario": result.scenario,
+        "description": description,
+        "case": Path(sheet.checked.source.name).name,
+        "units": units,
+        "layers": layers,
+        "summary": summary,
+    }
+    soundings = soundings_document(sheet.checked)
+    if soundings is not None:
+        document["soundings"] = soundings
+    document.update({
+        "options": dict(checked.options),
+        "notes": sheet.notes,
+        "remarks": list(checked.remarks),
+        "replaced_defaults": list(checked.replaced_defaults),
+        "notices": [_notice(n) for n in notices],
+        "caution": _caution(),
+    })
+    return document
+
+
+def soundings_document(checked) -> dict | None:
+    """The "soundings" key of a result document (see the module docstring), from the
+    details soundings.py keeps in checked.soundings; None for a sheet with a layers table."""
+    details = checked.soundings
+    if not details:
+        return None
+    units = dict(SOUNDINGS_UNITS)
+    for name in details["column_levels"]:
+        if name in checked.column_names:
+            units[name] = U.si_unit_text(checked.unit_of(name, "column").dimension)
+    network = None
+    if details.get("stations"):
+        given = details["stations"]
+        levels = dict(given["levels"])
+        levels["u_at_centroid"] = levels.pop("u")
+        levels["v_at_centroid"] = levels.pop("v")
+        network = {**{key: given[key] for key in NETWORK_KEYS},
+                   "stations": [dict(station) for station in given["stations"]],
+                   "levels": levels, "layer_divergence": list(given["layer_divergence"])}
+    return {
+        "thermodynamics_from": details["thermodynamics_from"],
+        "hydrostatic_tolerance": details["hydrostatic_tolerance"],
+        "units": units,
+        "column_levels": dict(details["column_levels"]),
+        "network": network,
+        "layer_wind": dict(details["layer_wind"]) if details.get("layer_wind") else None,
+        "hydrostatic": [dict(table) for table in details["hydrostatic"]],
+    }
+
+
+def scenarios_document(sheet, names: list[str]) -> dict:
+    """Several variants (the base first): {"title", "caution", "scenarios": [document...]}."""
+    return {"title": sheet.title, "caution": _caution(),
+            "scenarios": [result_document(sheet, sheet.evaluate(n)) for n in names]}
+
+
+def _caution() -> str:
+    from layercalc.caution import CAUTION
+
+    return CAUTION
+
+
+def dumps(document: dict) -> str:
+    return json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False) + "\n"
+
+
+# ---------------------------------------------------------------- CSV
+def layer_table_csv(result, system: str = "trade", heights: str = "m") -> str:
+    """The layer table as CSV text: a row of names, a row of units, one row per layer from
+    the surface upward."""
+    import csv
+    import io
+
+    checked = result.sheet
+    columns = result.si_columns
+    names = [n for n in checked.column_names if n in columns]
+    units = [output_unit(checked, n, "column", system, heights) for n in names]
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(names)
+    writer.writerow([u.text for u in units])
+    converted = [u.from_si(columns[n]) for n, u in zip(names, units)]
+    for i in range(checked.layer_count):
+        writer.writerow([repr(float(values[i])) for values in converted])
+    return buffer.getvalue()
+
+
+# ---------------------------------------------------------------- writing files

@@ -1,0 +1,329 @@
+"""Checked sheet -> .xlsx workbook whose results are live spreadsheet formulas.
+
+Sheets, in order:
+    layers            inputs, header `name [unit]`, one row per layer, surface layer first
+    settings          `name | value | unit | note`: title, notes, options, input cells
+    results           every derived column and cell as a live formula (xlsx_layout.py)
+    results_<name>    one per scenario, with its own input block (changed inputs shaded)
+    compare           key cells of the base and each scenario, and their differences
+    values, values_<name>, values_compare
+                      the same layouts as plain numbers, for viewers that do not recalculate
+    formulas          user formulas and scenario blocks in the layers language (re-imported)
+    notes             title, notes, boundary condition, formulas, references, version, caution
+A scatter chart of omega and divergence against pressure (axis reversed) sits on each
+results sheet. The file is written to a temporary file beside the target, then renamed.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from layercalc.errors import OutputError
+from layercalc.language.typed import CELL, references
+from layercalc.formats.xlsx.formulas import display_input
+from layercalc.formats.xlsx.layout import HEADER_ROW, Grid, Links, ResultsLayout, Variant, letter
+from layercalc.formats.xlsx.scenarios import compare_grid, scenario_steps
+
+MAX_SHEET_NAME = 31  # Excel's limit on sheet names
+
+
+def write_workbook(sheet, path) -> None:
+    """Write `sheet` (a layercalc.Sheet) to `path` as an .xlsx workbook, atomically.
+
+    Raises OutputError (with the path) if the target cannot be written; never leaves a
+    partly written file at `path`."""
+    path = Path(path)
+    if path.is_dir():
+        raise OutputError(f"cannot write the workbook: {path} is a folder", location=str(path),
+                          hint="give a file name ending in .xlsx")
+    save_atomic(build_workbook(sheet), path)
+
+
+def variants(sheet) -> list[Variant]:
+    """The base and every scenario of `sheet`, evaluated."""
+    results = [("base", sheet.evaluate())]
+    results += [(name, sheet.evaluate(scenario=name)) for name in sheet.scenarios]
+    described = _scenario_descriptions(sheet.checked)
+    taken = {"results", "values", "compare", "values_compare", "layers", "settings",
+             "formulas", "notes"}
+    out = []
+    for name, result in results:
+        if name == "base":
+            sheet_name, values_name = "results", "values"
+        else:
+            sheet_name = _unique(f"results_{name}", taken)
+            values_name = _unique(f"values_{name}", taken)
+        steps = scenario_steps(sheet.checked, name) if name in sheet.scenarios else {}
+        out.append(Variant(name, sheet_name, values_name, result.sheet, result.evaluation,
+                           result.index, result.si_columns, result.si_cells, result.summary,
+                           described.get(name, ""), steps))
+    return out
+
+
+def build_workbook(sheet):
+    """The openpyxl Workbook for `sheet` (see the module docstring for its layout)."""
+    from openpyxl import Workbook
+
+    from layercalc.version import __version__
+    from layercalc.caution import CAUTION
+
+    checked = sheet.checked
+    found = variants(sheet)
+    base = found[0]
+    workbook = Workbook()
+    layers = workbook.active
+    layers.title = "layers"
+    letters = _layers_sheet(layers, checked, base.columns)
+    settings_rows = _settings_sheet(workbook.create_sheet("settings"), checked, base.cells)
+    links = Links(letters, 2, settings_rows,
+                  {n: base.columns[n] for n in checked.input_columns},
+                  {n: base.cells[n] for n in checked.input_cells})
+    grids = [ResultsLayout(v, links, checked.title, CAUTION).build() for v in found]
+    if len(found) > 1:
+        grids.append(compare_grid(grids[0], found, grids[:len(found)], CAUTION))
+    for grid in grids:
+        _write_grid(workbook.create_sheet(grid.name), grid, live=True)
+    for grid in grids:
+        _write_grid(workbook.create_sheet(grid.values_name), grid, live=False,
+                    note=f"Plain numbers computed by layercalc {__version__}, cell for cell "
+                         f"as on the sheet '{grid.name}', for viewers that do not "
+                         "recalculate. " + CAUTION)
+    _formulas_sheet(workbook.create_sheet("formulas"), checked, set(settings_rows))
+    from layercalc.formats.xlsx.notes import notes_sheet
+
+    notes_sheet(workbook.create_sheet("notes"), checked, found, __version__, CAUTION)
+    workbook.active = workbook.sheetnames.index("results")
+    return workbook
+
+
+# ---------------------------------------------------------------- input sheets
+def _layers_sheet(ws, checked, columns_si) -> dict[str, str]:
+    letters = {}
+    for j, (name, column) in enumerate(checked.input_columns.items(), start=1):
+        letters[name] = letter(j)
+        put_text(ws.cell(1, j), f"{name} [{column.unit.text}]")
+        style(ws.cell(1, j), "header")
+        for k, si in enumerate(columns_si[name]):
+            ws.cell(2 + k, j, display_input(column.unit, float(si)))
+    note = ws.cell(1, len(letters) + 2)
+    put_text(note, "One row per layer, SURFACE LAYER FIRST (row 2 is the lowest layer). "
+                   "Header: name [unit]. Edit the values here and the results sheets "
+                   "recalculate. The table ends at the first blank header cell.")
+    style(note, "note")
+    _size(ws, {j: max(12, len(ws.cell(1, j).value) + 2) for j in range(1, len(letters) + 1)})
+    ws.freeze_panes = "A2"
+    return letters
+
+
+def settings_cells(checked) -> list[str]:
+    """Input cells written on the settings sheet: those the defaults may read and those a
+    formula reads. The others (read by nothing) go on the formulas sheet."""
+    from layercalc.formats.xlsx.reader import KNOWN_CELLS
+
+    from layercalc.formats.xlsx.scenarios import scenario_cells
+
+    read = {name for f in checked.formulas for shape, name in references(f.expr)
+            if shape == CELL} | scenario_cells(checked)
+    return [n for n in checked.input_cells if n in KNOWN_CELLS or n in read]
+
+
+def _settings_sheet(ws, checked, cells_si) -> dict[str, int]:
+    from layercalc.language.defaults import OPTIONS
+
+    rows: list[tuple] = [("name", "value", "unit", "note")]
+    if checked.title:
+        rows.append(("title", checked.title, "", ""))
+    rows += [("note", text, "", "") for text in checked.notes]
+    for option in OPTIONS:
+        rows.append((option, checked.options[option], "",
+                     "changes the formulas: edit the .layers file and export again "
+                     "(choices: " + ", ".join(OPTIONS[option]) + ")"))
+    cell_rows = {}
+    for name in settings_cells(checked):
+        cell = checked.input_cells[name]
+        cell_rows[name] = len(rows) + 1
+        rows.append((name, display_input(cell.unit, cells_si[name]), cell.unit.text,
+                     "input cell" if cell.given else "default: not given in the file"))
+    for i, row in enumerate(rows, start=1):
+        for j, value in enumerate(row, start=1):
+            target = ws.cell(i, j)
+            if isinstance(value, str):
+                put_text(target, value)
+            else:
+                target.value = value
+            style(target, "header" if i == 1 else ("note" if j == 4 else "value"))
+    _size(ws, {1: 18, 2: 40, 3: 12, 4: 70})
+    ws.freeze_panes = "A2"
+    return cell_rows
+
+
+def _formulas_sheet(ws, checked, in_settings: set[str]) -> None:
+    rows = [(f.source_text, "user formula") for f in checked.formulas if not f.default]
+    for name, cell in checked.input_cells.items():
+        if name not in in_settings and cell.given:
+            value = display_input(cell.unit, cell.value)
+            rows.append((f"cell {name} = {value!r} [{cell.unit.text}]",
+                         "input cell read by no formula"))
+    for text in scenario_texts(checked):
+        rows += [(line, "scenario") for line in text.splitlines()]
+    put_text(ws.cell(1, 1), "definition (layers language; read back on import)")
+    put_text(ws.cell(1, 2), "what")
+    style(ws.cell(1, 1), "header")
+    style(ws.cell(1, 2), "header")
+    for i, (text, what) in enumerate(rows, start=2):
+        put_text(ws.cell(i, 1), text)
+        put_text(ws.cell(i, 2), what)
+        style(ws.cell(i, 2), "note")
+    _size(ws, {1: 90, 2: 30})
+
+
+def scenario_texts(checked) -> list[str]:
+    """Each scenario block of the source, as written."""
+    from layercalc.language.nodes import Scenario
+
+    document = checked.document
+    if document is None:
+        return []
+    return [s.span.source.text[s.span.start:s.span.end].strip()
+            for s in document.statements if isinstance(s, Scenario)]
+
+
+def _scenario_descriptions(checked) -> dict[str, str]:
+    from layercalc.language.nodes import Scenario
+
+    document = checked.document
+    if document is None:
+        return {}
+    return {s.name: s.description for s in document.statements if isinstance(s, Scenario)}
+
+
+def _unique(name: str, taken: set[str]) -> str:
+    name = name[:MAX_SHEET_NAME]
+    candidate, i = name, 2
+    while candidate.lower() in taken:
+        suffix = f"_{i}"
+        candidate = name[:MAX_SHEET_NAME - len(suffix)] + suffix
+        i += 1
+    taken.add(candidate.lower())
+    return candidate
+
+
+# ---------------------------------------------------------------- writing grids
+def _write_grid(ws, grid: Grid, live: bool, note: str | None = None) -> None:
+    from openpyxl.comments import Comment
+
+    widths: dict[int, int] = {}
+    for (row, column), entry in grid.entries.items():
+        cell = ws.cell(row, column)
+        text = note if (note and (row, column) == (3, 1)) else entry.value
+        if live and entry.formula is not None:
+            cell.value = "=" + entry.formula
+        elif isinstance(text, str):
+            put_text(cell, text)
+        else:
+            cell.value = text
+        style(cell, entry.style)
+        if entry.number_format and not isinstance(text, str):
+            cell.number_format = entry.number_format
+        if entry.comment:
+            cell.comment = Comment(entry.comment, "layercalc", width=320, height=120)
+        if row >= HEADER_ROW:
+            widths[column] = max(widths.get(column, 8), _shown_width(text, entry))
+    _size(ws, {j: min(w + 2, 48) for j, w in widths.items()})
+    ws.freeze_panes = grid.freeze
+    if live and grid.chart is not None:
+        _chart(ws, grid.chart)
+
+
+def _shown_width(value, entry) -> int:
+    if isinstance(value, str):
+        return min(len(value), 60 if entry.style == "note" else 40)
+    if isinstance(value, float) and np.isfinite(value):
+        decimals = (entry.number_format or "0.00").partition(".")[2].count("0")
+        return len(f"{value:.{decimals}f}")
+    return 10
+
+
+def _chart(ws, spec) -> None:
+    from openpyxl.chart import Reference, ScatterChart, Series
+
+    chart = ScatterChart()
+    chart.title = spec.title
+    chart.style = 13
+    chart.x_axis.title = spec.x_title
+    chart.y_axis.title = spec.y_title
+    chart.y_axis.scaling.orientation = "maxMin"  # pressure decreases upward
+    chart.y_axis.scaling.min, chart.y_axis.scaling.max = spec.y_range
+    chart.x_axis.crosses = "max"  # the omega axis at the highest pressure: the bottom
+    chart.y_axis.crosses = "min"  # the pressure axis at the left edge, not at omega = 0
+    chart.x_axis.delete = False
+    chart.y_axis.delete = False
+    for label, x_column, y_column, first, last in spec.series:
+        xs = Reference(ws, min_col=x_column, min_row=first, max_row=last)
+        ys = Reference(ws, min_col=y_column, min_row=first, max_row=last)
+        series = Series(ys, xs, title=label)
+        series.marker.symbol = "circle"
+        chart.series.append(series)
+    chart.height, chart.width = 11, 16
+    ws.add_chart(chart, spec.anchor)
+
+
+# ---------------------------------------------------------------- cells and styles
+def put_text(cell, text: str) -> None:
+    """A text cell, never a formula: text starting with = + - @ stays text."""
+    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
+
+    cell.value = ILLEGAL_CHARACTERS_RE.sub(" ", str(text))
+    cell.data_type = "s"
+    if cell.value[:1] in ("=", "+", "-", "@"):
+        cell.quotePrefix = True
+
+
+_STYLES: dict = {}
+
+
+def style(cell, name: str) -> None:
+    from openpyxl.styles import Alignment, Font, PatternFill
+
+    def fill(colour: str):
+        return PatternFill("solid", start_color=colour, end_color=colour)
+
+    if not _STYLES:
+        _STYLES.update({
+            "title": {"font": Font(bold=True, size=14)},
+            "caution": {"font": Font(italic=True, bold=True, color="9C0006")},
+            "note": {"font": Font(italic=True, color="555555")},
+            "group": {"font": Font(italic=True, bold=True, color="1F4E78")},
+            "header": {"font": Font(bold=True), "fill": fill("DDEBF7"),
+                       "alignment": Alignment(wrap_text=True, vertical="center")},
+            "input": {"fill": fill("E2EFDA")},
+            "changed": {"fill": fill("FCE4D6"), "font": Font(bold=True)},
+            "helper": {"font": Font(color="808080")},
+            "static": {"fill": fill("FFF2CC")},
+            "name": {"font": Font(bold=True)},
+        })
+    for attribute, value in _STYLES.get(name, {}).items():
+        setattr(cell, attribute, value)
+
+
+def _size(ws, widths: dict[int, float]) -> None:
+    for column, width in widths.items():
+        ws.column_dimensions[letter(column)].width = width
+
+
+# ---------------------------------------------------------------- atomic write
+def save_atomic(workbook, path: Path) -> None:
+    """Save the workbook whole into memory, then write it atomically (layercalc.files)."""
+    import io
+
+    from layercalc.files import write_atomic
+
+    buffer = io.BytesIO()
+    try:
+        workbook.save(buffer)
+    except OSError as exc:
+        raise OutputError(f"cannot write {path}: {exc.strerror or exc}",
+                          location=str(path)) from None
+    write_atomic(path, buffer.getvalue())

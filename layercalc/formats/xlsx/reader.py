@@ -1,0 +1,404 @@
+""".xlsx workbook -> `.layers` text, with every problem reported as sheet!cell.
+
+Reads layercalc's own export and hand-entered workbooks:
+- sheet `layers` (or, without one, the first sheet): the first non-blank row is the header
+  `name [unit]` (p_bottom, p_top, T, Td, div, and any other columns); the table ends at the
+  first blank header cell (notes may follow to the right); one row per layer, surface first
+  or top first; blank rows at the end are ignored. A header without a unit takes the
+  layercalc default for that name (layercalc.defaults.INPUT_UNITS) and a notice says so.
+- sheet `settings` (optional): rows `name | value | unit` (a first row `name | value | unit`
+  is a header): title, note, the options integrate and adjust, and input cells
+  (surface_height, omega_top, ...; any other name must be read by a formula).
+- sheet `formulas` (optional): one line of the layers language per row in column A (user
+  formulas and scenario blocks), parsed by layercalc's own parser, never evaluated as code.
+
+The workbook is opened read-only (data_only: a formula cell gives its saved value) and is
+never modified. The read is bounded before openpyxl sees the file (size, zip entries,
+decompressed size) and while reading (cell count).
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import re
+import zipfile
+import zlib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from layercalc.language.defaults import CELL_DEFAULTS, OPTIONS
+from layercalc.errors import LayercalcError, Notice, SpreadsheetError
+
+MAX_FILE_BYTES = 50_000_000           # the .xlsx file on disk
+MAX_UNCOMPRESSED_BYTES = 200_000_000  # sum of the zip entries' declared sizes
+MAX_ZIP_ENTRIES = 5_000
+MAX_CELLS = 500_000                   # cells read over the sheets used
+# Input cells the default formulas may read (layercalc.defaults: CELL_DEFAULTS and the
+# terrain and advection terms of the surface pressure tendency).
+KNOWN_CELLS = (*CELL_DEFAULTS, "upslope_wind", "terrain_slope", "pressure_advection",
+               "surface_pressure")
+TEXT_SETTINGS = ("title", "note")
+HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[\s*(.*?)\s*\])?\s*$")
+IDENTIFIER = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
+CFB_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"  # OLE2 compound file: encrypted or .xls
+
+
+def read_workbook(path) -> str:
+    """The `.layers` text of a workbook; raises SpreadsheetError with sheet!cell."""
+    return import_workbook(path).text
+
+
+@dataclass
+class ImportedWorkbook:
+    """The text, the checked sheet built from it, and notices placed at sheet!cell."""
+
+    text: str
+    sheet: object
+    notices: list = field(default_factory=list)
+
+
+def import_workbook(path) -> ImportedWorkbook:
+    path = Path(path)
+    _guard(path)
+    raw = _RawWorkbook.read(path)
+    builder = _TextBuilder(str(path), raw)
+    text = builder.build()
+    sheet = builder.check(text)
+    return ImportedWorkbook(text, sheet, builder.notices)
+
+
+# ---------------------------------------------------------------- guards
+def _guard(path: Path) -> None:
+    where = str(path)
+    if not path.is_file():
+        raise SpreadsheetError("no such workbook" if not path.exists() else "not a file",
+                               path=where)
+    size = path.stat().st_size
+    if size > MAX_FILE_BYTES:
+        raise SpreadsheetError(f"the file is {size} bytes; workbooks above {MAX_FILE_BYTES} "
+                               "bytes are refused", path=where)
+    with open(path, "rb") as handle:
+        start = handle.read(8)
+    if start == CFB_MAGIC:
+        raise SpreadsheetError(
+            "this is a password-protected (encrypted) workbook or an old .xls file",
+            path=where, hint="save it without a password, as .xlsx")
+    if not zipfile.is_zipfile(path):
+        raise SpreadsheetError("not an .xlsx workbook (not a zip archive)", path=where,
+                               hint="save the sheet from your spreadsheet program as .xlsx")
+    try:
+        with zipfile.ZipFile(path) as archive:
+            entries = archive.infolist()
+            if len(entries) > MAX_ZIP_ENTRIES:
+                raise SpreadsheetError(f"the archive has {len(entries)} entries, more than "
+                                       f"{MAX_ZIP_ENTRIES}", path=where)
+            total = sum(e.file_size for e in entries)
+            if total > MAX_UNCOMPRESSED_BYTES:
+                raise SpreadsheetError(
+                    f"the workbook unpacks to {total} bytes, more than the limit of "
+                    f"{MAX_UNCOMPRESSED_BYTES} (a zip bomb?)", path=where)
+            if "xl/workbook.xml" not in {e.filename for e in entries}:
+                raise SpreadsheetError("a zip archive but not an .xlsx workbook "
+                                       "(no xl/workbook.xml)", path=where,
+                                       hint="save the sheet as .xlsx (not .ods or .zip)")
+            bad = archive.testzip()  # bounded: zipfile stops at each entry's declared size
+    except (zipfile.BadZipFile, zlib.error, OSError, EOFError, ValueError,
+            NotImplementedError) as exc:
+        raise SpreadsheetError(f"corrupt workbook: {exc}", path=where) from None
+    if bad is not None:
+        raise SpreadsheetError(f"corrupt workbook: entry {bad} fails its checksum", path=where)
+
+
+# Exceptions openpyxl raises on damaged files (its own, zip, XML, and value errors).
+def _openpyxl_errors() -> tuple:
+    from xml.etree.ElementTree import ParseError
+
+    from openpyxl.utils.exceptions import InvalidFileException
+
+    return (InvalidFileException, zipfile.BadZipFile, ParseError, zlib.error, KeyError,
+            ValueError, TypeError, IndexError, OSError, EOFError)
+
+
+class _RawWorkbook:
+    """The cell values of the sheets used, read once (read-only, saved values)."""
+
+    def __init__(self, path: Path, layers: str, sheets: dict) -> None:
+        self.path = path
+        self.layers_name = layers
+        self.sheets = sheets  # name -> list of row tuples (row 1 first)
+
+    @classmethod
+    def read(cls, path: Path) -> "_RawWorkbook":
+        from openpyxl import load_workbook
+
+        try:
+            workbook = load_workbook(path, read_only=True, data_only=True)
+            try:
+                names = workbook.sheetnames
+                if not names:
+                    raise SpreadsheetError("the workbook has no sheets", path=str(path))
+                lower = {n.lower(): n for n in names}
+                layers = lower.get("layers", names[0])
+                wanted = [layers] + [lower[n] for n in ("settings", "formulas") if n in lower]
+                sheets, count = {}, 0
+                for name in wanted:
+                    ws = workbook[name]
+                    ws.reset_dimensions()  # do not trust a declared size
+                    rows = []
+                    for row in ws.iter_rows(min_row=1, values_only=True):
+                        count += len(row)
+                        if count > MAX_CELLS:
+                            raise SpreadsheetError(
+                                f"more than {MAX_CELLS} cells in the sheets read", sheet=name,
+                                path=str(path))
+                        rows.append(tuple(row))
+                    sheets[name] = rows
+            finally:
+                workbook.close()
+        except _openpyxl_errors() as exc:
+            raise SpreadsheetError(f"corrupt or unreadable workbook: {exc}",
+                                   path=str(path)) from None
+        return cls(path, layers, sheets)
+
+    def formula_at(self, sheet: str, cell: str) -> str | None:
+        """The formula text of a cell (read only when a value is missing), or None."""
+        from openpyxl import load_workbook
+
+        try:
+            workbook = load_workbook(self.path, read_only=True, data_only=False)
+            try:
+                value = workbook[sheet][cell].value
+            finally:
+                workbook.close()
+        except _openpyxl_errors():
+            return None
+        return value if isinstance(value, str) and value.startswith("=") else None
+
+
+# ---------------------------------------------------------------- cells to text
+def _blank(value) -> bool:
+    return value is None or (isinstance(value, str) and not value.strip())
+
+
+def _cell(row: int, column: int) -> str:
+    from openpyxl.utils import get_column_letter
+
+    return f"{get_column_letter(column)}{row}"
+
+
+def _quote(text: str) -> str:
+    escaped = text.replace("\\", "\\\\").replace('"', '\\"')
+    return '"' + escaped.replace("\r\n", "\\n").replace("\n", "\\n").replace("\t", "\\t") + '"'
+
+
+def _number_text(value) -> str:
+    return str(value) if isinstance(value, int) else repr(float(value))
+
+
+class _TextBuilder:
+    """Validates the raw cells and writes the `.layers` text, remembering which cell each
+    piece of text came from so that later errors point at sheet!cell."""
+
+    def __init__(self, path: str, raw: _RawWorkbook) -> None:
+        self.path = path
+        self.raw = raw
+        self.lines: list[str] = []
+        self.marks: dict[int, list[tuple[int, int, str, str]]] = {}  # line -> pieces
+        self.notices: list[Notice] = []
+
+    # -- errors and notices -----------------------------------------------------
+    def error(self, message: str, sheet: str, cell: str | None, hint: str | None = None):
+        return SpreadsheetError(message, sheet=sheet, cell=cell, path=self.path, hint=hint)
+
+    def notice(self, message: str, sheet: str, cell: str) -> None:
+        self.notices.append(Notice(message, location=f"{self.path}:{sheet}!{cell}"))
+
+    def number(self, value, sheet: str, row: int, column: int, what: str) -> float:
+        """A cell that must hold a number."""
+        cell = _cell(row, column)
+        if _blank(value):
+            formula = self.raw.formula_at(sheet, cell) if value is None else None
+            if formula:
+                raise self.error(f"{what}: the formula {formula} has no saved value", sheet,
+                                 cell, hint="open and save the workbook in a spreadsheet "
+                                            "program so it stores the result, or type the number")
+            raise self.error(f"missing value for {what}", sheet, cell,
+                             hint="every layer needs a number here; delete the column if "
+                                  "it is not known")
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            shown = str(value)[:40]
+            hint = ("it holds an error value from a formula" if shown.startswith("#") else
+                    "type a plain number (a dot for decimals, no unit in the cell)")
+            raise self.error(f"{what}: '{shown}' is not a number", sheet, cell, hint=hint)
+        if not math.isfinite(float(value)):
+            raise self.error(f"{what}: the value is not finite", sheet, cell)
+        return value
+
+    def unit(self, text: str, sheet: str, cell: str):
+        from layercalc.checking.checker import parse_unit_string
+
+        try:
+            return parse_unit_string(text, where=f"{sheet}!{cell}")
+        except LayercalcError as exc:
+            message = exc.message if f"'{text}'" in exc.message else \
+                f"{exc.message} in '{text}'"
+            raise self.error(message, sheet, cell, hint=exc.hint) from None
+
+    # -- text with places ---------------------------------------------------------
+    def add(self, pieces: list[tuple[str, str | None, str | None]]) -> None:
+        """One line from (text, sheet, cell) pieces joined by spaces."""
+        line_number = len(self.lines) + 1
+        parts, column, marks = [], 1, []
+        for text, sheet, cell in pieces:
+            if sheet is not None:
+                marks.append((column, column + len(text), sheet, cell))
+            parts.append(text)
+            column += len(text) + 1
+        self.lines.append(" ".join(parts))
+        self.marks[line_number] = marks
+
+    def place(self, span) -> tuple[str | None, str | None]:
+        if span is None or span.source.name != self.path:
+            return None, None
+        line, column = span.source.line_col(span.start)
+        marks = self.marks.get(line, [])
+        for start, end, sheet, cell in marks:
+            if start <= column < end:
+                return sheet, cell
+        return (marks[0][2], marks[0][3]) if marks else (None, None)
+
+    # -- building -------------------------------------------------------------------
+    def build(self) -> str:
+        formula_lines = self.formula_lines()
+        read_names = {m for line, _, _ in formula_lines for m in IDENTIFIER.findall(line)}
+        settings = self.settings(read_names)
+        table = self.layers()
+        self.add([(f"# Imported from {Path(self.path).name} by layercalc", None, None)])
+        for notice in self.notices:
+            where = notice.location_text.rpartition(":")[2]
+            self.add([(f"# {where}: {notice.message}", None, None)])
+        for line in settings:
+            self.add(line)
+        for line in table:
+            self.add(line)
+        for text, sheet, cell in formula_lines:
+            self.add([(text, sheet, cell)])
+        return "\n".join(self.lines) + "\n"
+
+    def check(self, text: str):
+        """Compile the text with layercalc itself; its errors and notices, placed."""
+        from layercalc.api import loads
+
+        try:
+            sheet = loads(text, name=self.path)
+        except LayercalcError as exc:
+            problems = getattr(exc, "problems", [exc])
+            first = problems[0]
+            where = self.place(first.span)
+            more = f" ({len(problems) - 1} more problems)" if len(problems) > 1 else ""
+            hint = (first.hint or "") + more
+            message = first.message if first.kind in ("error", "spreadsheet error") else \
+                f"{first.kind}: {first.message}"
+            raise self.error(message, where[0], where[1], hint=hint or None) from None
+        for scenario in (None, *sheet.scenarios):  # evaluation errors, placed too
+            try:
+                sheet.evaluate(scenario)
+            except LayercalcError as exc:
+                where = self.place(exc.span)
+                raise self.error(f"{exc.kind}: {exc.message}", where[0] or self.raw.layers_name,
+                                 where[1], hint=exc.hint) from None
+        for notice in sheet.checked.notices:
+            where = self.place(notice.span)
+            if where[0] is not None:
+                self.notice(notice.message, *where)
+            else:
+                self.notices.append(notice)
+        sheet.checked.notices = list(self.notices)
+        return sheet
+
+    def formula_lines(self) -> list[tuple[str, str, str]]:
+        rows = self.raw.sheets.get(self._named("formulas"), [])
+        name = self._named("formulas")
+        out = []
+        for r, row in enumerate(rows, start=1):
+            value = row[0] if row else None
+            if _blank(value):
+                continue
+            if not isinstance(value, str):
+                raise self.error("a formula must be text in the layers language", name,
+                                 _cell(r, 1))
+            if r == 1 and value.strip().lower().startswith("definition"):
+                continue
+            out += [(line.rstrip(), name, _cell(r, 1)) for line in value.splitlines()
+                    if line.strip()]
+        return out
+
+    def _named(self, wanted: str) -> str | None:
+        return next((n for n in self.raw.sheets if n.lower() == wanted
+                     and n != self.raw.layers_name), None)
+
+    def settings(self, read_names: set[str]) -> list:
+        name = self._named("settings")
+        lines: list = []
+        if name is None:
+            return lines
+        seen: dict[str, str] = {}
+        known_cells = set(KNOWN_CELLS) | read_names
+        for r, row in enumerate(self.raw.sheets[name], start=1):
+            key, value, unit = (tuple(row) + (None, None, None))[:3]
+            if _blank(key) and _blank(value):
+                continue
+            where = _cell(r, 1)
+            if _blank(key):
+                raise self.error("a setting without a name", name, where,
+                                 hint="column A holds the name, B the value, C the unit")
+            if not isinstance(key, str):
+                raise self.error(f"a setting name must be text, not {key!r}", name, where)
+            key = key.strip()
+            if not seen and key.lower() == "name" and str(value).strip().lower() == "value":
+                seen[""] = where
+                continue
+            if key in seen and key != "note":
+                raise self.error(f"setting {key} is given twice (first at {seen[key]})",
+                                 name, where)
+            seen[key] = where
+            lines.append(self.setting(name, r, key, value, unit, known_cells))
+        return lines
+
+    def setting(self, name: str, r: int, key: str, value, unit, known_cells: set[str]):
+        value_cell = _cell(r, 2)
+        if key in TEXT_SETTINGS:
+            text = "" if value is None else str(value)
+            return [(key, None, None), (_quote(text), name, value_cell)]
+        if key in OPTIONS:
+            choice = "" if value is None else str(value).strip()
+            if choice not in OPTIONS[key]:
+                raise self.error(f"setting {key} cannot be '{choice}'", name, value_cell,
+                                 hint="choose one of: " + ", ".join(OPTIONS[key]))
+            return [("option", None, None), (key, name, _cell(r, 1)), ("=", None, None),
+                    (choice, name, value_cell)]
+        if key not in known_cells or not IDENTIFIER.fullmatch(key):
+            choices = [*TEXT_SETTINGS, *OPTIONS, *sorted(known_cells)]
+            close = difflib.get_close_matches(key, choices, n=2)
+            hint = ("did you mean " + " or ".join(f"'{c}'" for c in close) + "?") if close \
+                else "settings are: " + ", ".join(choices)
+            raise self.error(f"unknown setting '{key}'", name, _cell(r, 1),
+                             hint=hint + " (a value of your own must be read by a formula on "
+                                         "the formulas sheet)")
+        number = self.number(value, name, r, 2, f"setting {key}")
+        unit_cell = _cell(r, 3)
+        if _blank(unit):
+            unit_text = CELL_DEFAULTS.get(key, "0 1").split(" ", 1)[1].strip("[]")
+            self.notice(f"setting {key} has no unit: using [{unit_text}]", name, unit_cell)
+        else:
+            unit_text = str(unit).strip()
+            self.unit(unit_text, name, unit_cell)
+        return [("cell", None, None), (key, name, _cell(r, 1)), ("=", None, None),
+                (_number_text(number), name, value_cell), (f"[{unit_text}]", name, unit_cell)]
+
+    def layers(self) -> list:
+        from layercalc.formats.xlsx.table import LayerTable
+
+        return LayerTable(self, self.raw.layers_name, self.raw.sheets[self.raw.layers_name]
+                          ).lines()

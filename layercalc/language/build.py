@@ -1,0 +1,235 @@
+"""lark tree -> frozen nodes (nodes.py). Builds only; domain checks belong to check.py."""
+
+from __future__ import annotations
+
+import math
+import re
+
+from layercalc.errors import LayercalcSyntaxError
+from layercalc.language.nodes import (
+    Binary, Call, Change, Definition, Document, Heading, Literal, Name, Note, Option,
+    Scenario, Selection, Station, Table, Title, Unary, UnitName, UnitNumber, UnitOp,
+    UnitPower,
+)
+from layercalc.source import Source, Span
+
+_ENTRY = re.compile(r"[^ \t]+")
+_NUMBER = re.compile(r"[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?")
+
+MAX_DEPTH = 250  # operations nested in one formula; keeps every later (recursive) stage safe
+
+_BINARY = {"add": "+", "subtract": "-", "multiply": "*", "divide": "/", "power": "^",
+           "and_op": "and", "or_op": "or"}
+_SELECTIONS = {"select_between": "between", "select_above": "above",
+               "select_below": "below", "select_where": "where"}
+
+
+def build_document(source: Source, tree) -> Document:
+    _check_depth(source, tree)
+    builder = _Builder(source)
+    return Document(source, tuple(builder.statement(t) for t in tree.children))
+
+
+def build_unit(source: Source, tree):
+    _check_depth(source, tree)
+    return _Builder(source).unit(tree.children[0])
+
+
+def _check_depth(source: Source, tree) -> None:
+    from lark import Tree
+
+    stack = [(tree, 0)]
+    while stack:
+        node, depth = stack.pop()
+        if depth > MAX_DEPTH:
+            raise LayercalcSyntaxError(
+                f"this formula is too long or nested too deep: more than {MAX_DEPTH} "
+                "operations chained", _span_of(source, node),
+                hint="split it into several named columns or cells (a long sum of layers "
+                     "is sum(x) over a column)")
+        for child in node.children:
+            if isinstance(child, Tree):
+                stack.append((child, depth + 1))
+
+
+def _span_of(source: Source, item) -> Span:
+    from lark import Token
+
+    if isinstance(item, Token):
+        start = item.start_pos or 0
+        return Span(source, start, item.end_pos or start + len(item))
+    meta = item.meta
+    if getattr(meta, "empty", True):
+        return Span(source, 0, 0)
+    return Span(source, meta.start_pos, meta.end_pos)
+
+
+def _unquote(text: str) -> str:
+    body = text[1:-1]
+    out, i = [], 0
+    while i < len(body):
+        if body[i] == "\\" and i + 1 < len(body):
+            nxt = body[i + 1]
+            out.append({"n": "\n", "t": "\t"}.get(nxt, nxt))
+            i += 2
+        else:
+            out.append(body[i])
+            i += 1
+    return "".join(out)
+
+
+class _Builder:
+    def __init__(self, source: Source) -> None:
+        self.source = source
+
+    def span(self, item) -> Span:
+        return _span_of(self.source, item)
+
+    # ---- statements ----
+    def statement(self, tree):
+        kind = tree.data
+        c = tree.children
+        if kind == "title":
+            return Title(self.span(tree), _unquote(c[0]))
+        if kind == "note":
+            return Note(self.span(tree), _unquote(c[0]))
+        if kind == "option":
+            return Option(self.span(tree), str(c[0]), str(c[1]), self.span(c[1]))
+        if kind in ("cell", "column"):
+            return self.definition(tree)
+        if kind == "table":
+            return self.table(tree)
+        if kind == "scenario":
+            return self.scenario(tree)
+        if kind == "station":
+            return self.station(tree)
+        raise AssertionError(f"grammar rule without a builder: {kind}")  # a bug, not user input
+
+    def definition(self, tree) -> Definition:
+        c = tree.children
+        unit = self.unit(c[1]) if len(c) == 3 else None
+        return Definition(self.span(tree), str(tree.data), str(c[0]), self.span(c[0]), unit,
+                          self.expr(c[-1]))
+
+    def table(self, tree) -> Table:
+        kind_token, header, *rows = tree.children
+        headings = tuple(
+            Heading(self.span(h), str(h.children[0]),
+                    self.unit(h.children[1]) if len(h.children) > 1 else None)
+            for h in header.children)
+        values, spans = [], []
+        for row in rows:
+            token = row.children[0]
+            values.append(self.row_values(token))
+            start = token.start_pos
+            spans.append(Span(self.source, start, start + len(str(token).rstrip())))
+        return Table(self.span(tree), str(kind_token), headings, tuple(values), tuple(spans))
+
+    def row_values(self, token) -> tuple[float, ...]:
+        out = []
+        for match in _ENTRY.finditer(str(token)):
+            text = match.group()
+            if text == "-":
+                out.append(math.nan)
+                continue
+            if not _NUMBER.fullmatch(text):
+                start = token.start_pos + match.start()
+                raise LayercalcSyntaxError(
+                    f"'{text}' is not a number", Span(self.source, start, start + len(text)),
+                    hint="write numbers like 850, -12.5 or 1.2e-5, and '-' for a missing value")
+            out.append(float(text))
+        return tuple(out)
+
+    def scenario(self, tree) -> Scenario:
+        from lark import Token
+
+        c = list(tree.children)
+        name = c.pop(0)
+        base = base_span = None
+        description = ""
+        changes, cells, options = [], [], []
+        for item in c:
+            if isinstance(item, Token):  # the description string
+                description = _unquote(item)
+            elif item.data == "base":
+                base, base_span = str(item.children[0]), self.span(item.children[0])
+            elif item.data in ("cell", "column"):
+                cells.append(self.definition(item))
+            elif item.data == "option":
+                options.append(self.statement(item))
+            else:
+                changes.append(self.change(item))
+        return Scenario(self.span(tree), str(name), self.span(name), base, base_span,
+                        description, tuple(changes), tuple(cells), tuple(options))
+
+    def change(self, tree) -> Change:
+        c = tree.children
+        action = str(tree.data).removesuffix("_change")
+        if action in ("scale", "set"):
+            target, amount = c[0], c[1]
+        else:
+            amount, target = c[0], c[1]
+        selection = self.selection(c[2]) if len(c) > 2 else None
+        return Change(self.span(tree), action, str(target), self.span(target),
+                      self.expr(amount), selection)
+
+    def selection(self, tree) -> Selection:
+        kind = _SELECTIONS[tree.data]
+        parts = [self.expr(x) for x in tree.children]
+        return Selection(self.span(tree), kind, *parts)
+
+    def station(self, tree) -> Station:
+        name, lat, lon, table = tree.children
+        return Station(self.span(tree), _unquote(name), float(lat.children[0]),
+                       float(lon.children[0]), self.table(table))
+
+    # ---- expressions ----
+    def expr(self, tree):
+        from lark import Token
+
+        if isinstance(tree, Token):  # a bare NAME reduced by an inlined rule
+            return Name(self.span(tree), str(tree))
+        kind = tree.data
+        c = tree.children
+        span = self.span(tree)
+        if kind == "literal":
+            unit = self.unit(c[1]) if len(c) > 1 else None
+            return Literal(span, float(c[0]), unit)
+        if kind == "name":
+            return Name(span, str(c[0]))
+        if kind == "call":
+            return Call(span, str(c[0]), tuple(self.expr(a) for a in c[1:]), self.span(c[0]))
+        if kind in ("negate", "plus", "not_op"):
+            op = {"negate": "-", "plus": "+", "not_op": "not"}[kind]
+            return Unary(span, op, self.expr(c[0]))
+        if kind == "compare":
+            return Binary(span, str(c[1]), self.expr(c[0]), self.expr(c[2]))
+        if kind in _BINARY:
+            return Binary(span, _BINARY[kind], self.expr(c[0]), self.expr(c[1]))
+        raise AssertionError(f"expression rule without a builder: {kind}")
+
+    # ---- units ----
+    def unit(self, tree):
+        from lark import Token
+
+        if isinstance(tree, Token):  # BARE_UNIT such as hPa or s^-1
+            span = self.span(tree)
+            symbol, _, exponent = str(tree).partition("^")
+            name = UnitName(Span(span.source, span.start, span.start + len(symbol)), symbol)
+            return UnitPower(span, name, int(exponent)) if exponent else name
+        kind = tree.data
+        c = tree.children
+        span = self.span(tree)
+        if kind == "unit":
+            return self.unit(c[0])
+        if kind == "unit_name":
+            return UnitName(span, str(c[0]))
+        if kind == "unit_number":
+            return UnitNumber(span, float(c[0]))
+        if kind == "unit_multiply":
+            return UnitOp(span, "*", self.unit(c[0]), self.unit(c[1]))
+        if kind == "unit_divide":
+            return UnitOp(span, "/", self.unit(c[0]), self.unit(c[1]))
+        if kind == "unit_raise":
+            return UnitPower(span, self.unit(c[0]), int(c[1]))
+        raise AssertionError(f"unit rule without a builder: {kind}")

@@ -1,0 +1,179 @@
+"""Frozen AST nodes of the column language. Every node carries its span first."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Optional, Union
+
+from layercalc.source import Source, Span
+
+
+# ---- units as written ----
+@dataclass(frozen=True)
+class UnitName:
+    span: Span
+    symbol: str
+
+
+@dataclass(frozen=True)
+class UnitNumber:
+    span: Span
+    value: float
+
+
+@dataclass(frozen=True)
+class UnitOp:
+    span: Span
+    op: str  # "*" or "/"
+    left: "UnitNode"
+    right: "UnitNode"
+
+
+@dataclass(frozen=True)
+class UnitPower:
+    span: Span
+    base: "UnitNode"
+    exponent: int
+
+
+UnitNode = Union[UnitName, UnitNumber, UnitOp, UnitPower]
+
+
+# ---- expressions ----
+@dataclass(frozen=True)
+class Literal:
+    span: Span
+    value: float
+    unit: Optional[UnitNode] = None
+
+
+@dataclass(frozen=True)
+class Name:
+    span: Span
+    name: str
+
+
+@dataclass(frozen=True)
+class Call:
+    span: Span
+    function: str
+    args: tuple["Expr", ...]
+    name_span: Optional[Span] = None
+
+
+@dataclass(frozen=True)
+class Unary:
+    span: Span
+    op: str  # "-", "+", "not"
+    operand: "Expr"
+
+
+@dataclass(frozen=True)
+class Binary:
+    span: Span
+    op: str  # + - * / ^ < <= > >= == != and or
+    left: "Expr"
+    right: "Expr"
+
+
+Expr = Union[Literal, Name, Call, Unary, Binary]
+
+
+# ---- statements ----
+@dataclass(frozen=True)
+class Title:
+    span: Span
+    text: str
+
+
+@dataclass(frozen=True)
+class Note:
+    span: Span
+    text: str
+
+
+@dataclass(frozen=True)
+class Option:
+    span: Span
+    name: str
+    value: str
+    value_span: Span
+
+
+@dataclass(frozen=True)
+class Definition:
+    """`cell NAME [unit] = expr` or `column NAME [unit] = expr`."""
+
+    span: Span
+    kind: str  # "cell" or "column"
+    name: str
+    name_span: Span
+    unit: Optional[UnitNode]
+    expr: Expr
+
+
+@dataclass(frozen=True)
+class Heading:
+    span: Span
+    name: str
+    unit: Optional[UnitNode]
+
+
+@dataclass(frozen=True)
+class Table:
+    span: Span
+    kind: str  # "layers" or "levels"
+    headings: tuple[Heading, ...]
+    rows: tuple[tuple[float, ...], ...]  # NaN where the file says "-"
+    row_spans: tuple[Span, ...]
+
+
+@dataclass(frozen=True)
+class Selection:
+    span: Span
+    kind: str  # "between", "above", "below", "where"
+    first: Optional[Expr] = None
+    second: Optional[Expr] = None
+
+
+@dataclass(frozen=True)
+class Change:
+    """One line of a scenario: add / scale / set a column, optionally on selected layers."""
+
+    span: Span
+    action: str  # "add", "scale", "set"
+    target: str
+    target_span: Span
+    amount: Expr
+    selection: Optional[Selection] = None
+
+
+@dataclass(frozen=True)
+class Scenario:
+    span: Span
+    name: str
+    name_span: Span
+    base: Optional[str]
+    base_span: Optional[Span]
+    description: str
+    changes: tuple[Change, ...]
+    cells: tuple[Definition, ...]
+    options: tuple[Option, ...]
+
+
+@dataclass(frozen=True)
+class Station:
+    span: Span
+    name: str
+    latitude: float
+    longitude: float
+    table: Table
+
+
+Statement = Union[Title, Note, Option, Definition, Table, Scenario, Station]
+
+
+@dataclass(frozen=True)
+class Document:
+    source: Source
+    statements: tuple[Statement, ...] = field(default_factory=tuple)

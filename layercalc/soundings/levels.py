@@ -1,0 +1,302 @@
+"""One sounding's level table, read and checked: the pieces soundings.py builds layers from.
+
+A table of levels (`p` required; `T`, `Td`/`RH`/`r`, `z`, wind as `dir` and `speed` or `u`
+and `v`; any other column carried along) is read into SI arrays sorted surface first, with
+'-' as NaN. Also here: gap filling in ln p, and the hydrostatic consistency check with its
+notices placed on the row of the level the diagnosis names.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from layercalc.language import units as U
+from layercalc.checking.checker import entry_span, parse_unit_string, resolve_unit
+from layercalc.checking.tables import implausible_temperature
+from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError
+from layercalc.language.nodes import Definition, Literal, Table, Unary
+from layercalc.physics import humidity, levels as level_physics
+from layercalc.physics.winds import wind_components
+from layercalc.source import Span
+
+WIND_NAMES = ("dir", "speed", "u", "v")
+LEVEL_ONLY = ("p", "z", *WIND_NAMES)  # never layer columns; everything else becomes one
+EXPECTED_UNITS = {"p": "hPa", "T": "K", "Td": "K", "Tv": "K", "z": "m", "dir": "deg",
+                  "speed": "m/s", "u": "m/s", "v": "m/s", "RH": "1", "r": "1"}
+
+
+@dataclass
+class Sounding:
+    """One table's levels, surface first, values in SI (NaN for '-')."""
+
+    name: str                      # "the levels table" or "station 'A'"
+    table: Table
+    pressure: np.ndarray           # [Pa]
+    values: dict[str, np.ndarray]  # name -> SI values per level
+    units: dict[str, U.Unit]
+    order: np.ndarray              # table row of each sorted level
+
+    def row_span(self, level: int) -> Span:
+        return self.table.row_spans[int(self.order[level])]
+
+    def entry_span(self, name: str, level: int) -> Span:
+        column = [h.name for h in self.table.headings].index(name)
+        return entry_span(self.table, int(self.order[level]), column)
+
+    def wind(self) -> tuple[np.ndarray, np.ndarray] | None:
+        if "dir" in self.values:
+            return wind_components(np.rad2deg(self.values["dir"]), self.values["speed"])
+        if "u" in self.values:
+            return self.values["u"], self.values["v"]
+        return None
+
+
+def hpa(pressure: float) -> str:
+    return f"{pressure / 100.0:g} hPa"  # as physics.levels writes pressures in messages
+
+
+def mean_over_soundings(values) -> np.ndarray:
+    """Mean over the first axis (soundings) of what is there: NaN where none has a value."""
+    values = np.asarray(values, dtype=float)
+    count = np.isfinite(values).sum(axis=0)
+    total = np.where(np.isfinite(values), values, 0.0).sum(axis=0)
+    return np.where(count > 0, total / np.maximum(count, 1), np.nan)
+
+
+def jsonable(values) -> list:
+    """Floats (None for NaN) or booleans, for JSON."""
+    array = np.asarray(values)
+    if array.dtype == bool:
+        return [bool(x) for x in array]
+    return [None if not np.isfinite(x) else float(x) for x in array.astype(float)]
+
+
+# ---------------------------------------------------------------- reading one table
+def read_sounding(checker, table: Table, name: str) -> Sounding:
+    """One levels table, checked (shape, header, units, pressures, values) and sorted.
+
+    `name` says which table it is in messages ("the levels table", "station 'A'").
+    Units come from `checker.heading_unit` (documented defaults for canonical names).
+    """
+    headings = [h.name for h in table.headings]
+    if not table.rows:
+        raise DefinitionError(f"{name} has no rows", table.span, hint="add one row per level")
+    for j, heading in enumerate(table.headings):
+        if heading.name in headings[:j]:
+            raise DefinitionError(f"column '{heading.name}' appears twice in the header",
+                                  heading.span)
+        if heading.name in ("p_bottom", "p_top"):
+            raise DefinitionError(
+                f"a levels table has no '{heading.name}' column", heading.span,
+                hint="give one pressure per level in a column 'p'; p_bottom and p_top "
+                     "belong in a 'layers' table")
+    if "p" not in headings:
+        raise DefinitionError(f"{name} has no 'p' column", table.headings[0].span,
+                              hint="a levels table needs the pressure of each level: p [hPa]")
+    for a, b in (("dir", "speed"), ("speed", "dir"), ("u", "v"), ("v", "u")):
+        if a in headings and b not in headings:
+            raise DefinitionError(f"'{a}' is given without '{b}'",
+                                  table.headings[headings.index(a)].span,
+                                  hint="give the wind as dir and speed, or as u and v")
+    if "dir" in headings and "u" in headings:
+        raise DefinitionError("the wind is given twice (dir/speed and u/v)",
+                              table.headings[headings.index("u")].span,
+                              hint="keep one of the two forms")
+    for row, span in zip(table.rows, table.row_spans):
+        if len(row) != len(headings):
+            raise DefinitionError(
+                f"this row has {len(row)} value{'s' if len(row) != 1 else ''} but the "
+                f"header names {len(headings)} columns",
+                span, hint="give one number (or '-' if missing) per column")
+    data = np.array(table.rows, dtype=float).reshape(len(table.rows), len(headings))
+    for i, j in zip(*np.nonzero(np.isinf(data))):
+        raise DefinitionError("this value is too large to be a number",
+                              entry_span(table, int(i), int(j)))
+    values, units = {}, {}
+    for j, heading in enumerate(table.headings):
+        unit = checker.heading_unit(heading)
+        want = EXPECTED_UNITS.get(heading.name)
+        if want and not U.same_dimension(unit.dimension, parse_unit_string(want).dimension):
+            expected = U.dimension_name(parse_unit_string(want).dimension)
+            raise UnitError(f"'{heading.name}' must be {U.with_article(expected)}, not "
+                            f"{U.with_article(U.dimension_name(unit.dimension))}", heading.span,
+                            found=U.dimension_name(unit.dimension), expected=expected,
+                            hint=f"write it as e.g. {heading.name} [{want}]")
+        values[heading.name], units[heading.name] = unit.to_si(data[:, j]), unit
+    pressure = values["p"]
+    for i, p in enumerate(pressure):
+        if not (np.isfinite(p) and p > 0):
+            raise DefinitionError(
+                "a level's pressure must be a number above zero",
+                entry_span(table, i, headings.index("p")),
+                hint="every row needs its pressure; write '-' only for other values")
+    order = np.argsort(-pressure, kind="stable")
+    sounding = Sounding(name, table, pressure[order], {k: v[order] for k, v in values.items()},
+                        units, order)
+    repeated = np.flatnonzero(np.diff(sounding.pressure) == 0.0)
+    if repeated.size:
+        raise DefinitionError(f"{name} has the level {hpa(sounding.pressure[repeated[0]])} "
+                              "twice", sounding.row_span(int(repeated[0]) + 1),
+                              hint="merge or remove the duplicate row")
+    if pressure.size < 2:
+        raise DefinitionError(f"{name} has one level; layers need at least two", table.span)
+    _plausible(sounding)
+    return sounding
+
+
+def _plausible(s: Sounding) -> None:
+    """Our error for values that cannot be: T below 0 K, negative speed, direction off 0-360."""
+    for name in ("T", "Td"):
+        for k, value in enumerate(s.values.get(name, ())):
+            if value <= 0:
+                raise DefinitionError(f"{name} is below absolute zero ({value:.2f} K)",
+                                      s.entry_span(name, k),
+                                      hint="check the unit in the header ([degC] or [K])")
+    for k, value in enumerate(s.values.get("speed", ())):
+        if value < 0:
+            raise DefinitionError("a wind speed cannot be negative", s.entry_span("speed", k))
+    for k, value in enumerate(np.rad2deg(s.values.get("dir", np.array([])))):
+        if np.isfinite(value) and not 0.0 <= value <= 360.0:
+            raise DefinitionError(
+                f"wind direction {value:g} deg is outside 0 to 360", s.entry_span("dir", k),
+                hint="the direction the wind blows from, clockwise from north")
+
+
+def level_notices(s: Sounding, notices: list[Notice]) -> None:
+    """Warnings as the checker gives for layers: T, Td outside its range, Td above T."""
+    for name in ("T", "Td"):
+        for k, value in enumerate(s.values.get(name, ())):
+            warning = np.isfinite(value) and implausible_temperature(
+                name, value, f" at {hpa(s.pressure[k])}")
+            if warning:
+                notices.append(Notice(f"{s.name}: {warning}", s.entry_span(name, k)))
+    if "T" in s.values and "Td" in s.values:
+        for k in np.flatnonzero(s.values["Td"] > s.values["T"] + 1e-9)[:3]:
+            notices.append(Notice(f"{s.name}: dewpoint above temperature at "
+                                  f"{hpa(s.pressure[k])} (supersaturated)", s.row_span(k)))
+
+
+# ---------------------------------------------------------------- gaps, means, layers
+def fill_gaps(pressure, values, name, where, span_of, notices) -> np.ndarray:
+    """Inner gaps interpolated linearly in ln p (a notice each); a gap at an end: error."""
+    missing = ~np.isfinite(values)
+    if not missing.any():
+        return values
+    for end in (0, values.size - 1):
+        if missing[end]:
+            raise DefinitionError(
+                f"{where}: {name} is missing at {hpa(pressure[end])}, the "
+                f"{'lowest' if end == 0 else 'highest'} level", span_of(end),
+                hint="give a value there, or remove that level from every table: "
+                     "values are interpolated between levels, never extrapolated")
+    s = np.log(pressure)
+    filled = values.copy()
+    filled[missing] = np.interp(-s[missing], -s[~missing], values[~missing])
+    for k in np.flatnonzero(missing):
+        below = pressure[:k][~missing[:k]][-1]
+        above = pressure[k + 1:][~missing[k + 1:]][0]
+        notices.append(Notice(
+            f"{where}: {name} at {hpa(pressure[k])} is missing: interpolated linearly in "
+            f"ln p between {hpa(below)} and {hpa(above)}", span_of(k)))
+    return filled
+
+
+# ---------------------------------------------------------------- hydrostatic check
+def cell_definition(checker, name: str) -> Definition | None:
+    """The sheet's `cell NAME = ...` statement, or None."""
+    for st in checker.document.statements:
+        if isinstance(st, Definition) and st.kind == "cell" and st.name == name:
+            return st
+    return None
+
+
+def length_cell(checker, name: str, quiet: bool = False) -> tuple[float, Span] | None:
+    """A constant length given as `cell NAME = 15 m` in the sheet: (value in m, its span).
+
+    None when the sheet has no such cell. A cell that is not a constant length raises our
+    error, or, with `quiet`, gives None (for cells the checker itself checks).
+    """
+    st = cell_definition(checker, name)
+    if st is None:
+        return None
+    expr, sign = st.expr, 1.0
+    while isinstance(expr, Unary) and expr.op in "+-":
+        expr, sign = expr.operand, (-sign if expr.op == "-" else sign)
+    try:
+        unit = resolve_unit(expr.unit) if isinstance(expr, Literal) and expr.unit else None
+    except LayercalcError:
+        if quiet:
+            return None
+        raise
+    length = unit is not None and U.same_dimension(unit.dimension,
+                                                   parse_unit_string("m").dimension)
+    if quiet and not length:
+        return None
+    if unit is None:
+        raise DefinitionError(f"{name} must be a number with a length unit", st.expr.span,
+                              hint=f"e.g. cell {name} = 15 m")
+    if not length:
+        raise UnitError(f"{name} must be a length, not "
+                        f"{U.with_article(U.dimension_name(unit.dimension))}",
+                        st.expr.span, found=U.dimension_name(unit.dimension),
+                        expected="length", hint=f"e.g. cell {name} = 15 m")
+    return sign * float(unit.to_si(expr.value)), st.expr.span
+
+
+def _level_virtual_temperature(s: Sounding) -> np.ndarray:
+    """Tv at the levels; where no humidity is given the air counts as dry (r = 0)."""
+    temperature, p = s.values["T"], s.pressure
+    if "Td" in s.values:
+        r = humidity.mixing_ratio(humidity.vapour_pressure_from_dewpoint(s.values["Td"]), p)
+    elif "RH" in s.values:
+        vapour = humidity.vapour_pressure_from_relative_humidity(s.values["RH"], temperature)
+        r = humidity.mixing_ratio(vapour, p)
+    else:
+        r = s.values.get("r", np.zeros_like(p))
+    return humidity.virtual_temperature(temperature, np.nan_to_num(r, nan=0.0))
+
+
+_PRESSURE_IN_TEXT = re.compile(r"(?:at|layer) (\S+) hPa(?: to (\S+) hPa)?")
+
+
+def _message_span(s: Sounding, message: str) -> Span:
+    """The row of the level a diagnosis names (both rows for a layer); the table if none."""
+    found = _PRESSURE_IN_TEXT.search(message)
+    texts = [f"{p / 100.0:g}" for p in s.pressure]
+    if found is None or found.group(1) not in texts:
+        return s.table.span
+    span = s.row_span(texts.index(found.group(1)))
+    if found.group(2) in texts:
+        other = s.row_span(texts.index(found.group(2)))
+        span = Span(span.source, min(span.start, other.start), max(span.end, other.end))
+    return span
+
+
+def hydrostatic_check(s: Sounding, tolerance: float, notices: list[Notice]) -> dict:
+    """Hydrostatic consistency of one sounding's reported heights; notices for the flags.
+
+    Per layer between consecutive levels (physics.levels.hydrostatic_consistency):
+    dz_obs = z_top - z_bottom against dz_hyp = Rd / g0 * Tv_mean * ln(p_bottom / p_top),
+    Tv_mean = (Tv_bottom + Tv_top) / 2 from Tv at the levels (Tv linear in ln p); a layer
+    is flagged when |dz_obs - dz_hyp| > tolerance [m]. The likely cause of each flag
+    (physics.levels.diagnose_hydrostatic_flags) becomes a notice on the row of the level
+    it names (both rows for a layer). Returns the table, in SI, for the details.
+    """
+    p_bottom, p_top, tv = level_physics.layers_from_levels(s.pressure,
+                                                           _level_virtual_temperature(s))
+    observed = np.diff(s.values["z"])
+    check = level_physics.hydrostatic_consistency(p_bottom, p_top, observed, tv, tolerance)
+    messages = level_physics.diagnose_hydrostatic_flags(p_bottom, p_top, check.difference,
+                                                        check.flagged)
+    for message in messages:
+        notices.append(Notice(f"hydrostatic check, {s.name}: {message}",
+                              _message_span(s, message)))
+    return {"sounding": s.name, "tolerance": tolerance, "p_bottom": jsonable(p_bottom),
+            "p_top": jsonable(p_top), "observed_thickness": jsonable(observed),
+            "hypsometric_thickness": jsonable(check.hypsometric_thickness),
+            "difference": jsonable(check.difference), "flagged": jsonable(check.flagged),
+            "implied_virtual_temperature": jsonable(check.implied_virtual_temperature),
+            "messages": messages}
