@@ -14,7 +14,7 @@ from layercalc.source import Source, read_source
 if TYPE_CHECKING:  # pragma: no cover
     import pandas
 
-from layercalc.caution import CAUTION  # noqa: F401  (part of the public API)
+from layercalc.caution import CAUTION  # noqa: F401  (the API names it too)
 
 
 def loads(text: str, name: str = "<string>") -> "Sheet":
@@ -106,7 +106,7 @@ class Sheet:
         if scenario in (None, "base"):
             return Result(evaluate(self.checked), 0, "base")
         from layercalc.errors import EvaluationError
-        from layercalc.checking.scenarios import scenario_inputs
+        from layercalc.evaluation.scenarios import scenario_inputs
 
         checked, columns, cells = scenario_inputs(self.checked, scenario)
         try:
@@ -119,7 +119,7 @@ class Sheet:
                       scenario: str | None = None):
         """One vectorised pass over many variants: each entry of `cell_values` is an array of
         SI values, one per variant, for an input cell. Returns the raw Evaluation."""
-        from layercalc.checking.scenarios import sweep_evaluation
+        from layercalc.evaluation.scenarios import sweep_evaluation
 
         return sweep_evaluation(self.checked, dict(cell_values), scenario)
 

@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Sequence
+from typing import Sequence
 
-if TYPE_CHECKING:
-    from layercalc.source import Span
+# errors.py sits below source.py: a span is any object with `location()` and `excerpt()`
+# (layercalc.source.Span), named in annotations as text only.
 
 
 class LayercalcError(Exception):

@@ -6,6 +6,8 @@ import bisect
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from layercalc.errors import InputError
+
 
 @dataclass(frozen=True)
 class Source:
@@ -38,7 +40,6 @@ class Source:
 
 def read_source(path: str | Path) -> Source:
     """Read a `.layers` file as UTF-8; a file that is not text is our error, not a traceback."""
-    from layercalc.errors import InputError
 
     path = Path(path)
     try:

@@ -20,9 +20,10 @@ from hypothesis import given, strategies as st
 from numpy.testing import assert_allclose
 
 from layercalc.physics import stations
+from layercalc.physics.line_integral import spherical_line_integral_divergence
 from layercalc.physics.stations import (
     EARTH_MEAN_RADIUS, linear_wind_fit, polygon_shape, rotate_wind_to_plane,
-    spherical_centroid, spherical_line_integral_divergence, station_polygon_divergence,
+    spherical_centroid, station_polygon_divergence,
     tangent_plane_coordinates,
 )
 from layercalc.physics.winds import wind_components, wind_direction_and_speed

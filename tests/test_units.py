@@ -9,7 +9,7 @@ from numpy.testing import assert_allclose
 
 import layercalc
 from layercalc.language import units as U
-from layercalc.checking.checker import parse_unit_string
+from layercalc.language.unit_text import parse_unit_string
 
 from tests.helpers import error_of, sheet
 

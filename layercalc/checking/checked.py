@@ -1,34 +1,17 @@
-"""What the checker produces: input columns and cells in SI, the checked sheet, and the
-helpers that turn written units into Unit objects."""
+"""What the checker produces: the checked sheet (input columns and cells in SI, formulas in
+order, scenarios, notices)."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-import numpy as np
 
-from layercalc.language import units as U
 from layercalc.errors import LayercalcError, Notice
-from layercalc.language.nodes import Document, UnitName, UnitNumber, UnitOp, UnitPower
-from layercalc.source import Source, Span
+from layercalc.language import units as U
+from layercalc.language.inputs import InputCell, InputColumn
+from layercalc.language.nodes import Document
 from layercalc.language.typed import CELL, COLUMN, Formula
-
-
-@dataclass(frozen=True)
-class InputColumn:
-    name: str
-    unit: U.Unit
-    values: np.ndarray  # SI, surface layer first
-    span: Span
-
-
-@dataclass(frozen=True)
-class InputCell:
-    name: str
-    unit: U.Unit
-    value: float  # SI
-    span: Span | None
-    given: bool = True
+from layercalc.source import Source
 
 
 @dataclass
@@ -49,6 +32,8 @@ class CheckedSheet:
     scenarios: dict = field(default_factory=dict)
     document: Document | None = None
     soundings: object = None  # details of layers built from levels/stations (soundings.py)
+    # the same sheet checked with other options, by sorted option items (evaluation/scenarios)
+    option_variants: dict = field(default_factory=dict, repr=False)
 
     def unit_of(self, name: str, kind: str | None = None) -> U.Unit:
         """The display unit of a column or cell (columns first when `kind` is not given)."""
@@ -73,49 +58,8 @@ class CheckedSheet:
         return [*self.input_cells, *(f.name for f in self.formulas if f.kind == CELL)]
 
 
-def _first_of(problems: list[LayercalcError]) -> LayercalcError:
+def first_with_all(problems: list[LayercalcError]) -> LayercalcError:
     """The first problem, carrying all of them in `.problems` (for `layercalc check`)."""
     first = problems[0]
     first.problems = list(problems)
     return first
-
-
-# ---------------------------------------------------------------- units as written
-def resolve_unit(node) -> U.Unit:
-    if isinstance(node, UnitName):
-        return U.lookup(node.symbol, node.span)
-    if isinstance(node, UnitNumber):
-        return U.number(node.value)
-    if isinstance(node, UnitPower):
-        return U.power(resolve_unit(node.base), node.exponent, node.span)
-    if isinstance(node, UnitOp):
-        left, right = resolve_unit(node.left), resolve_unit(node.right)
-        if node.op == "*":
-            return U.multiply(left, right, node.span)
-        return U.divide(left, right, node.span)
-    raise AssertionError(f"unit node {node!r}")
-
-
-def written_unit(node) -> U.Unit:
-    import math
-
-    from layercalc.errors import UnitError
-
-    unit = resolve_unit(node)
-    text = node.span.source.text[node.span.start:node.span.end].strip().strip("[]").strip()
-    if not (math.isfinite(unit.scale) and unit.scale > 0):
-        raise UnitError(f"the unit [{text}] has the factor {unit.scale:g}; a unit's factor "
-                        "must be a positive number", node.span,
-                        hint="write a scaled unit like [1e-5 s^-1] or [10 m]")
-    return U.Unit(unit.dimension, unit.scale, unit.offset, text or unit.text)
-
-
-def parse_unit_string(text: str, where: str = "<unit>") -> U.Unit:
-    """A unit given as text (workbook headers, command-line options)."""
-    from layercalc.language.build import build_unit
-    from layercalc.language.parser import parse_unit_text
-
-    source = Source(where, text)
-    return written_unit(build_unit(source, parse_unit_text(source)))
-
-

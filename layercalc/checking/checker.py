@@ -2,7 +2,7 @@
 and compared, SI factors recorded. No layer arithmetic happens here beyond reading the table.
 
 The work is shared by three modules: this one (statements, options, formulas and their
-order), check_table.py (the layers table) and check_expressions.py (typing expressions)."""
+order), tables.py (the layers table) and expressions.py (typing expressions)."""
 
 from __future__ import annotations
 
@@ -10,35 +10,30 @@ import difflib
 import graphlib
 import math
 
-from layercalc.language import units as U
+from layercalc.checking.checked import CheckedSheet, first_with_all
 from layercalc.checking.expressions import (
-    ExpressionChecker, _Poisoned, _constant_si, _constant_value, _is_constant,
-    _referenced_names,
+    ExpressionChecker, Poisoned, constant_si, constant_value, is_constant, referenced_names,
 )
-from layercalc.checking.tables import MAX_LAYERS, PLAUSIBLE_TEMPERATURE, TableChecker, entry_span
-from layercalc.checking.checked import (
-    CheckedSheet, InputCell, InputColumn, _first_of, parse_unit_string, resolve_unit,
-    written_unit,
-)
-
-# re-exported for importers of the older single module
-__all__ = ["CheckedSheet", "InputCell", "InputColumn", "MAX_LAYERS", "PLAUSIBLE_TEMPERATURE",
-           "check_document", "entry_span", "parse_unit_string", "resolve_unit",
-           "written_unit"]
+from layercalc.checking.tables import TableChecker
 from layercalc.constants import CONSTANTS
-from layercalc.language.defaults import (
-    CELL_DEFAULTS, CELL_DIMENSIONS, INPUT_DIMENSIONS, OPTION_DEFAULTS, OPTIONS, prelude,
-)
 from layercalc.errors import (
     CycleError, DefinitionError, LayercalcError, Notice, UnitError, UnknownNameError,
 )
-from layercalc.language.nodes import Definition, Document, Note, Option, Scenario, Station, Table, Title
-from layercalc.source import Source
+from layercalc.language import units as U
+from layercalc.language.defaults import (
+    CELL_DEFAULTS, CELL_DIMENSIONS, INPUT_DIMENSIONS, OPTION_DEFAULTS, OPTIONS, prelude,
+)
+from layercalc.language.inputs import InputCell
+from layercalc.language.nodes import (
+    Definition, Document, Note, Option, Scenario, Station, Table, Title,
+)
 from layercalc.language.typed import CELL, COLUMN, Formula, references
+from layercalc.language.unit_text import parse_unit_string, written_unit
+from layercalc.source import Source
 
 
 # ---------------------------------------------------------------- the checker
-class _Checker(TableChecker, ExpressionChecker):
+class Checker(TableChecker, ExpressionChecker):
     def __init__(self, document: Document, option_overrides: dict | None = None,
                  with_scenarios: bool = True) -> None:
         self.document = document
@@ -105,7 +100,7 @@ class _Checker(TableChecker, ExpressionChecker):
             except LayercalcError as exc:
                 self.fail(exc)
         if self.problems:
-            raise _first_of(self.problems)
+            raise first_with_all(self.problems)
         sheet.notices = self.notices
         return sheet
 
@@ -141,7 +136,7 @@ class _Checker(TableChecker, ExpressionChecker):
                     d.kind == CELL and d.name in cells):
                 self.fail(DefinitionError(f"{d.kind} '{d.name}' is defined twice", d.name_span))
                 continue
-            if d.kind == CELL and _is_constant(d.expr):
+            if d.kind == CELL and is_constant(d.expr):
                 cell = self.input_cell(d)
                 if cell is not None:
                     cells[d.name] = cell
@@ -170,7 +165,7 @@ class _Checker(TableChecker, ExpressionChecker):
             formulas_in[key] = (d, True)
         for key, d in derived.items():
             formulas_in[key] = (d, False)
-        referenced = _referenced_names(default_defs)
+        referenced = referenced_names(default_defs)
         for name, text_value in CELL_DEFAULTS.items():
             if name not in cells and name in referenced and (CELL, name) not in formulas_in:
                 unit = parse_unit_string(text_value.split(" ", 1)[1].strip("[]"))
@@ -208,15 +203,15 @@ class _Checker(TableChecker, ExpressionChecker):
 
     def input_cell(self, d: Definition) -> InputCell | None:
         try:
-            value, unit = _constant_value(d.expr)
+            value, unit = constant_value(d.expr)
             if d.unit is not None:
                 declared = written_unit(d.unit)
                 self.same(declared.dimension, unit.dimension, d.expr.span,
                           f"cell {d.name} [{declared.text}]", "its value")
                 unit = U.Unit(declared.dimension, declared.scale, declared.offset, declared.text)
-                value_si = _constant_si(d.expr)
+                value_si = constant_si(d.expr)
             else:
-                value_si = _constant_si(d.expr)
+                value_si = constant_si(d.expr)
             if not math.isfinite(value_si):
                 raise DefinitionError(f"cell {d.name} is too large to be a number", d.expr.span,
                                       hint="give a finite value")
@@ -243,7 +238,7 @@ class _Checker(TableChecker, ExpressionChecker):
         for key, (d, is_default) in formulas_in.items():
             try:
                 formula = self.compile_definition(d, is_default)
-            except _Poisoned:
+            except Poisoned:
                 failed.add(key)
                 continue
             except LayercalcError as exc:
@@ -283,7 +278,7 @@ class _Checker(TableChecker, ExpressionChecker):
             if d is None:
                 self.fail(exc)
                 continue
-            read = sorted(_referenced_names([d]) & set(user),
+            read = sorted(referenced_names([d]) & set(user),
                           key=lambda n: (n not in formulas, user[n].start))
             span = user[read[0]] if read else None
             text = d.span.source.text[d.span.start:d.span.end].strip()
@@ -312,5 +307,10 @@ class _Checker(TableChecker, ExpressionChecker):
         return Formula(d.kind, d.name, expr, unit, d.span, is_default, text)
 
 def check_document(document: Document) -> CheckedSheet:
-    return _Checker(document).run()
+    return Checker(document).run()
 
+
+def check_with_options(document: Document, options: dict[str, str]) -> CheckedSheet:
+    """The base sheet of `document` checked again with other options (a scenario may switch
+    integrate/adjust); its scenarios are not checked again."""
+    return Checker(document, option_overrides=options, with_scenarios=False).run()

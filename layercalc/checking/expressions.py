@@ -7,7 +7,7 @@ import difflib
 from fractions import Fraction
 
 from layercalc.language import units as U
-from layercalc.checking.checked import parse_unit_string, written_unit
+from layercalc.language.unit_text import parse_unit_string, written_unit
 from layercalc.constants import CONSTANTS
 from layercalc.errors import CycleError, DefinitionError, LayercalcError, UnitError, UnknownNameError
 from layercalc.language.functions import AGGREGATE, SCAN, lookup as lookup_function, names as function_names
@@ -102,7 +102,7 @@ class ExpressionChecker:
             raise
         except LayercalcError:
             del cache[key]
-            raise _Poisoned() from None
+            raise Poisoned() from None
         cache[key] = expr.meta.dimension
         return expr.meta.dimension
 
@@ -264,7 +264,7 @@ class ExpressionChecker:
 
 
 
-class _Poisoned(Exception):
+class Poisoned(Exception):
     """A formula reads another that has its own (already reported) error."""
 
 
@@ -285,26 +285,26 @@ def _named_dimension(name: str):
     raise AssertionError(name)
 
 
-def _is_constant(expr) -> bool:
+def is_constant(expr) -> bool:
     if isinstance(expr, Literal):
         return True
     if isinstance(expr, Unary) and expr.op in "-+":
-        return _is_constant(expr.operand)
+        return is_constant(expr.operand)
     return False
 
 
-def _constant_value(expr):
+def constant_value(expr):
     if isinstance(expr, Literal):
         unit = written_unit(expr.unit) if expr.unit is not None else U.ONE
         return expr.value, unit
-    value, unit = _constant_value(expr.operand)
+    value, unit = constant_value(expr.operand)
     if unit.affine and expr.op == "-":
         return -value, unit  # -5 degC is a temperature, not a negated one
     return (-value if expr.op == "-" else value), unit
 
 
-def _constant_si(expr) -> float:
-    value, unit = _constant_value(expr)
+def constant_si(expr) -> float:
+    value, unit = constant_value(expr)
     return float(unit.to_si(value))
 
 
@@ -321,7 +321,7 @@ def _constant_number(expr) -> float | None:
     return None
 
 
-def _referenced_names(definitions) -> set[str]:
+def referenced_names(definitions) -> set[str]:
     found = set()
     stack = [d.expr for d in definitions]
     while stack:

@@ -68,11 +68,11 @@ def check_scenarios(checker, sheet, scenarios: list[Scenario]) -> dict[str, Chec
         _check_chain(sc, by_name)
         checked[sc.name] = _check_one(checker, sheet, sc)
     for name, sc in checked.items():
-        _check_options(sheet, name, checked)
+        _check_options(checker, sheet, name, checked)
     return checked
 
 
-def _check_options(sheet, name: str, checked: dict) -> None:
+def _check_options(checker, sheet, name: str, checked: dict) -> None:
     """A scenario that switches integrate/adjust compiles the sheet anew: do it now, so
     that a combination that does not work is reported at the scenario's own line."""
     options: dict[str, str] = {}
@@ -84,11 +84,12 @@ def _check_options(sheet, name: str, checked: dict) -> None:
     for sc in reversed(line):
         options.update(sc.options)
         spans.update(sc.option_spans)
-    if {**sheet.options, **options} == sheet.options:
+    wanted = {**sheet.options, **options}
+    if wanted == sheet.options:
         return
-    sheet.scenarios = checked  # sheet_for_options reads the base document from the sheet
-    try:
-        sheet_for_options(sheet, options)
+    try:  # kept for evaluation (evaluation/scenarios.py sheet_for_options)
+        sheet.option_variants[tuple(sorted(wanted.items()))] = type(checker)(
+            checker.document, option_overrides=wanted, with_scenarios=False).run()
     except LayercalcError as exc:
         span = next(iter(spans.values()), None) or checked[name].span
         raise DefinitionError(f"scenario '{name}': {exc.message}", span,
@@ -186,7 +187,7 @@ def _inputs_only(expr: TExpr, span) -> None:
 
 
 def _check_cell(checker, sheet, d: Definition) -> float:
-    from layercalc.checking.checker import _is_constant
+    from layercalc.checking.expressions import is_constant
 
     if d.kind != "cell":
         raise DefinitionError("a scenario changes input columns with add, scale or set; "
@@ -196,7 +197,7 @@ def _check_cell(checker, sheet, d: Definition) -> float:
         raise UnknownNameError(f"'{d.name}' is not an input cell of the sheet", d.name_span,
                                close, hint="a scenario can set the sheet's input cells "
                                "(" + ", ".join(sheet.input_cells) + ")")
-    if not _is_constant(d.expr):
+    if not is_constant(d.expr):
         raise DefinitionError("in a scenario, a cell is set to a number with a unit",
                               d.expr.span, hint=f"e.g. cell {d.name} = 300 m")
     cell = checker.input_cell(d)
@@ -247,117 +248,3 @@ def chain(checked_sheet, name: str) -> list[CheckedScenario]:
         out.append(current)
         current = checked_sheet.scenarios.get(current.base) if current.base else None
     return out[::-1]
-
-
-def sheet_for_options(checked_sheet, options: dict[str, str]):
-    """The base sheet compiled with other options (a scenario may switch integrate/adjust)."""
-    wanted = {**checked_sheet.options, **options}
-    if wanted == checked_sheet.options:
-        return checked_sheet
-    cache = checked_sheet.__dict__.setdefault("_option_variants", {})
-    key = tuple(sorted(wanted.items()))
-    if key not in cache:
-        from layercalc.checking.checker import _Checker
-
-        checker = _Checker(checked_sheet.document, option_overrides=wanted,
-                           with_scenarios=False)
-        cache[key] = checker.run()
-    return cache[key]
-
-
-def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
-                  cell_values: dict[str, np.ndarray] | None = None):
-    """Input arrays (SI) after applying the scenarios' changes; cells from `cell_values`
-    (arrays of shape (S,)) vary across a leading scenario axis."""
-    from layercalc.evaluation.engine import Environment
-
-    columns = {n: c.values[None, :] for n, c in checked_sheet.input_columns.items()}
-    cells = {n: np.array([[c.value]]) for n, c in checked_sheet.input_cells.items()}
-    for sc in scenarios:
-        for name, value in sc.cells.items():
-            cells[name] = np.array([[value]])
-    for name, values in (cell_values or {}).items():
-        cells[name] = np.asarray(values, dtype=float).reshape(-1, 1)
-    env = Environment(columns, cells, checked_sheet.layer_count)
-    with np.errstate(all="ignore"):
-        for sc in scenarios:
-            for ch in sc.changes:
-                if ch.condition is not None:
-                    mask = np.asarray(env.run(ch.condition), dtype=bool)
-                else:
-                    mask = selection_mask(checked_sheet, ch)[None, :]
-                amount = env.run(ch.amount)
-                current = columns[ch.target]
-                if ch.action == "add":
-                    new = current + np.where(mask, amount, 0.0)
-                elif ch.action == "scale":
-                    new = current * np.where(mask, amount, 1.0)
-                else:
-                    new = np.where(mask, amount, current)
-                columns[ch.target] = np.asarray(new, dtype=float)
-                _still_physical(checked_sheet, sc, ch, columns[ch.target])
-    return columns, cells
-
-
-def _still_physical(checked_sheet, sc: CheckedScenario, ch: CheckedChange, values) -> None:
-    """A change must not take a temperature to or below absolute zero (the table refuses
-    such values; a scenario must too), nor produce a value that is not a number."""
-    from layercalc.evaluation.engine import EvaluationError
-
-    unit = checked_sheet.input_columns[ch.target].unit
-    is_temperature = U.same_dimension(unit.dimension, U.lookup("K").dimension)
-    lowest = np.min(values)  # one reduction: NaN propagates, so this also finds NaN
-    if np.isfinite(lowest) and np.isfinite(np.max(values)) and (
-            lowest > 0.0 or not is_temperature):
-        return
-    bad = ~np.isfinite(values) | ((values <= 0.0) if is_temperature else False)
-    if not np.any(bad):
-        return
-    variant, layer = (int(i[0]) for i in np.nonzero(np.atleast_2d(bad)))
-    value = np.atleast_2d(values)[variant, layer]
-    pb = checked_sheet.input_columns["p_bottom"].values[layer] / 100
-    pt = checked_sheet.input_columns["p_top"].values[layer] / 100
-    what = (f"{U.lookup('degC').from_si(value):.1f} degC, at or below absolute zero,"
-            if np.isfinite(value)
-            else "not a number")
-    where = f" in the layer {pb:g}-{pt:g} hPa"
-    if np.atleast_2d(values).shape[0] > 1:
-        where += f", variant {variant + 1} of the sweep"
-    raise EvaluationError(f"scenario '{sc.name}': '{ch.text}' makes {ch.target} {what}{where}",
-                          ch.span, layer=layer, hint="a scenario's change must keep the "
-                          "inputs physical; check its amount (and the cells it reads)")
-
-
-def scenario_inputs(checked_sheet, name: str):
-    """(compiled sheet, column inputs, cell inputs) for one named scenario."""
-    scenarios = chain(checked_sheet, name)
-    options: dict[str, str] = {}
-    for sc in scenarios:
-        options.update(sc.options)
-    compiled = sheet_for_options(checked_sheet, options)
-    columns, cells = apply_changes(checked_sheet, scenarios)
-    return compiled, columns, cells
-
-
-def sweep_evaluation(checked_sheet, cell_values: dict[str, np.ndarray],
-                     scenario: str | None = None):
-    """Evaluate many variants in one pass: each input cell in `cell_values` takes an array of
-    SI values (all the same length S)."""
-    from layercalc.evaluation.engine import evaluate
-
-    for name in cell_values:
-        if name not in checked_sheet.input_cells:
-            close = difflib.get_close_matches(name, list(checked_sheet.input_cells), n=3)
-            raise UnknownNameError(f"'{name}' is not an input cell of this sheet", None, close,
-                                   hint=None if close else "input cells: "
-                                   + ", ".join(checked_sheet.input_cells))
-    lengths = {np.size(v) for v in cell_values.values()}
-    if len(lengths) > 1:
-        raise LayercalcError("every varied cell needs the same number of values")
-    scenarios = chain(checked_sheet, scenario) if scenario not in (None, "base") else []
-    options: dict[str, str] = {}
-    for sc in scenarios:
-        options.update(sc.options)
-    compiled = sheet_for_options(checked_sheet, options)
-    columns, cells = apply_changes(checked_sheet, scenarios, cell_values)
-    return evaluate(compiled, columns, cells)

@@ -8,24 +8,14 @@ import math
 import numpy as np
 
 from layercalc.language import units as U
-from layercalc.checking.checked import InputColumn, parse_unit_string, written_unit
+from layercalc.language.inputs import InputColumn, entry_span, implausible_temperature
+from layercalc.language.unit_text import parse_unit_string, written_unit
 from layercalc.language.defaults import INPUT_UNITS
 from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError
 from layercalc.language.nodes import Station, Table
 from layercalc.source import Span
 
-PLAUSIBLE_TEMPERATURE = (150.0, 340.0)  # K; outside: a warning (coldest/warmest observed air)
 MAX_LAYERS = 1_000_000
-
-
-def implausible_temperature(name: str, kelvin: float, where: str = "") -> str | None:
-    """The warning for a temperature outside PLAUSIBLE_TEMPERATURE (None inside it)."""
-    lo, hi = PLAUSIBLE_TEMPERATURE
-    if lo <= kelvin <= hi:
-        return None
-    celsius = U.lookup("degC").from_si
-    return (f"{name} = {celsius(kelvin):.1f} degC{where} is outside the plausible range "
-            f"{celsius(lo):.0f} to {celsius(hi):.0f} degC")
 
 
 class TableChecker:
@@ -196,18 +186,3 @@ class TableChecker:
             for k in over[:3]:
                 self.notices.append(Notice("dewpoint above temperature (supersaturated)",
                                            table.row_spans[int(order[k])]))
-
-
-def entry_span(table: Table, row: int, column: int) -> Span:
-    """The span of one number in a table row (found by splitting the row's text)."""
-    span = table.row_spans[row]
-    text = span.source.text[span.start:span.end]
-    offset = 0
-    for index_, piece in enumerate(text.split()):
-        offset = text.index(piece, offset)
-        if index_ == column:
-            return Span(span.source, span.start + offset, span.start + offset + len(piece))
-        offset += len(piece)
-    return span
-
-

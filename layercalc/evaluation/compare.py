@@ -18,7 +18,7 @@ KEY_CELLS = (
 def key_results(result) -> list[tuple[str, float, str]]:
     """(quantity, value, unit) rows for one result: key cells, standard heights and
     thicknesses, and omega at each layer top."""
-    from layercalc.checking.checker import parse_unit_string
+    from layercalc.language.unit_text import parse_unit_string
 
     rows = []
     cells = result.si_cells

@@ -102,7 +102,7 @@ def output_unit(sheet, name: str, kind: str, system: str = "trade",
     """The unit a column or cell is shown in: SI (`system="si"`), or the trade's unit for
     the canonical names and the sheet's own unit for everything else. `heights` ("m" or
     "dam") applies to thicknesses and heights in trade units."""
-    from layercalc.checking.checker import parse_unit_string
+    from layercalc.language.unit_text import parse_unit_string
 
     declared = sheet.unit_of(name, kind)
     if system == "si":

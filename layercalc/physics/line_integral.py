@@ -10,7 +10,7 @@ import numpy as np
 from layercalc.constants import EARTH_MEAN_RADIUS  # GRS80 mean radius; source there
 from layercalc.errors import DefinitionError
 
-from layercalc.physics.stations import _east_north_vectors, _great_circle_angles, _unit_vectors
+from layercalc.physics.sphere import east_north_vectors, great_circle_angles, unit_vectors
 
 
 class SphericalLineIntegral(NamedTuple):
@@ -65,8 +65,8 @@ def spherical_line_integral_divergence(latitudes, longitudes, u, v, radius=EARTH
             f"{longitudes.shape}")
     u = np.asarray(u, dtype=float)
     v = np.asarray(v, dtype=float)
-    points = _unit_vectors(latitudes, longitudes)
-    east, north = _east_north_vectors(latitudes, longitudes)
+    points = unit_vectors(latitudes, longitudes)
+    east, north = east_north_vectors(latitudes, longitudes)
     wind = u[..., None] * east + v[..., None] * north          # (..., 3 vertices, 3)
     triple = float(np.dot(points[0], np.cross(points[1], points[2])))
     orientation = np.sign(triple)
@@ -75,7 +75,7 @@ def spherical_line_integral_divergence(latitudes, longitudes, u, v, radius=EARTH
     following = np.roll(points, -1, axis=0)
     pole = np.cross(points, following)
     pole = pole / np.linalg.norm(pole, axis=-1, keepdims=True)  # left of travel i -> j
-    side_length = radius * _great_circle_angles(points, following)
+    side_length = radius * great_circle_angles(points, following)
     outward = -orientation * pole
     tangent_start = orientation * np.cross(pole, points)
     tangent_end = orientation * np.cross(pole, following)

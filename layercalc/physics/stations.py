@@ -5,7 +5,7 @@ projection), each station's wind is turned from its own (east, north) axes to th
 (x, y) axes, and a linear wind field is fitted by least squares; its constant gradient
 gives divergence and relative vorticity. For three stations the fit is exact and equals
 the line-integral (Green's theorem) value over the triangle: Bellamy's (1949) triangle
-method. ``spherical_line_integral_divergence`` does the same integral on the sphere
+method. ``physics.line_integral.spherical_line_integral_divergence`` does the same integral on the sphere
 itself, to measure what the plane costs.
 
 Conventions: latitudes and longitudes in degrees (north and east positive); winds u
@@ -19,12 +19,12 @@ import numpy as np
 
 from layercalc.constants import EARTH_MEAN_RADIUS  # GRS80 mean radius; source there
 from layercalc.errors import DefinitionError
+from layercalc.physics.sphere import east_north_vectors, great_circle_angles, unit_vectors
 
 __all__ = [
     "LinearWindFit", "PolygonShape", "StationPolygonDivergence",
     "spherical_centroid", "tangent_plane_coordinates", "rotate_wind_to_plane",
     "linear_wind_fit", "polygon_shape", "shape_warnings", "station_polygon_divergence",
-    "spherical_line_integral_divergence",
 ]
 
 # Fewest stations that determine a linear wind field (3 unknowns per component) [1].
@@ -94,26 +94,6 @@ class StationPolygonDivergence(NamedTuple):
     warnings: list              # plain-English strings
 
 
-def _unit_vectors(latitude_deg, longitude_deg):
-    """Earth-centred unit vectors (..., 3) of points given in degrees."""
-    latitude = np.deg2rad(np.asarray(latitude_deg, dtype=float))
-    longitude = np.deg2rad(np.asarray(longitude_deg, dtype=float))
-    return np.stack([np.cos(latitude) * np.cos(longitude),
-                     np.cos(latitude) * np.sin(longitude),
-                     np.sin(latitude)], axis=-1)
-
-
-def _east_north_vectors(latitude_deg, longitude_deg):
-    """Local east and north unit vectors (..., 3) at points given in degrees."""
-    latitude = np.deg2rad(np.asarray(latitude_deg, dtype=float))
-    longitude = np.deg2rad(np.asarray(longitude_deg, dtype=float))
-    east = np.stack([-np.sin(longitude), np.cos(longitude), np.zeros_like(longitude)], axis=-1)
-    north = np.stack([-np.sin(latitude) * np.cos(longitude),
-                      -np.sin(latitude) * np.sin(longitude),
-                      np.cos(latitude)], axis=-1)
-    return east, north
-
-
 def spherical_centroid(latitudes, longitudes):
     """Centroid of points on the sphere: the normalised mean of their unit vectors.
 
@@ -129,7 +109,7 @@ def spherical_centroid(latitudes, longitudes):
     latitude, longitude : float
         Centroid. [deg]
     """
-    mean_vector = _unit_vectors(latitudes, longitudes).sum(axis=0)
+    mean_vector = unit_vectors(latitudes, longitudes).sum(axis=0)
     mean_vector = mean_vector / np.linalg.norm(mean_vector)
     latitude = np.rad2deg(np.arcsin(np.clip(mean_vector[2], -1.0, 1.0)))
     longitude = np.rad2deg(np.arctan2(mean_vector[1], mean_vector[0]))
@@ -190,10 +170,10 @@ def tangent_plane_coordinates(latitude_deg, longitude_deg, centre_latitude,
     x = radius * k * np.cos(phi) * np.sin(dlam)
     y = radius * k * (np.cos(phi0) * np.sin(phi) - np.sin(phi0) * np.cos(phi) * np.cos(dlam))
 
-    point = _unit_vectors(latitude_deg, longitude_deg)
-    centre = _unit_vectors(centre_latitude, centre_longitude)
-    _, north = _east_north_vectors(latitude_deg, longitude_deg)
-    east0, north0 = _east_north_vectors(centre_latitude, centre_longitude)
+    point = unit_vectors(latitude_deg, longitude_deg)
+    centre = unit_vectors(centre_latitude, centre_longitude)
+    _, north = east_north_vectors(latitude_deg, longitude_deg)
+    east0, north0 = east_north_vectors(centre_latitude, centre_longitude)
     c_dot_n = np.sum(north * centre, axis=-1)
     p_dot_c = np.sum(point * centre, axis=-1)
     transported = north - (c_dot_n / (1.0 + p_dot_c))[..., None] * (point + centre)
@@ -294,12 +274,6 @@ def linear_wind_fit(x, y, u, v):
     return LinearWindFit(*fields)
 
 
-def _great_circle_angles(unit_a, unit_b):
-    """Central angle between unit vectors, numerically safe at all separations. [rad]"""
-    return np.arctan2(np.linalg.norm(np.cross(unit_a, unit_b), axis=-1),
-                      np.sum(unit_a * unit_b, axis=-1))
-
-
 def polygon_shape(latitudes, longitudes, x, y, radius=EARTH_MEAN_RADIUS):
     """Shape diagnostics of a station network.
 
@@ -337,8 +311,8 @@ def polygon_shape(latitudes, longitudes, x, y, radius=EARTH_MEAN_RADIUS):
     centred = np.stack([x - x.mean(), y - y.mean()], axis=-1)
     singular_values = np.linalg.svd(centred, compute_uv=False)
     collinearity = float(singular_values[-1] / singular_values[0])
-    units = _unit_vectors(latitudes, longitudes)
-    distances = radius * _great_circle_angles(units[:, None, :], units[None, :, :])
+    units = unit_vectors(latitudes, longitudes)
+    distances = radius * great_circle_angles(units[:, None, :], units[None, :, :])
     pairs = np.triu_indices(x.size, k=1)
     return PolygonShape(smallest_angle, collinearity, float(distances[pairs].min()),
                         float(distances[pairs].max()), area)
@@ -445,10 +419,3 @@ def station_polygon_divergence(latitudes, longitudes, u, v, radius=EARTH_MEAN_RA
     warnings = shape_warnings(shape) + _missing_level_warnings(fit, latitudes.size)
     return StationPolygonDivergence(fit.divergence, fit.vorticity, fit, shape.area,
                                     centre_latitude, centre_longitude, shape, warnings)
-
-
-def spherical_line_integral_divergence(latitudes, longitudes, u, v, radius=EARTH_MEAN_RADIUS):
-    """The exact spherical reference for a triangle (physics/line_integral.py)."""
-    from layercalc.physics.line_integral import spherical_line_integral_divergence as exact
-
-    return exact(latitudes, longitudes, u, v, radius)

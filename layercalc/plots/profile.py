@@ -31,7 +31,7 @@ HPA_PER_HOUR = "hPa/h"
 
 
 def _units():
-    from layercalc.checking.checker import parse_unit_string
+    from layercalc.language.unit_text import parse_unit_string
 
     return {text: parse_unit_string(text) for text in
             ("hPa", "degC", "km", "1e-5 s^-1", HPA_PER_HOUR, "hPa/(3 h)")}

@@ -87,7 +87,7 @@ def _key_speed(largest_kt: float) -> int:
 def station_panel(ax, details: dict, level_hpa: float = DEFAULT_LEVEL_HPA) -> int:
     """Draw the station network and its winds at the level nearest `level_hpa` on `ax`;
     returns the index of the level drawn (surface first, as in the details)."""
-    from layercalc.checking.checker import parse_unit_string
+    from layercalc.language.unit_text import parse_unit_string
 
     knot = parse_unit_string("kt")
     km = parse_unit_string("km")

@@ -25,7 +25,7 @@ COMPARISON_DECIMALS = {"hPa/(3 h)": 2, "hPa/h": 2, "1e-5 s^-1": 3, "m": 0, "dam"
 def render_comparison(sheet, names: list[str], system: str = "trade") -> str:
     """Key results of the base and every scenario side by side, each with its change from
     the base in brackets, in tables no wider than 80 columns."""
-    from layercalc.checking.checker import parse_unit_string
+    from layercalc.language.unit_text import parse_unit_string
     from layercalc.evaluation.compare import key_results
     from layercalc.caution import CAUTION
 

@@ -32,7 +32,7 @@ INTERPOLATED_MARK = " *"
 
 
 def _unit(text: str):
-    from layercalc.checking.checker import parse_unit_string
+    from layercalc.language.unit_text import parse_unit_string
 
     return parse_unit_string(text)
 

@@ -59,7 +59,7 @@ class _Report:
 
     def quantity(self, value_si: float, trade_text: str, decimals: int) -> str:
         """A value with its unit: the trade unit given, or SI in SI mode."""
-        from layercalc.checking.checker import parse_unit_string
+        from layercalc.language.unit_text import parse_unit_string
 
         unit = parse_unit_string(trade_text)
         if self.system == "si":
@@ -247,7 +247,7 @@ class _Report:
         summary = self.result.summary
         unit_text = "m" if self.system == "si" else self.heights
         decimals = 1 if unit_text == "dam" else 0
-        from layercalc.checking.checker import parse_unit_string
+        from layercalc.language.unit_text import parse_unit_string
 
         unit = parse_unit_string(unit_text)
         for key, title in (("standard_heights", f"Heights of standard surfaces ({unit_text})"),

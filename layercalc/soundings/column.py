@@ -38,7 +38,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from layercalc.language import units as U
-from layercalc.checking.checker import InputColumn, parse_unit_string
+from layercalc.language.inputs import InputColumn
+from layercalc.language.unit_text import parse_unit_string
 from layercalc.errors import DefinitionError, Notice
 from layercalc.soundings.levels import (
     LEVEL_ONLY, WIND_NAMES, Sounding, cell_definition, fill_gaps, hpa, hydrostatic_check,
@@ -60,7 +61,7 @@ DETAIL_UNITS = {"pressure": "Pa", "p_bottom": "Pa", "p_top": "Pa", "divergence":
 
 @dataclass
 class SoundingLayers:
-    """What the checker takes from here (see check._Checker.layer_table)."""
+    """What the checker takes from here (see checking.tables.TableChecker.layer_table)."""
 
     columns: dict[str, InputColumn]
     layer_count: int

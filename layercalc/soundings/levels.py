@@ -14,8 +14,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from layercalc.language import units as U
-from layercalc.checking.checker import entry_span, parse_unit_string, resolve_unit
-from layercalc.checking.tables import implausible_temperature
+from layercalc.language.inputs import entry_span, implausible_temperature
+from layercalc.language.unit_text import parse_unit_string, resolve_unit
 from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError
 from layercalc.language.nodes import Definition, Literal, Table, Unary
 from layercalc.physics import humidity, levels as level_physics

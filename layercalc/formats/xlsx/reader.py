@@ -236,7 +236,7 @@ class _TextBuilder:
         return value
 
     def unit(self, text: str, sheet: str, cell: str):
-        from layercalc.checking.checker import parse_unit_string
+        from layercalc.language.unit_text import parse_unit_string
 
         try:
             return parse_unit_string(text, where=f"{sheet}!{cell}")

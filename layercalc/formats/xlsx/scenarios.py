@@ -12,7 +12,7 @@ from layercalc.formats.xlsx.layout import HEADER_ROW, Entry, Grid, Variant, lett
 
 def scenario_steps(checked, name: str) -> dict:
     """For each input column a scenario changes: per layer, the (action, amount, text)
-    steps applied to the base value in order, as layercalc.scenarios.apply_changes applies
+    steps applied to the base value in order, as layercalc.evaluation.scenarios.apply_changes applies
     them; `amount` is the checked expression (numbers and input cells only). None for a
     column changed under a `where` condition or by an amount that reads an input column
     (a spreadsheet cannot replay those in place: the cells are written as values)."""

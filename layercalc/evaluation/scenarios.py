@@ -1,0 +1,118 @@
+"""Scenarios applied: a scenario's changes replayed on the input arrays (SI) with a leading
+scenario axis, the sheet compiled for a scenario's options, and sweeps over input cells."""
+
+from __future__ import annotations
+
+import difflib
+
+import numpy as np
+
+from layercalc.checking.checker import check_with_options
+from layercalc.checking.scenarios import CheckedChange, CheckedScenario, chain, selection_mask
+from layercalc.errors import EvaluationError, LayercalcError, UnknownNameError
+from layercalc.evaluation.engine import Environment, evaluate
+from layercalc.language import units as U
+
+
+def sheet_for_options(checked_sheet, options: dict[str, str]):
+    """The base sheet compiled with other options (a scenario may switch integrate/adjust)."""
+    wanted = {**checked_sheet.options, **options}
+    if wanted == checked_sheet.options:
+        return checked_sheet
+    cache = checked_sheet.option_variants
+    key = tuple(sorted(wanted.items()))
+    if key not in cache:
+        cache[key] = check_with_options(checked_sheet.document, wanted)
+    return cache[key]
+
+
+def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
+                  cell_values: dict[str, np.ndarray] | None = None):
+    """Input arrays (SI) after applying the scenarios' changes; cells from `cell_values`
+    (arrays of shape (S,)) vary across a leading scenario axis."""
+    columns = {n: c.values[None, :] for n, c in checked_sheet.input_columns.items()}
+    cells = {n: np.array([[c.value]]) for n, c in checked_sheet.input_cells.items()}
+    for sc in scenarios:
+        for name, value in sc.cells.items():
+            cells[name] = np.array([[value]])
+    for name, values in (cell_values or {}).items():
+        cells[name] = np.asarray(values, dtype=float).reshape(-1, 1)
+    env = Environment(columns, cells, checked_sheet.layer_count)
+    with np.errstate(all="ignore"):
+        for sc in scenarios:
+            for ch in sc.changes:
+                if ch.condition is not None:
+                    mask = np.asarray(env.run(ch.condition), dtype=bool)
+                else:
+                    mask = selection_mask(checked_sheet, ch)[None, :]
+                amount = env.run(ch.amount)
+                current = columns[ch.target]
+                if ch.action == "add":
+                    new = current + np.where(mask, amount, 0.0)
+                elif ch.action == "scale":
+                    new = current * np.where(mask, amount, 1.0)
+                else:
+                    new = np.where(mask, amount, current)
+                columns[ch.target] = np.asarray(new, dtype=float)
+                _still_physical(checked_sheet, sc, ch, columns[ch.target])
+    return columns, cells
+
+
+def _still_physical(checked_sheet, sc: CheckedScenario, ch: CheckedChange, values) -> None:
+    """A change must not take a temperature to or below absolute zero (the table refuses
+    such values; a scenario must too), nor produce a value that is not a number."""
+    unit = checked_sheet.input_columns[ch.target].unit
+    is_temperature = U.same_dimension(unit.dimension, U.lookup("K").dimension)
+    lowest = np.min(values)  # one reduction: NaN propagates, so this also finds NaN
+    if np.isfinite(lowest) and np.isfinite(np.max(values)) and (
+            lowest > 0.0 or not is_temperature):
+        return
+    bad = ~np.isfinite(values) | ((values <= 0.0) if is_temperature else False)
+    if not np.any(bad):
+        return
+    variant, layer = (int(i[0]) for i in np.nonzero(np.atleast_2d(bad)))
+    value = np.atleast_2d(values)[variant, layer]
+    pb = checked_sheet.input_columns["p_bottom"].values[layer] / 100
+    pt = checked_sheet.input_columns["p_top"].values[layer] / 100
+    what = (f"{U.lookup('degC').from_si(value):.1f} degC, at or below absolute zero,"
+            if np.isfinite(value)
+            else "not a number")
+    where = f" in the layer {pb:g}-{pt:g} hPa"
+    if np.atleast_2d(values).shape[0] > 1:
+        where += f", variant {variant + 1} of the sweep"
+    raise EvaluationError(f"scenario '{sc.name}': '{ch.text}' makes {ch.target} {what}{where}",
+                          ch.span, layer=layer, hint="a scenario's change must keep the "
+                          "inputs physical; check its amount (and the cells it reads)")
+
+
+def scenario_inputs(checked_sheet, name: str):
+    """(compiled sheet, column inputs, cell inputs) for one named scenario."""
+    scenarios = chain(checked_sheet, name)
+    options: dict[str, str] = {}
+    for sc in scenarios:
+        options.update(sc.options)
+    compiled = sheet_for_options(checked_sheet, options)
+    columns, cells = apply_changes(checked_sheet, scenarios)
+    return compiled, columns, cells
+
+
+def sweep_evaluation(checked_sheet, cell_values: dict[str, np.ndarray],
+                     scenario: str | None = None):
+    """Evaluate many variants in one pass: each input cell in `cell_values` takes an array of
+    SI values (all the same length S)."""
+    for name in cell_values:
+        if name not in checked_sheet.input_cells:
+            close = difflib.get_close_matches(name, list(checked_sheet.input_cells), n=3)
+            raise UnknownNameError(f"'{name}' is not an input cell of this sheet", None, close,
+                                   hint=None if close else "input cells: "
+                                   + ", ".join(checked_sheet.input_cells))
+    lengths = {np.size(v) for v in cell_values.values()}
+    if len(lengths) > 1:
+        raise LayercalcError("every varied cell needs the same number of values")
+    scenarios = chain(checked_sheet, scenario) if scenario not in (None, "base") else []
+    options: dict[str, str] = {}
+    for sc in scenarios:
+        options.update(sc.options)
+    compiled = sheet_for_options(checked_sheet, options)
+    columns, cells = apply_changes(checked_sheet, scenarios, cell_values)
+    return evaluate(compiled, columns, cells)

@@ -1,0 +1,46 @@
+"""Units as written: unit nodes of the syntax tree, or unit text from a workbook header or a
+command-line option, turned into `Unit` objects (factor checked)."""
+
+from __future__ import annotations
+
+import math
+
+from layercalc.errors import UnitError
+from layercalc.language import units as U
+from layercalc.language.build import build_unit
+from layercalc.language.nodes import UnitName, UnitNumber, UnitOp, UnitPower
+from layercalc.language.parser import parse_unit_text
+from layercalc.source import Source
+
+
+def resolve_unit(node) -> U.Unit:
+    """The Unit of a unit node (name, number, power, product or quotient)."""
+    if isinstance(node, UnitName):
+        return U.lookup(node.symbol, node.span)
+    if isinstance(node, UnitNumber):
+        return U.number(node.value)
+    if isinstance(node, UnitPower):
+        return U.power(resolve_unit(node.base), node.exponent, node.span)
+    if isinstance(node, UnitOp):
+        left, right = resolve_unit(node.left), resolve_unit(node.right)
+        if node.op == "*":
+            return U.multiply(left, right, node.span)
+        return U.divide(left, right, node.span)
+    raise AssertionError(f"unit node {node!r}")
+
+
+def written_unit(node) -> U.Unit:
+    """The Unit of a bracketed unit as written, keeping its text; its factor must be positive."""
+    unit = resolve_unit(node)
+    text = node.span.source.text[node.span.start:node.span.end].strip().strip("[]").strip()
+    if not (math.isfinite(unit.scale) and unit.scale > 0):
+        raise UnitError(f"the unit [{text}] has the factor {unit.scale:g}; a unit's factor "
+                        "must be a positive number", node.span,
+                        hint="write a scaled unit like [1e-5 s^-1] or [10 m]")
+    return U.Unit(unit.dimension, unit.scale, unit.offset, text or unit.text)
+
+
+def parse_unit_string(text: str, where: str = "<unit>") -> U.Unit:
+    """A unit given as text (workbook headers, command-line options)."""
+    source = Source(where, text)
+    return written_unit(build_unit(source, parse_unit_text(source)))
