@@ -33,7 +33,7 @@ def load(path: str | Path, *, reuse_checks: bool = False) -> "Sheet":
     if path.suffix.lower() in (".xlsx", ".xlsm"):
         from layercalc.formats.xlsx.reader import import_workbook
 
-        return import_workbook(path).sheet  # problems point at sheet!cell
+        return import_workbook(path, loads).sheet  # problems point at sheet!cell
     return Sheet(_compile(read_source(path), reuse_checks=reuse_checks))
 
 

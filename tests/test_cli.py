@@ -17,7 +17,8 @@ import pytest
 from numpy.testing import assert_allclose
 
 import layercalc
-from layercalc.cli.main import main, worked_cases_folder
+from layercalc.cli.common import worked_cases_folder
+from layercalc.cli.main import main
 from layercalc.cli.templates import TEMPLATE
 
 CASES = worked_cases_folder()

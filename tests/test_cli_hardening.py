@@ -24,7 +24,8 @@ import pytest
 
 import layercalc
 from layercalc import files
-from layercalc.cli.main import main, worked_cases, worked_cases_folder
+from layercalc.cli.common import worked_cases, worked_cases_folder
+from layercalc.cli.main import main
 from layercalc.constants import G0, RD
 from layercalc.language.parser import MAX_NESTING
 

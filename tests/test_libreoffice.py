@@ -29,7 +29,7 @@ import pytest
 from openpyxl import load_workbook
 
 import layercalc
-import layercalc.cli.main
+import layercalc.cli.common
 from layercalc.formats.xlsx.export import write_workbook
 from layercalc.formats.xlsx.layout import FIRST_ROW
 
@@ -257,7 +257,7 @@ def test_text_that_looks_like_a_formula_stays_text_in_libreoffice(recalculated):
 
 def test_a_what_if_parameter_edited_in_settings_flows_into_the_scenarios(recalculated):
     exported, converted, _, _, what_if = recalculated
-    path = layercalc.cli.main.worked_cases_folder() / "midlevel_warming.layers"
+    path = layercalc.cli.common.worked_cases_folder() / "midlevel_warming.layers"
     text = path.read_text()
     assert "cell warming = 3 K" in text
     sheet = layercalc.loads(text.replace("cell warming = 3 K", f"cell warming = "

@@ -8,7 +8,8 @@ import pytest
 from numpy.testing import assert_allclose
 
 import layercalc
-from layercalc.cli.main import main, worked_cases_folder
+from layercalc.cli.common import worked_cases_folder
+from layercalc.cli.main import main
 from layercalc.plots.profile import COMPARE_SIZE, SINGLE_SIZE, profile_figure, save_profile
 
 pytest.importorskip("matplotlib")

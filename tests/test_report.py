@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 import layercalc
-from layercalc.cli.main import worked_cases_folder
+from layercalc.cli.common import worked_cases_folder
 from layercalc.report.text import TableColumn, auto, fixed, render, render_comparison, table_lines
 
 from tests.helpers import BASE_TABLE

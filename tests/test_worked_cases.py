@@ -16,7 +16,7 @@ import pytest
 from numpy.testing import assert_allclose
 
 import layercalc
-from layercalc.cli.main import worked_cases_folder
+from layercalc.cli.common import worked_cases_folder
 from layercalc.constants import G0, RD
 from layercalc.formats.jsondoc import LAYER_KEYS, SUMMARY_KEYS, dumps, scenarios_document
 

@@ -15,7 +15,7 @@ from numpy.testing import assert_allclose
 from openpyxl import load_workbook
 
 import layercalc
-from layercalc.cli.main import worked_cases_folder
+from layercalc.cli.common import worked_cases_folder
 from layercalc.errors import OutputError
 from layercalc.evaluation.engine import BINARY as EVALUATED_BINARY, UNARY as EVALUATED_UNARY
 from layercalc.language.functions import AGGREGATE_MAX, AGGREGATE_MIN, FUNCTIONS, ROW_MAX, ROW_MIN

@@ -94,7 +94,7 @@ def test_own_export_imports_to_the_same_sheet(tmp_path, name):
     sheet = case_sheet(name)
     path = tmp_path / f"{name}.xlsx"
     write_workbook(sheet, path)
-    again = import_workbook(path).sheet
+    again = import_workbook(path, layercalc.loads).sheet
     assert again.title == sheet.title and again.notes == sheet.notes
     assert again.options == sheet.options and again.scenarios == sheet.scenarios
     # source: layercalc's evaluation of the original case; identical bit for bit, except
@@ -114,7 +114,7 @@ def test_export_import_export_gives_the_same_workbook(tmp_path, name):
     first = tmp_path / "first.xlsx"
     write_workbook(case_sheet(name), first)
     second = tmp_path / "second.xlsx"
-    write_workbook(import_workbook(first).sheet, second)
+    write_workbook(import_workbook(first, layercalc.loads).sheet, second)
     a, b = sheet_contents(first), sheet_contents(second)
     assert a.keys() == b.keys()
     for sheet in a:
@@ -128,7 +128,7 @@ def test_export_import_export_gives_the_same_workbook(tmp_path, name):
 
 def test_hand_entered_workbook(tmp_path):
     path = hand_workbook(tmp_path / "hand.xlsx")
-    imported = import_workbook(path)
+    imported = import_workbook(path, layercalc.loads)
     # source: layercalc's evaluation of the same column written as .layers text
     assert_same_results(layercalc.loads(SAME_AS_TEXT), imported.sheet)
     messages = [n.format() for n in imported.notices]
@@ -139,7 +139,7 @@ def test_hand_entered_workbook(tmp_path):
 def test_hand_entered_dry_layer_has_the_hypsometric_thickness(tmp_path):
     path = hand_workbook(tmp_path / "dry.xlsx", header=["p_bottom", "p_top [hPa]", "T"],
                          rows=[[1000, 850, 14.0]], settings=False)
-    result = import_workbook(path).sheet.evaluate()
+    result = import_workbook(path, layercalc.loads).sheet.evaluate()
     # source: hypsometric equation dz = Rd T / g0 ln(p1/p2) (Wallace and Hobbs 2006,
     # eq. 3.29), by hand with the constants of layercalc.constants; the headers without
     # units take hPa and degC
@@ -149,14 +149,14 @@ def test_hand_entered_dry_layer_has_the_hypsometric_thickness(tmp_path):
 
 def test_first_sheet_is_used_without_a_layers_sheet(tmp_path):
     path = hand_workbook(tmp_path / "first.xlsx", title="Sheet1")
-    assert_same_results(layercalc.loads(SAME_AS_TEXT), import_workbook(path).sheet)
+    assert_same_results(layercalc.loads(SAME_AS_TEXT), import_workbook(path, layercalc.loads).sheet)
 
 
 def test_formulas_sheet_lines_are_read(tmp_path):
     path = hand_workbook(tmp_path / "f.xlsx", formulas=[
         "definition (layers language; read back on import)",
         "cell mean_T [degC] = mean(T)", "column warm = where(T > 0 degC, 1, 0)"])
-    sheet = import_workbook(path).sheet
+    sheet = import_workbook(path, layercalc.loads).sheet
     # source: the mean of the five temperatures typed above, (-45-22-5+6+14)/5 degC
     assert sheet.evaluate().cells["mean_T"] == pytest.approx(-52.0 / 5.0, rel=1e-12)
 
@@ -234,7 +234,7 @@ def test_bad_cell_names_its_sheet_and_cell(tmp_path, case, change, where, messag
     change(workbook)
     workbook.save(path)
     with pytest.raises(SpreadsheetError) as caught:
-        read_workbook(path)
+        read_workbook(path, layercalc.loads)
     text = caught.value.format()
     assert f"{path}:{where}:" in text, text
     assert message in text, text
@@ -246,14 +246,14 @@ def test_unknown_setting_suggests_the_close_name(tmp_path):
     workbook["settings"]["A3"] = "surface_heigth"
     workbook.save(path)
     with pytest.raises(SpreadsheetError) as caught:
-        read_workbook(path)
+        read_workbook(path, layercalc.loads)
     assert "did you mean 'surface_height'" in caught.value.hint
 
 
 def test_the_workbook_is_not_modified(tmp_path):
     path = hand_workbook(tmp_path / "hand.xlsx")
     before = (hashlib.sha256(path.read_bytes()).hexdigest(), path.stat().st_mtime_ns)
-    read_workbook(path)
+    read_workbook(path, layercalc.loads)
     layercalc.load(path).evaluate()
     assert (hashlib.sha256(path.read_bytes()).hexdigest(), path.stat().st_mtime_ns) == before
 
@@ -291,7 +291,7 @@ def test_files_that_are_not_workbooks(tmp_path):
     (tmp_path / "locked.xlsx").write_bytes(b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" + b"\0" * 504)
     for path, message in cases:
         with pytest.raises(SpreadsheetError) as caught:
-            read_workbook(path)
+            read_workbook(path, layercalc.loads)
         assert message in caught.value.message, (path.name, caught.value.format())
         assert str(path) in caught.value.format()
 
@@ -305,22 +305,22 @@ def test_zip_bomb_is_refused_before_reading(tmp_path, monkeypatch):
     bomb = write_zip(tmp_path / "bomb.xlsx", entries)
     assert bomb.stat().st_size < 100_000
     with pytest.raises(SpreadsheetError) as caught:
-        read_workbook(bomb)
+        read_workbook(bomb, layercalc.loads)
     assert "zip bomb" in caught.value.message
-    read_workbook(good)  # the same workbook without the padding is fine
+    read_workbook(good, layercalc.loads)  # the same workbook without the padding is fine
 
 
 def test_too_many_cells_are_refused(tmp_path, monkeypatch):
     monkeypatch.setattr(xlsx_import, "MAX_CELLS", 20)
     with pytest.raises(SpreadsheetError) as caught:
-        read_workbook(hand_workbook(tmp_path / "big.xlsx"))
+        read_workbook(hand_workbook(tmp_path / "big.xlsx"), layercalc.loads)
     assert "more than 20 cells" in caught.value.message
 
 
 def test_an_empty_layers_sheet(tmp_path):
     path = hand_workbook(tmp_path / "e.xlsx", header=[], rows=[])
     with pytest.raises(SpreadsheetError) as caught:
-        read_workbook(path)
+        read_workbook(path, layercalc.loads)
     assert "layers!" in caught.value.format() and "header" in caught.value.format()
 
 

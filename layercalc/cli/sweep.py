@@ -6,7 +6,7 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-from layercalc.cli.main import PLOT_SUFFIXES, _need_suffix, _write_files, load_case
+from layercalc.cli.common import PLOT_SUFFIXES, load_case, need_suffix, write_files
 from layercalc.errors import OutputError
 
 
@@ -49,7 +49,7 @@ def sweep_command(args) -> int:
         raise OutputError(f"cannot draw to '{args.plot}': the picture must end in .png or "
                           ".svg")
     if args.xlsx:
-        _need_suffix(args.xlsx, (".xlsx",), "the sweep table")
+        need_suffix(args.xlsx, (".xlsx",), "the sweep table")
     sheet = load_case(args.case)
     ranges = [parse_range(text, sheet) for text in args.vary]
     frame = run_sweep(sheet, ranges, scenario=args.scenario, outputs=args.show)
@@ -70,7 +70,7 @@ def sweep_command(args) -> int:
             drawn = Path(folder) / Path(args.plot).name
             plot_sweep(frame, ranges, shown[0], drawn)
             files.append((args.plot, drawn.read_bytes()))
-    _write_files(files)
+    write_files(files)
     if not args.quiet:
         columns = [TableColumn(name, units.get(name, ""), auto(frame[name].to_numpy()))
                    for name in frame.columns[1:]]

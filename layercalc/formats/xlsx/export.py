@@ -22,8 +22,9 @@ import numpy as np
 
 from layercalc.errors import OutputError
 from layercalc.language.typed import CELL, references
+from layercalc.formats.xlsx.cells import letter, put_text, size_columns, style
 from layercalc.formats.xlsx.formulas import display_input
-from layercalc.formats.xlsx.layout import HEADER_ROW, Grid, Links, ResultsLayout, Variant, letter
+from layercalc.formats.xlsx.layout import HEADER_ROW, Grid, Links, ResultsLayout, Variant
 from layercalc.formats.xlsx.scenarios import compare_grid, scenario_steps
 
 MAX_SHEET_NAME = 31  # Excel's limit on sheet names
@@ -112,7 +113,7 @@ def _layers_sheet(ws, checked, columns_si) -> dict[str, str]:
                    "Header: name [unit]. Edit the values here and the results sheets "
                    "recalculate. The table ends at the first blank header cell.")
     style(note, "note")
-    _size(ws, {j: max(12, len(ws.cell(1, j).value) + 2) for j in range(1, len(letters) + 1)})
+    size_columns(ws, {j: max(12, len(ws.cell(1, j).value) + 2) for j in range(1, len(letters) + 1)})
     ws.freeze_panes = "A2"
     return letters
 
@@ -154,7 +155,7 @@ def _settings_sheet(ws, checked, cells_si) -> dict[str, int]:
             else:
                 target.value = value
             style(target, "header" if i == 1 else ("note" if j == 4 else "value"))
-    _size(ws, {1: 18, 2: 40, 3: 12, 4: 70})
+    size_columns(ws, {1: 18, 2: 40, 3: 12, 4: 70})
     ws.freeze_panes = "A2"
     return cell_rows
 
@@ -176,7 +177,7 @@ def _formulas_sheet(ws, checked, in_settings: set[str]) -> None:
         put_text(ws.cell(i, 1), text)
         put_text(ws.cell(i, 2), what)
         style(ws.cell(i, 2), "note")
-    _size(ws, {1: 90, 2: 30})
+    size_columns(ws, {1: 90, 2: 30})
 
 
 def scenario_texts(checked) -> list[str]:
@@ -231,7 +232,7 @@ def _write_grid(ws, grid: Grid, live: bool, note: str | None = None) -> None:
             cell.comment = Comment(entry.comment, "layercalc", width=320, height=120)
         if row >= HEADER_ROW:
             widths[column] = max(widths.get(column, 8), _shown_width(text, entry))
-    _size(ws, {j: min(w + 2, 48) for j, w in widths.items()})
+    size_columns(ws, {j: min(w + 2, 48) for j, w in widths.items()})
     ws.freeze_panes = grid.freeze
     if live and grid.chart is not None:
         _chart(ws, grid.chart)
@@ -268,49 +269,6 @@ def _chart(ws, spec) -> None:
         chart.series.append(series)
     chart.height, chart.width = 11, 16
     ws.add_chart(chart, spec.anchor)
-
-
-# ---------------------------------------------------------------- cells and styles
-def put_text(cell, text: str) -> None:
-    """A text cell, never a formula: text starting with = + - @ stays text."""
-    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
-
-    cell.value = ILLEGAL_CHARACTERS_RE.sub(" ", str(text))
-    cell.data_type = "s"
-    if cell.value[:1] in ("=", "+", "-", "@"):
-        cell.quotePrefix = True
-
-
-_STYLES: dict = {}
-
-
-def style(cell, name: str) -> None:
-    from openpyxl.styles import Alignment, Font, PatternFill
-
-    def fill(colour: str):
-        return PatternFill("solid", start_color=colour, end_color=colour)
-
-    if not _STYLES:
-        _STYLES.update({
-            "title": {"font": Font(bold=True, size=14)},
-            "caution": {"font": Font(italic=True, bold=True, color="9C0006")},
-            "note": {"font": Font(italic=True, color="555555")},
-            "group": {"font": Font(italic=True, bold=True, color="1F4E78")},
-            "header": {"font": Font(bold=True), "fill": fill("DDEBF7"),
-                       "alignment": Alignment(wrap_text=True, vertical="center")},
-            "input": {"fill": fill("E2EFDA")},
-            "changed": {"fill": fill("FCE4D6"), "font": Font(bold=True)},
-            "helper": {"font": Font(color="808080")},
-            "static": {"fill": fill("FFF2CC")},
-            "name": {"font": Font(bold=True)},
-        })
-    for attribute, value in _STYLES.get(name, {}).items():
-        setattr(cell, attribute, value)
-
-
-def _size(ws, widths: dict[int, float]) -> None:
-    for column, width in widths.items():
-        ws.column_dimensions[letter(column)].width = width
 
 
 # ---------------------------------------------------------------- atomic write

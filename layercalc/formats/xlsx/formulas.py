@@ -368,3 +368,18 @@ def untranslatable(formula) -> str | None:
                 return f"operator {node.op} has no spreadsheet form"
             stack.extend((node.left, node.right))
     return None
+
+
+def stepped(base_text: str, base_si: float, steps: list, amount_text, amount_value):
+    """Formula text (SI) and value of the base value with the scenario's steps;
+    amount_text(node) / amount_value(node) translate / evaluate an amount at this row."""
+    text, value = base_text, base_si
+    for action, amount, _ in steps:
+        shown, number = amount_text(amount), amount_value(amount)
+        if action == "add":
+            text, value = f"({text}+{shown})", value + number
+        elif action == "scale":
+            text, value = f"({text}*{shown})", value * number
+        else:
+            text, value = shown, number
+    return text, value

@@ -19,9 +19,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from layercalc.formats.xlsx.cells import letter
 from layercalc.language import units as U
 from layercalc.language.typed import CELL, COLUMN
 from layercalc.formats.xlsx.formulas import (
+    stepped,
     MAX_FORMULA_LENGTH, Translator, display_input, from_si, number_format, to_si,
     untranslatable,
 )
@@ -96,12 +98,6 @@ class Variant:
     summary: dict
     description: str = ""
     steps: dict = field(default_factory=dict)  # input column -> per-layer changes, or None
-
-
-def letter(column: int) -> str:
-    from openpyxl.utils import get_column_letter
-
-    return get_column_letter(column)
 
 
 def source_text(node) -> str:
@@ -240,7 +236,6 @@ class ResultsLayout:
         steps = (self.variant.steps.get(name) or [None] * self.layers)[k]
         comment = f"changed by scenario {self.variant.name}"
         if steps:
-            from layercalc.formats.xlsx.scenarios import stepped
 
             row = FIRST_ROW + k
             text, got = stepped(to_si(source, unit), float(base[k]), steps,

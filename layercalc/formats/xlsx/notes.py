@@ -91,7 +91,7 @@ def notes_rows(checked, variants, version: str, caution: str) -> list[tuple]:
 
 
 def notes_sheet(ws, checked, variants, version: str, caution: str) -> None:
-    from layercalc.formats.xlsx.export import _size, put_text, style
+    from layercalc.formats.xlsx.cells import put_text, size_columns, style
 
     for i, row in enumerate(notes_rows(checked, variants, version, caution), start=1):
         label, *texts = row
@@ -104,4 +104,4 @@ def notes_sheet(ws, checked, variants, version: str, caution: str) -> None:
         for j, text in enumerate(texts, start=2):
             put_text(ws.cell(i, j), text)
             style(ws.cell(i, j), "caution" if label == "caution" else "value")
-    _size(ws, {1: 22, 2: 110, 3: 16, 4: 80})
+    size_columns(ws, {1: 22, 2: 110, 3: 16, 4: 80})

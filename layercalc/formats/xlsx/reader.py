@@ -27,8 +27,10 @@ import zlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from layercalc.language.defaults import CELL_DEFAULTS, OPTIONS
 from layercalc.errors import LayercalcError, Notice, SpreadsheetError
+from layercalc.formats.xlsx.cells import blank, cell_name, number_text
+from layercalc.formats.xlsx.table import LayerTable
+from layercalc.language.defaults import CELL_DEFAULTS, OPTIONS
 
 MAX_FILE_BYTES = 50_000_000           # the .xlsx file on disk
 MAX_UNCOMPRESSED_BYTES = 200_000_000  # sum of the zip entries' declared sizes
@@ -39,14 +41,16 @@ MAX_CELLS = 500_000                   # cells read over the sheets used
 KNOWN_CELLS = (*CELL_DEFAULTS, "upslope_wind", "terrain_slope", "pressure_advection",
                "surface_pressure")
 TEXT_SETTINGS = ("title", "note")
-HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[\s*(.*?)\s*\])?\s*$")
 IDENTIFIER = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 CFB_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"  # OLE2 compound file: encrypted or .xls
 
 
-def read_workbook(path) -> str:
-    """The `.layers` text of a workbook; raises SpreadsheetError with sheet!cell."""
-    return import_workbook(path).text
+def read_workbook(path, compile_text) -> str:
+    """The `.layers` text of a workbook; raises SpreadsheetError with sheet!cell.
+
+    `compile_text(text, name)` compiles `.layers` text into a sheet (layercalc.api.loads);
+    it is passed in because the API sits above the formats."""
+    return import_workbook(path, compile_text).text
 
 
 @dataclass
@@ -58,13 +62,15 @@ class ImportedWorkbook:
     notices: list = field(default_factory=list)
 
 
-def import_workbook(path) -> ImportedWorkbook:
+def import_workbook(path, compile_text) -> ImportedWorkbook:
+    """The workbook's text and the sheet `compile_text` (layercalc.api.loads) makes of it,
+    every problem placed at sheet!cell."""
     path = Path(path)
     _guard(path)
     raw = _RawWorkbook.read(path)
     builder = _TextBuilder(str(path), raw)
     text = builder.build()
-    sheet = builder.check(text)
+    sheet = builder.check(text, compile_text)
     return ImportedWorkbook(text, sheet, builder.notices)
 
 
@@ -177,23 +183,11 @@ class _RawWorkbook:
 
 
 # ---------------------------------------------------------------- cells to text
-def _blank(value) -> bool:
-    return value is None or (isinstance(value, str) and not value.strip())
-
-
-def _cell(row: int, column: int) -> str:
-    from openpyxl.utils import get_column_letter
-
-    return f"{get_column_letter(column)}{row}"
 
 
 def _quote(text: str) -> str:
     escaped = text.replace("\\", "\\\\").replace('"', '\\"')
     return '"' + escaped.replace("\r\n", "\\n").replace("\n", "\\n").replace("\t", "\\t") + '"'
-
-
-def _number_text(value) -> str:
-    return str(value) if isinstance(value, int) else repr(float(value))
 
 
 class _TextBuilder:
@@ -216,8 +210,8 @@ class _TextBuilder:
 
     def number(self, value, sheet: str, row: int, column: int, what: str) -> float:
         """A cell that must hold a number."""
-        cell = _cell(row, column)
-        if _blank(value):
+        cell = cell_name(row, column)
+        if blank(value):
             formula = self.raw.formula_at(sheet, cell) if value is None else None
             if formula:
                 raise self.error(f"{what}: the formula {formula} has no saved value", sheet,
@@ -286,12 +280,10 @@ class _TextBuilder:
             self.add([(text, sheet, cell)])
         return "\n".join(self.lines) + "\n"
 
-    def check(self, text: str):
+    def check(self, text: str, compile_text):
         """Compile the text with layercalc itself; its errors and notices, placed."""
-        from layercalc.api import loads
-
         try:
-            sheet = loads(text, name=self.path)
+            sheet = compile_text(text, name=self.path)
         except LayercalcError as exc:
             problems = getattr(exc, "problems", [exc])
             first = problems[0]
@@ -323,14 +315,14 @@ class _TextBuilder:
         out = []
         for r, row in enumerate(rows, start=1):
             value = row[0] if row else None
-            if _blank(value):
+            if blank(value):
                 continue
             if not isinstance(value, str):
                 raise self.error("a formula must be text in the layers language", name,
-                                 _cell(r, 1))
+                                 cell_name(r, 1))
             if r == 1 and value.strip().lower().startswith("definition"):
                 continue
-            out += [(line.rstrip(), name, _cell(r, 1)) for line in value.splitlines()
+            out += [(line.rstrip(), name, cell_name(r, 1)) for line in value.splitlines()
                     if line.strip()]
         return out
 
@@ -347,10 +339,10 @@ class _TextBuilder:
         known_cells = set(KNOWN_CELLS) | read_names
         for r, row in enumerate(self.raw.sheets[name], start=1):
             key, value, unit = (tuple(row) + (None, None, None))[:3]
-            if _blank(key) and _blank(value):
+            if blank(key) and blank(value):
                 continue
-            where = _cell(r, 1)
-            if _blank(key):
+            where = cell_name(r, 1)
+            if blank(key):
                 raise self.error("a setting without a name", name, where,
                                  hint="column A holds the name, B the value, C the unit")
             if not isinstance(key, str):
@@ -367,7 +359,7 @@ class _TextBuilder:
         return lines
 
     def setting(self, name: str, r: int, key: str, value, unit, known_cells: set[str]):
-        value_cell = _cell(r, 2)
+        value_cell = cell_name(r, 2)
         if key in TEXT_SETTINGS:
             text = "" if value is None else str(value)
             return [(key, None, None), (_quote(text), name, value_cell)]
@@ -376,29 +368,28 @@ class _TextBuilder:
             if choice not in OPTIONS[key]:
                 raise self.error(f"setting {key} cannot be '{choice}'", name, value_cell,
                                  hint="choose one of: " + ", ".join(OPTIONS[key]))
-            return [("option", None, None), (key, name, _cell(r, 1)), ("=", None, None),
+            return [("option", None, None), (key, name, cell_name(r, 1)), ("=", None, None),
                     (choice, name, value_cell)]
         if key not in known_cells or not IDENTIFIER.fullmatch(key):
             choices = [*TEXT_SETTINGS, *OPTIONS, *sorted(known_cells)]
             close = difflib.get_close_matches(key, choices, n=2)
             hint = ("did you mean " + " or ".join(f"'{c}'" for c in close) + "?") if close \
                 else "settings are: " + ", ".join(choices)
-            raise self.error(f"unknown setting '{key}'", name, _cell(r, 1),
+            raise self.error(f"unknown setting '{key}'", name, cell_name(r, 1),
                              hint=hint + " (a value of your own must be read by a formula on "
                                          "the formulas sheet)")
         number = self.number(value, name, r, 2, f"setting {key}")
-        unit_cell = _cell(r, 3)
-        if _blank(unit):
+        unit_cell = cell_name(r, 3)
+        if blank(unit):
             unit_text = CELL_DEFAULTS.get(key, "0 1").split(" ", 1)[1].strip("[]")
             self.notice(f"setting {key} has no unit: using [{unit_text}]", name, unit_cell)
         else:
             unit_text = str(unit).strip()
             self.unit(unit_text, name, unit_cell)
-        return [("cell", None, None), (key, name, _cell(r, 1)), ("=", None, None),
-                (_number_text(number), name, value_cell), (f"[{unit_text}]", name, unit_cell)]
+        return [("cell", None, None), (key, name, cell_name(r, 1)), ("=", None, None),
+                (number_text(number), name, value_cell), (f"[{unit_text}]", name, unit_cell)]
 
     def layers(self) -> list:
-        from layercalc.formats.xlsx.table import LayerTable
 
         return LayerTable(self, self.raw.layers_name, self.raw.sheets[self.raw.layers_name]
                           ).lines()

@@ -7,7 +7,8 @@ from __future__ import annotations
 import numpy as np
 
 from layercalc.language.typed import CELL
-from layercalc.formats.xlsx.layout import HEADER_ROW, Entry, Grid, Variant, letter, number_format, static_rows
+from layercalc.formats.xlsx.cells import letter
+from layercalc.formats.xlsx.layout import HEADER_ROW, Entry, Grid, Variant, number_format, static_rows
 
 
 def scenario_steps(checked, name: str) -> dict:
@@ -33,21 +34,6 @@ def scenario_steps(checked, name: str) -> dict:
             for k in np.flatnonzero(selection_mask(checked, change)):
                 per_layer[k].append((change.action, change.amount, change.text))
     return steps
-
-
-def stepped(base_text: str, base_si: float, steps: list, amount_text, amount_value):
-    """Formula text (SI) and value of the base value with the scenario's steps;
-    amount_text(node) / amount_value(node) translate / evaluate an amount at this row."""
-    text, value = base_text, base_si
-    for action, amount, _ in steps:
-        shown, number = amount_text(amount), amount_value(amount)
-        if action == "add":
-            text, value = f"({text}+{shown})", value + number
-        elif action == "scale":
-            text, value = f"({text}*{shown})", value * number
-        else:
-            text, value = shown, number
-    return text, value
 
 
 def scenario_cells(checked) -> set[str]:

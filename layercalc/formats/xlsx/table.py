@@ -1,8 +1,9 @@
 """The layer table of an imported workbook: header `name [unit]`, one row per layer, checked
-cell by cell so that every problem names its sheet!cell (used by xlsx_import.py)."""
+cell by cell so that every problem names its sheet!cell (used by reader.py)."""
 
 from __future__ import annotations
 
+from layercalc.formats.xlsx.cells import HEADER, blank, cell_name, number_text
 from layercalc.language import units as U
 from layercalc.language.defaults import INPUT_UNITS
 
@@ -19,10 +20,8 @@ class LayerTable:
         return self.builder.error(message, self.sheet, cell, hint)
 
     def lines(self) -> list:
-        from layercalc.formats.xlsx.reader import _blank, _cell, _number_text
-
         header_index = next((i for i, row in enumerate(self.rows)
-                             if any(not _blank(v) for v in row)), None)
+                             if any(not blank(v) for v in row)), None)
         if header_index is None:
             raise self.error("the sheet is empty", "A1",
                              hint="row 1 holds the header, e.g. p_bottom [hPa] | p_top [hPa] "
@@ -32,38 +31,36 @@ class LayerTable:
         width = len(headings)
         body = [(header_row + 1 + i, tuple(row[:width]))
                 for i, row in enumerate(self.rows[header_index + 1:])]
-        while body and all(_blank(v) for v in body[-1][1]):
+        while body and all(blank(v) for v in body[-1][1]):
             body.pop()
         if not body:
             raise self.error("the table has no layers under its header",
-                             _cell(header_row + 1, 1), hint="add one row per layer")
+                             cell_name(header_row + 1, 1), hint="add one row per layer")
         table = []
         for r, row in body:
             row = row + (None,) * (width - len(row))
-            if all(_blank(v) for v in row):
-                raise self.error("a blank row inside the layer table", _cell(r, 1),
+            if all(blank(v) for v in row):
+                raise self.error("a blank row inside the layer table", cell_name(r, 1),
                                  hint="delete the row, or fill in the layer")
             table.append((r, [self.builder.number(v, self.sheet, r, j, f"{name}")
                               for j, (v, (name, _, _)) in enumerate(zip(row, headings),
                                                                       start=1)]))
         self.check(headings, table, header_row)
         lines = [[("layers", None, None)]]
-        lines.append([(f"{name} [{text}]", self.sheet, _cell(header_row, j))
+        lines.append([(f"{name} [{text}]", self.sheet, cell_name(header_row, j))
                       for j, (name, text, _) in enumerate(headings, start=1)])
         for r, values in table:
-            lines.append([(_number_text(v), self.sheet, _cell(r, j))
+            lines.append([(number_text(v), self.sheet, cell_name(r, j))
                           for j, v in enumerate(values, start=1)])
         lines.append([("end", None, None)])
         return lines
 
     def header(self, row: tuple, r: int) -> list[tuple]:
-        from layercalc.formats.xlsx.reader import HEADER, _blank, _cell
-
         headings, seen = [], {}
         for j, value in enumerate(row, start=1):
-            if _blank(value):
+            if blank(value):
                 break
-            cell = _cell(r, j)
+            cell = cell_name(r, j)
             match = HEADER.match(value) if isinstance(value, str) else None
             if match is None:
                 raise self.error(f"header '{value}' is not a column name with its unit",
@@ -85,7 +82,7 @@ class LayerTable:
         for required in ("p_bottom", "p_top"):
             if required not in seen:
                 raise self.error(f"the header has no '{required}' column",
-                                 _cell(r, len(headings) + 1),
+                                 cell_name(r, len(headings) + 1),
                                  hint="a layer table needs p_bottom and p_top, e.g. "
                                       "p_bottom [hPa] | p_top [hPa] | T [degC] | div "
                                       "[1e-5 s^-1]")
@@ -99,8 +96,6 @@ class LayerTable:
     def check(self, headings: list[tuple], table: list, header_row: int) -> None:
         """Pressures above zero, falling upward, layers stacked without gaps or overlaps,
         temperatures above absolute zero."""
-        from layercalc.formats.xlsx.reader import _cell
-
         names = [h[0] for h in headings]
         jb, jt = names.index("p_bottom"), names.index("p_top")
         to_si = [h[2].to_si for h in headings]
@@ -108,11 +103,11 @@ class LayerTable:
         for r, si in rows:
             for j in (jb, jt):
                 if si[j] <= 0:
-                    raise self.error("a pressure must be above zero", _cell(r, j + 1))
+                    raise self.error("a pressure must be above zero", cell_name(r, j + 1))
             if si[jt] >= si[jb]:
                 raise self.error(
                     f"p_top ({table_value(table, r, jt)}) must be lower than p_bottom "
-                    f"({table_value(table, r, jb)}): pressure falls upward", _cell(r, jt + 1),
+                    f"({table_value(table, r, jb)}): pressure falls upward", cell_name(r, jt + 1),
                     hint="swap the two pressures of this layer")
         surface_first = len(rows) < 2 or rows[0][1][jb] > rows[1][1][jb]
         order = "surface first" if surface_first else "top first"
@@ -121,9 +116,9 @@ class LayerTable:
             if current[jb] == previous[jb] or falling != surface_first:
                 raise self.error(
                     f"pressures do not decrease upward: the rows run {order} (from "
-                    f"{_cell(rows[0][0], jb + 1)} and {_cell(rows[1][0], jb + 1)}) but this "
+                    f"{cell_name(rows[0][0], jb + 1)} and {cell_name(rows[1][0], jb + 1)}) but this "
                     f"p_bottom ({table_value(table, r1, jb)}) does not follow "
-                    f"{_cell(r0, jb + 1)} ({table_value(table, r0, jb)})", _cell(r1, jb + 1),
+                    f"{cell_name(r0, jb + 1)} ({table_value(table, r0, jb)})", cell_name(r1, jb + 1),
                     hint="sort the layers by pressure, surface first or top first")
         for (r0, lower), (r1, upper) in zip(rows, rows[1:]):
             if not surface_first:
@@ -132,8 +127,8 @@ class LayerTable:
                 word = "overlaps" if upper[jb] > lower[jt] else "leaves a gap above"
                 raise self.error(
                     f"this layer {word} the layer below: its p_bottom is "
-                    f"{table_value(table, r1, jb)} but p_top at {_cell(r0, jt + 1)} is "
-                    f"{table_value(table, r0, jt)}", _cell(r1, jb + 1),
+                    f"{table_value(table, r1, jb)} but p_top at {cell_name(r0, jt + 1)} is "
+                    f"{table_value(table, r0, jt)}", cell_name(r1, jb + 1),
                     hint="each layer's p_bottom must equal the p_top of the layer below")
         kelvin = U.lookup("K").dimension
         for j, (name, text, unit) in enumerate(headings):
@@ -142,9 +137,9 @@ class LayerTable:
             for r, si in rows:
                 if si[j] <= 0:
                     raise self.error(f"{name} is below absolute zero ({si[j]:.2f} K)",
-                                     _cell(r, j + 1),
+                                     cell_name(r, j + 1),
                                      hint=f"check the value and the unit in the header "
-                                          f"({_cell(header_row, j + 1)}: [{text}])")
+                                          f"({cell_name(header_row, j + 1)}: [{text}])")
 
 
 def table_value(table: list, r: int, j: int) -> str:

@@ -1,0 +1,161 @@
+"""The commands run, check, new, demo, plot, export and import (sweep has its own module)."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+from layercalc.cli.common import (
+    PLOT_SUFFIXES, case_summary, emit, load_case, need_suffix, refuse_overwrite,
+    worked_cases, worked_cases_folder, write_files,
+)
+from layercalc.errors import InputError, OutputError
+
+
+def command_run(args) -> int:
+    from layercalc.formats import jsondoc as jsonout
+    from layercalc.report import text as report
+
+    if args.csv and args.output and Path(args.csv).resolve() == Path(args.output).resolve():
+        raise OutputError(f"--csv and -o both name {args.csv}; nothing was written",
+                          hint="give the table and the report different files")
+    if args.all_scenarios and args.csv:
+        raise OutputError("--csv writes one variant's layer table; with --all-scenarios "
+                          "there are several", hint="use --scenario NAME with --csv")
+    sheet = load_case(args.case)
+    if args.all_scenarios:
+        names = ["base", *sheet.scenarios]
+        if args.json:
+            text = jsonout.dumps(jsonout.scenarios_document(sheet, names))
+        elif len(names) == 1:
+            text = report.render(sheet, sheet.evaluate(), args.units, args.heights,
+                                 args.every_column)
+            text += "\n(this sheet has no scenarios)\n"
+        else:
+            text = report.render_comparison(sheet, names, args.units)
+        emit(text, args.output)
+        return 0
+    result = sheet.evaluate(args.scenario)
+    if args.json:
+        text = jsonout.dumps(jsonout.result_document(sheet, result))
+    else:
+        text = report.render(sheet, result, args.units, args.heights, args.every_column)
+    files = []  # everything is computed before the first file is written
+    if args.csv:
+        table = jsonout.layer_table_csv(result, args.units, args.heights)
+        files.append((args.csv, table.encode("utf-8")))
+    if args.output:
+        files.append((args.output, text.encode("utf-8")))
+    write_files(files)
+    if not args.output:
+        sys.stdout.write(text)
+    return 0
+
+
+def command_check(args) -> int:
+    from layercalc.api import load, problems
+
+    failed = False
+    several = len(args.cases) > 1
+    for path in args.cases:
+        found = problems(path)
+        if found:
+            failed = True
+            for problem in found:
+                print(problem.format())
+            continue
+        for notice in load(path).check():
+            print(notice.format())
+        print(f"{path}: ok" if several else "ok")
+    return 1 if failed else 0
+
+
+def command_new(args) -> int:
+    from layercalc.cli.templates import TEMPLATE
+
+    if args.output:
+        refuse_overwrite(args.output, args.force)
+        emit(TEMPLATE, args.output)
+        print(f"wrote {args.output}; edit it, then: layercalc run {args.output}",
+              file=sys.stderr)
+    else:
+        sys.stdout.write(TEMPLATE)
+    return 0
+
+
+def command_demo(args) -> int:
+    from layercalc.api import load
+    from layercalc.report import text as report
+
+    cases = worked_cases()
+    if args.list:
+        width = max(len(n) for n in cases)
+        for name, path in cases.items():
+            print(f"{name.ljust(width)}  {case_summary(path)}")
+        print(f"\nthe files are in {worked_cases_folder()}")
+        return 0
+    if args.name not in cases:
+        import difflib
+
+        close = difflib.get_close_matches(args.name, list(cases), n=2)
+        raise InputError(f"no worked case named '{args.name}'",
+                         hint=("did you mean " + " or ".join(close) + "? ") if close else
+                         "see them all with: layercalc demo --list")
+    path = cases[args.name]
+    sheet = load(path)
+    sys.stdout.write(report.render(sheet, sheet.evaluate()))
+    print("\nWhere to go next")
+    print("  This case is the file (CASE below; copy it to change it):")
+    print(f"    {path}")
+    steps = [("every worked case", "layercalc demo --list"),
+             ("draw this column", "layercalc plot CASE -o profile.png")]
+    if sheet.scenarios:
+        steps.insert(0, ("its scenarios side by side", "layercalc run CASE --all-scenarios"))
+    steps += [("start your own sheet", "layercalc new -o my_column.layers"),
+              ("check it, then run it", "layercalc check my_column.layers"),
+              ("", "layercalc run my_column.layers"),
+              ("results for scripts", "layercalc run my_column.layers --json"),
+              ("help on any command", "layercalc run --help")]
+    for what, how in steps:
+        print(f"  {(what + ':') if what else '':<28} {how}")
+    return 0
+
+
+def command_plot(args) -> int:
+    suffix = Path(args.output).suffix.lower()
+    if suffix not in PLOT_SUFFIXES:
+        raise OutputError(f"cannot draw to '{args.output}': the picture must end in .png or "
+                          ".svg", hint=f"e.g. -o {Path(args.output).stem or 'profile'}.png")
+    if args.dpi < 20 or args.dpi > 1200:
+        raise OutputError(f"--dpi {args.dpi} is out of range", hint="use 20 to 1200")
+    from layercalc.plots.profile import save_profile
+
+    sheet = load_case(args.case)
+    save_profile(sheet, args.output, scenario=args.scenario, dpi=args.dpi,
+                 station_level=args.station_level)
+    print(f"wrote {args.output}", file=sys.stderr)
+    return 0
+
+
+def command_export(args) -> int:
+    from layercalc.formats.xlsx.export import write_workbook
+
+    need_suffix(args.output, (".xlsx",), "the workbook")
+    sheet = load_case(args.case)
+    write_workbook(sheet, args.output)
+    print(f"wrote {args.output}", file=sys.stderr)
+    return 0
+
+
+def command_import(args) -> int:
+    from layercalc.api import loads
+    from layercalc.files import write_text_atomic
+    from layercalc.formats.xlsx import reader as module
+
+    need_suffix(args.output, (".layers",), "the sheet")
+    refuse_overwrite(args.output, args.force)
+    text = module.read_workbook(Path(args.workbook), loads)
+    loads(text, name=args.workbook)  # refuse to write a sheet that would not load
+    write_text_atomic(args.output, text)
+    print(f"wrote {args.output}", file=sys.stderr)
+    return 0

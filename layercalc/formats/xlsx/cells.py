@@ -1,0 +1,71 @@
+"""Cell-level helpers shared by the workbook writer and reader: safe text, styles, column
+widths, cell names, and how a header or a number is read back."""
+
+from __future__ import annotations
+
+import re
+
+HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[\s*(.*?)\s*\])?\s*$")
+
+
+def letter(column: int) -> str:
+    """The column letters of a 1-based column number."""
+    from openpyxl.utils import get_column_letter
+
+    return get_column_letter(column)
+
+
+def put_text(cell, text: str) -> None:
+    """A text cell, never a formula: text starting with = + - @ stays text."""
+    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
+
+    cell.value = ILLEGAL_CHARACTERS_RE.sub(" ", str(text))
+    cell.data_type = "s"
+    if cell.value[:1] in ("=", "+", "-", "@"):
+        cell.quotePrefix = True
+
+
+_STYLES: dict = {}
+
+
+def style(cell, name: str) -> None:
+    from openpyxl.styles import Alignment, Font, PatternFill
+
+    def fill(colour: str):
+        return PatternFill("solid", start_color=colour, end_color=colour)
+
+    if not _STYLES:
+        _STYLES.update({
+            "title": {"font": Font(bold=True, size=14)},
+            "caution": {"font": Font(italic=True, bold=True, color="9C0006")},
+            "note": {"font": Font(italic=True, color="555555")},
+            "group": {"font": Font(italic=True, bold=True, color="1F4E78")},
+            "header": {"font": Font(bold=True), "fill": fill("DDEBF7"),
+                       "alignment": Alignment(wrap_text=True, vertical="center")},
+            "input": {"fill": fill("E2EFDA")},
+            "changed": {"fill": fill("FCE4D6"), "font": Font(bold=True)},
+            "helper": {"font": Font(color="808080")},
+            "static": {"fill": fill("FFF2CC")},
+            "name": {"font": Font(bold=True)},
+        })
+    for attribute, value in _STYLES.get(name, {}).items():
+        setattr(cell, attribute, value)
+
+
+def size_columns(ws, widths: dict[int, float]) -> None:
+    for column, width in widths.items():
+        ws.column_dimensions[letter(column)].width = width
+
+
+def blank(value) -> bool:
+    return value is None or (isinstance(value, str) and not value.strip())
+
+
+def cell_name(row: int, column: int) -> str:
+    from openpyxl.utils import get_column_letter
+
+    return f"{get_column_letter(column)}{row}"
+
+
+def number_text(value) -> str:
+    return str(value) if isinstance(value, int) else repr(float(value))
