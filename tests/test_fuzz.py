@@ -7,6 +7,9 @@ import random
 from hypothesis import given, settings, strategies as st
 
 from tests.fuzz import check_one, mutate, run, seeds
+import pytest
+
+pytestmark = pytest.mark.slow  # see pyproject.toml: deselect with -m 'not slow'
 
 
 def test_mutated_worked_cases_for_thirty_seconds():

@@ -11,6 +11,8 @@ from pathlib import Path
 
 import pytest
 
+pytestmark = pytest.mark.slow  # see pyproject.toml: deselect with -m 'not slow'
+
 ROOT = Path(__file__).resolve().parent.parent
 
 

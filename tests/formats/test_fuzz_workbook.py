@@ -12,6 +12,9 @@ from hypothesis import HealthCheck, given, settings, strategies as st
 from openpyxl import Workbook
 
 import layercalc
+import pytest
+
+pytestmark = pytest.mark.slow  # see pyproject.toml: deselect with -m 'not slow'
 
 HEADERS = ["p_bottom [hPa]", "p_top [hPa]", "T [degC]", "Td [degC]", "div [1e-5 s^-1]",
            "T", "p_bottom", "RH [%]", "r [g/kg]", "x [furlong]", "div [s^-1", "", None,
@@ -68,7 +71,7 @@ def test_random_hand_entered_workbooks(tmp_path, header, rows, settings_rows):
 def test_byte_mutated_exports(tmp_path, seed):
     base = tmp_path / "base.xlsx"
     if not base.exists():
-        layercalc.load(Path(__file__).resolve().parent.parent / "worked_cases" /
+        layercalc.load(Path(__file__).resolve().parents[2] / "worked_cases" /
                        "dines_compensation.layers").to_xlsx(base)
     data = bytearray(base.read_bytes())
     rnd = random.Random(seed)

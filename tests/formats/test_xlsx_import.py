@@ -18,7 +18,7 @@ from layercalc.errors import SpreadsheetError
 from layercalc.formats.xlsx.export import write_workbook
 from layercalc.formats.xlsx.reader import import_workbook, read_workbook
 
-from tests.test_xlsx_export import ALL_CASES, case_sheet
+from tests.formats.test_xlsx_export import ALL_CASES, case_sheet
 
 # Inputs layercalc computes itself (means over stations) may need 17 significant digits;
 # a workbook stores 16 (openpyxl writes "%.16g"), so these re-import within 1e-16

@@ -1,6 +1,6 @@
 """Exact error text for bad inputs: tests/errors/NAME.layers -> NAME.expected.
 
-Regenerate the expected files only on purpose:  python -m tests.test_errors --update
+Regenerate the expected files only on purpose:  python -m tests.language.test_errors --update
 """
 
 from __future__ import annotations
@@ -12,7 +12,7 @@ import pytest
 
 import layercalc
 
-FOLDER = Path(__file__).resolve().parent / "errors"
+FOLDER = Path(__file__).resolve().parents[1] / "errors"
 CASES = sorted(FOLDER.glob("*.layers"))
 
 
@@ -29,7 +29,7 @@ def test_there_are_cases():
 @pytest.mark.parametrize("path", CASES, ids=[p.stem for p in CASES])
 def test_error_text(path):
     expected = path.with_suffix(".expected")
-    assert expected.exists(), f"no {expected.name}: run python -m tests.test_errors --update"
+    assert expected.exists(), f"no {expected.name}: run python -m tests.language.test_errors --update"
     got = formatted(path)
     assert got.strip(), "the file should have a problem"
     assert got == expected.read_text(encoding="utf-8")

@@ -121,7 +121,7 @@ def test_a_column_without_divergence_draws_temperature(tmp_path):
 # - arrow lengths and labels: the reported winds in the worked case (1 kt = 1852 m/h,
 #   NIST SP 811, exact), turning a wind into the plane does not change its speed;
 # - divergence and vorticity in the title: the details (layercalc.physics.stations,
-#   checked independently in tests/test_stations.py).
+#   checked independently in tests/physics/test_stations.py).
 from layercalc.errors import OutputError  # noqa: E402
 from layercalc.plots.profile import STATION_PANEL_WIDTH, figure_size  # noqa: E402
 
@@ -233,8 +233,8 @@ def test_station_panel_beside_the_scenario_panel():
 
 
 def test_a_station_without_wind_at_the_level_has_no_arrow():
-    from tests.test_soundings import network_text
-    from tests.test_stations import triangle
+    from tests.soundings.test_soundings import network_text
+    from tests.physics.test_stations import triangle
 
     latitudes, longitudes = triangle(50.0, 5.0, 15.0)
     sheet = layercalc.loads(network_text(latitudes, longitudes, missing=[(1, 2)]),

@@ -44,6 +44,7 @@ def test_very_long_line_gives_a_windowed_excerpt():
     assert len(excerpt) < 140
 
 
+@pytest.mark.slow
 def test_hundred_thousand_layers_work():
     n = 100_000
     p = np.linspace(1000.0, 100.0, n + 1)

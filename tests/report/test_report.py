@@ -161,20 +161,20 @@ def test_wide_tables_are_split_and_keep_the_labels():
 # - station positions: pyproj 3.7.2's oblique stereographic projection (+proj=stere, k_0=1,
 #   sphere of the GRS80 mean radius) of the file's latitudes and longitudes about the
 #   centroid the details give (the centroid itself: layercalc.physics.stations,
-#   spherical_centroid, checked independently in tests/test_stations.py);
-# - separations: the haversine distance (tests/test_soundings.py, great_circle_km,
+#   spherical_centroid, checked independently in tests/physics/test_stations.py);
+# - separations: the haversine distance (tests/soundings/test_soundings.py, great_circle_km,
 #   formula from memory) and the worked case's own header ("265, 271 and 306 km");
 # - per-level divergence and vorticity: plane-linear wind fields, divergence a + d and
-#   vorticity c - b by construction (tests/test_stations.py, plane_linear_winds);
+#   vorticity c - b by construction (tests/physics/test_stations.py, plane_linear_winds);
 # - hydrostatic tables: the hypsometric equation dz = Rd Tv / g0 ln(p1 / p2) (Wallace and
 #   Hobbs 2006, section 3.2) written out here, for an isothermal dry column.
 from layercalc.constants import G0, RD  # noqa: E402
 
-from tests.test_soundings import (  # noqa: E402
+from tests.soundings.test_soundings import (  # noqa: E402
     LEVEL_DIVERGENCE, LEVEL_VORTICITY, PRESSURES, great_circle_km, levels_block,
     network_text,
 )
-from tests.test_stations import triangle  # noqa: E402
+from tests.physics.test_stations import triangle  # noqa: E402
 
 THREE_STATIONS = worked_cases_folder() / "three_stations.layers"
 

@@ -29,7 +29,7 @@ from layercalc.cli.main import main
 from layercalc.constants import G0, RD
 from layercalc.language.parser import MAX_NESTING
 
-ERRORS = Path(__file__).resolve().parent / "errors"
+ERRORS = Path(__file__).resolve().parents[1] / "errors"
 GOLDEN = sorted(ERRORS.glob("*.layers"))
 WORKED = worked_cases()
 WARMING = worked_cases_folder() / "midlevel_warming.layers"
@@ -140,6 +140,7 @@ def test_a_golden_bad_input_writes_no_output_and_keeps_old_outputs(path, capsys,
     assert digest(path) == before
 
 
+@pytest.mark.slow
 def test_golden_bad_inputs_through_a_process(tmp_path):
     """`check` takes every golden file in one process and names each problem's position."""
     done = process("check", *GOLDEN, cwd=tmp_path)
@@ -214,6 +215,7 @@ def test_a_file_that_is_not_utf8(encoding, position, capsys, tmp_path):
     assert digest(path) == before
 
 
+@pytest.mark.slow
 def test_a_file_that_is_not_utf8_through_a_process(tmp_path):
     path = tmp_path / "coded.layers"
     path.write_bytes(('title "Café"\n' + SMALL_TABLE).encode("latin-1"))
@@ -233,6 +235,7 @@ def test_a_huge_line_that_is_valid_works(capsys, tmp_path):
     assert code == 0 and "Summary" in out
 
 
+@pytest.mark.slow
 def test_a_huge_line_with_an_error_names_its_column_and_shows_a_window(capsys, tmp_path):
     path = tmp_path / "long.layers"
     head = "column bad [K] = " + " " * 100_000
@@ -271,6 +274,7 @@ def test_ten_thousand_levels_of_nesting_are_a_clear_error(name, capsys, tmp_path
         assert max(len(text) for text in (out + err).splitlines()) < 400
 
 
+@pytest.mark.slow
 def test_a_hundred_thousand_layers_through_the_cli(capsys, tmp_path):
     """Documented to work (README: no layer limit); takes some 10-20 s, mostly parsing."""
     n = 100_000
@@ -331,6 +335,7 @@ def test_usage_errors_exit_2(name, capsys, tmp_path, monkeypatch):
     assert list(tmp_path.iterdir()) == []
 
 
+@pytest.mark.slow
 def test_a_usage_error_through_a_process(tmp_path):
     done = process("run", WARMING, "--no-such-option", cwd=tmp_path)
     assert done.returncode == 2

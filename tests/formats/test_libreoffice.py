@@ -33,15 +33,15 @@ import layercalc.cli.common
 from layercalc.formats.xlsx.export import write_workbook
 from layercalc.formats.xlsx.layout import FIRST_ROW
 
-from tests.test_xlsx_export import ALL_CASES, CASES, case_sheet, derived_places
+from tests.formats.test_xlsx_export import ALL_CASES, CASES, case_sheet, derived_places
 
 SOFFICE = shutil.which("soffice") or shutil.which("libreoffice")
 # CI (.ci/run) installs LibreOffice and sets LAYERCALC_REQUIRE_LIBREOFFICE=1: there a missing
 # soffice is a failure, elsewhere a skip with the reason.
 if SOFFICE is None and os.environ.get("LAYERCALC_REQUIRE_LIBREOFFICE") == "1":
     raise RuntimeError("LAYERCALC_REQUIRE_LIBREOFFICE=1 but soffice is not installed")
-pytestmark = pytest.mark.skipif(SOFFICE is None, reason="LibreOffice (soffice) is not "
-                                "installed: apt-get install libreoffice-calc-nogui")
+pytestmark = [pytest.mark.slow, pytest.mark.skipif(SOFFICE is None, reason="LibreOffice (soffice) is not "
+                                "installed: apt-get install libreoffice-calc-nogui")]
 TOLERANCE = 1e-9
 TIMEOUT_SECONDS = 600
 RECALCULATE_ALWAYS = """<?xml version="1.0" encoding="UTF-8"?>

@@ -52,6 +52,7 @@ def bad_case(tmp_path) -> Path:
 
 
 # ---------------------------------------------------------------- through a process
+@pytest.mark.slow
 def test_run_in_a_process_from_a_fresh_folder(tmp_path):
     done = layercalc_process("run", str(WARMING), cwd=tmp_path)
     assert done.returncode == 0, done.stderr
@@ -60,6 +61,7 @@ def test_run_in_a_process_from_a_fresh_folder(tmp_path):
     assert list(tmp_path.iterdir()) == []  # nothing left behind
 
 
+@pytest.mark.slow
 def test_json_in_a_process(tmp_path):
     done = layercalc_process("run", str(WARMING), "--json", cwd=tmp_path)
     assert done.returncode == 0, done.stderr
@@ -67,6 +69,7 @@ def test_json_in_a_process(tmp_path):
     assert document["scenario"] == "base" and len(document["layers"]) == 12
 
 
+@pytest.mark.slow
 def test_a_bad_file_gives_exit_1_with_position_and_no_traceback(tmp_path, bad_case):
     for command in ("run", "check", "plot"):
         extra = ("-o", str(tmp_path / "x.png")) if command == "plot" else ()
@@ -78,6 +81,7 @@ def test_a_bad_file_gives_exit_1_with_position_and_no_traceback(tmp_path, bad_ca
         assert "Traceback" not in text
 
 
+@pytest.mark.slow
 def test_usage_errors_exit_2(tmp_path):
     assert layercalc_process(cwd=tmp_path).returncode == 2
     done = layercalc_process("run", str(WARMING), "--no-such-option", cwd=tmp_path)
@@ -88,6 +92,7 @@ def test_usage_errors_exit_2(tmp_path):
     assert both.returncode == 2
 
 
+@pytest.mark.slow
 def test_demo_in_a_process_from_any_folder(tmp_path):
     done = layercalc_process("demo", cwd=tmp_path)
     assert done.returncode == 0, done.stderr
@@ -95,6 +100,7 @@ def test_demo_in_a_process_from_any_folder(tmp_path):
     assert "surface pressure tendency" in done.stdout
 
 
+@pytest.mark.slow
 def test_new_plot_and_check_in_a_process(tmp_path):
     made = layercalc_process("new", "-o", "mine.layers", cwd=tmp_path)
     assert made.returncode == 0, made.stderr
@@ -105,6 +111,7 @@ def test_new_plot_and_check_in_a_process(tmp_path):
     assert (tmp_path / "mine.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("command", COMMANDS)
 def test_help_on_every_command_has_an_example(command, tmp_path):
     done = layercalc_process(command, "--help", cwd=tmp_path)
@@ -351,8 +358,8 @@ def test_json_gains_a_soundings_key_and_keeps_the_rest(capsys):
 
 
 def test_json_soundings_of_a_linear_wind_field_with_a_missing_wind(capsys, tmp_path):
-    from tests.test_soundings import LEVEL_DIVERGENCE, LEVEL_VORTICITY, network_text
-    from tests.test_stations import pentagon
+    from tests.soundings.test_soundings import LEVEL_DIVERGENCE, LEVEL_VORTICITY, network_text
+    from tests.physics.test_stations import pentagon
 
     latitudes, longitudes = pentagon(45.0, 20.0, 0.0)
     case = tmp_path / "five.layers"
@@ -360,7 +367,7 @@ def test_json_soundings_of_a_linear_wind_field_with_a_missing_wind(capsys, tmp_p
     code, out, err = run(capsys, "run", str(case), "--json")
     assert code == 0, err
     network = json.loads(out)["soundings"]["network"]
-    # divergence a + d and vorticity c - b by construction (tests/test_stations.py,
+    # divergence a + d and vorticity c - b by construction (tests/physics/test_stations.py,
     # plane_linear_winds); four stations still fit the 850 hPa level exactly
     assert_allclose(network["levels"]["divergence"], LEVEL_DIVERGENCE, rtol=0, atol=1e-17)
     assert_allclose(network["levels"]["vorticity"], LEVEL_VORTICITY, rtol=0, atol=1e-17)
@@ -416,7 +423,7 @@ def test_json_soundings_of_a_levels_table_with_winds(capsys, tmp_path):
     assert soundings["column_levels"]["T"] == pytest.approx([287.15, 279.15, 269.15])
     assert soundings["column_levels"]["z"] == []  # no heights given
     wind = soundings["layer_wind"]
-    # WMO convention (direction the wind blows from; tests/test_stations.py): from 180 ->
+    # WMO convention (direction the wind blows from; tests/physics/test_stations.py): from 180 ->
     # (0, +10), from 270 -> (+20, 0), from 360 -> (0, -30) m/s; a layer's wind is the mean
     # of its two levels (soundings.py: linear in ln p)
     assert wind["p_bottom"] == [100000.0, 85000.0] and wind["p_top"] == [85000.0, 70000.0]

@@ -14,7 +14,9 @@ import pytest
 
 from layercalc.language.dimensions import PlainDimension
 
-ROOT = Path(__file__).resolve().parent.parent
+pytestmark = pytest.mark.slow  # see pyproject.toml: deselect with -m 'not slow'
+
+ROOT = Path(__file__).resolve().parents[2]
 CASE = ROOT / "worked_cases" / "midlevel_warming.layers"
 PROBE = ("import sys, io, contextlib\n"
          "from layercalc.cli.main import main\n"

@@ -4,10 +4,10 @@ Where the expected numbers come from:
 - layer means of a quantity linear in ln p: the mean of its two levels (derivation in
   physics/levels.py, layers_from_levels; arithmetic);
 - the U.S. Standard Atmosphere 1976 column and the error bound of the level-to-layer
-  conversion: tests/test_levels.py (ussa_column, trapezoid_error_bounds), whose helper is
+  conversion: tests/soundings/test_levels.py (ussa_column, trapezoid_error_bounds), whose helper is
   checked there against ambiance 1.3.1;
 - plane-linear wind fields: divergence a + d and vorticity c - b exactly, by construction
-  (tests/test_stations.py, plane_linear_winds; winds written to the text with 17
+  (tests/physics/test_stations.py, plane_linear_winds; winds written to the text with 17
   significant digits, so the text adds only rounding);
 - shape thresholds: the constants of physics/stations.py.
 """
@@ -29,10 +29,10 @@ from layercalc.constants import G0, RD
 from layercalc.physics import stations as station_physics
 from layercalc.physics.winds import wind_direction_and_speed
 
-from tests.test_levels import COARSE_HPA, MANDATORY_HPA, trapezoid_error_bounds, ussa_column
-from tests.test_stations import pentagon, plane_linear_winds, triangle
+from tests.soundings.test_levels import COARSE_HPA, MANDATORY_HPA, trapezoid_error_bounds, ussa_column
+from tests.physics.test_stations import pentagon, plane_linear_winds, triangle
 
-WORKED_CASE = Path(__file__).resolve().parent.parent / "worked_cases" / "three_stations.layers"
+WORKED_CASE = Path(__file__).resolve().parents[2] / "worked_cases" / "three_stations.layers"
 KNOT = 1852.0 / 3600.0   # m/s, NIST SP 811 (1 kn = 1852 m/h), exact
 
 
@@ -144,7 +144,7 @@ def test_relative_humidity_and_other_columns_are_carried_as_layer_means():
 @pytest.mark.parametrize("levels_hpa", [MANDATORY_HPA, COARSE_HPA])
 def test_standard_atmosphere_heights_within_the_derived_bound(levels_hpa):
     """A dry USSA 1976 level table (T to 17 digits): the sheet's z_top minus the USSA
-    heights lies within the trapezoid-rule bounds derived in tests/test_levels.py,
+    heights lies within the trapezoid-rule bounds derived in tests/soundings/test_levels.py,
     summed upward (layercalc's Rd is the USSA R* / M0, so no constant term)."""
     pressure = np.array(levels_hpa, dtype=float) * 100.0
     height, temperature = ussa_column(pressure)
