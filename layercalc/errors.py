@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from typing import Sequence
 
+from layercalc.names import did_you_mean
+
 # errors.py sits below source.py: a span is any object with `location()` and `excerpt()`
 # (layercalc.source.Span), named in annotations as text only.
 
@@ -62,7 +64,7 @@ class UnknownNameError(LayercalcError):
                  hint: str | None = None) -> None:
         self.suggestions = tuple(suggestions)
         if hint is None and self.suggestions:
-            hint = "did you mean " + " or ".join(f"'{s}'" for s in self.suggestions) + "?"
+            hint = did_you_mean(self.suggestions)
         super().__init__(message, span, hint)
 
 

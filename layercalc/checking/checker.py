@@ -6,10 +6,10 @@ order), tables.py (the layers table) and expressions.py (typing expressions)."""
 
 from __future__ import annotations
 
-import difflib
 import graphlib
 import math
 
+from layercalc.names import close_names
 from layercalc.checking.checked import CheckedSheet, first_with_all
 from layercalc.checking.expressions import (
     ExpressionChecker, Poisoned, constant_si, constant_value, is_constant, referenced_names,
@@ -106,7 +106,7 @@ class Checker(TableChecker, ExpressionChecker):
 
     def option(self, st: Option, options: dict, spans: dict) -> None:
         if st.name not in OPTIONS:
-            close = difflib.get_close_matches(st.name, list(OPTIONS), n=2)
+            close = close_names(st.name, OPTIONS, 2)
             self.fail(UnknownNameError(f"unknown option '{st.name}'", st.span, close,
                                        hint=None if close else
                                        "options are: " + ", ".join(OPTIONS)))

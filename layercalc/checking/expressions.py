@@ -3,9 +3,9 @@ degC and condition rules. A mixin of the checker (check.py)."""
 
 from __future__ import annotations
 
-import difflib
 from fractions import Fraction
 
+from layercalc.names import close_names
 from layercalc.language import units as U
 from layercalc.language.unit_text import parse_unit_string, written_unit
 from layercalc.constants import CONSTANTS
@@ -62,7 +62,7 @@ class ExpressionChecker:
             return TRef(Meta(node.span, unit.dimension, CELL), "constant", name)
         known = [*sheet.input_columns, *sheet.input_cells, *(n for _, n in self.formula_keys),
                  *CONSTANTS]
-        close = difflib.get_close_matches(name, known, n=3, cutoff=0.6)
+        close = close_names(name, known)
         hint = None
         if name in U.UNIT_TABLE and not close:
             hint = (f"'{name}' is a unit here, not a value: put compound units in brackets, "
@@ -161,7 +161,7 @@ class ExpressionChecker:
         function = lookup_function(node.function, len(node.args))
         span = node.name_span or node.span
         if function is None:
-            close = difflib.get_close_matches(node.function, function_names(), n=3, cutoff=0.6)
+            close = close_names(node.function, function_names())
             raise UnknownNameError(f"unknown function '{node.function}'", span, close,
                                    hint=None if close else
                                    "functions: " + ", ".join(function_names()))

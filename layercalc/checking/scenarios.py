@@ -11,18 +11,18 @@ Temperatures added with `add` are differences: `add 3 degC to T` equals `add 3 K
 
 from __future__ import annotations
 
-import difflib
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from layercalc.language import units as U
+from layercalc.names import PRESSURE_BOUNDS, close_names
 from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError, UnknownNameError
 from layercalc.language.nodes import Definition, Scenario
 from layercalc.language.typed import TExpr, TRef
 
 PRESSURE_TOLERANCE = 1e-6  # relative, when a layer bound equals a selection pressure
-FIXED_INPUTS = ("p_bottom", "p_top")
+FIXED_INPUTS = PRESSURE_BOUNDS
 
 
 @dataclass(frozen=True)
@@ -62,7 +62,7 @@ def check_scenarios(checker, sheet, scenarios: list[Scenario]) -> dict[str, Chec
     checked: dict[str, CheckedScenario] = {}
     for sc in scenarios:
         if sc.base not in (None, "base") and sc.base not in by_name:
-            close = difflib.get_close_matches(sc.base, [*by_name, "base"], n=2)
+            close = close_names(sc.base, [*by_name, "base"], 2)
             raise UnknownNameError(f"scenario '{sc.name}' builds on unknown scenario "
                                    f"'{sc.base}'", sc.base_span, close)
         _check_chain(sc, by_name)
@@ -128,7 +128,7 @@ def _check_change(checker, sheet, ch) -> CheckedChange:
                               "pressures", ch.target_span,
                               hint="change T, Td, div or another input column")
     if ch.target not in sheet.input_columns:
-        close = difflib.get_close_matches(ch.target, list(sheet.input_columns), n=3)
+        close = close_names(ch.target, sheet.input_columns, 3)
         raise UnknownNameError(f"'{ch.target}' is not an input column of the layers table",
                                ch.target_span, close,
                                hint=None if close else "scenarios change input columns: "
@@ -193,7 +193,7 @@ def _check_cell(checker, sheet, d: Definition) -> float:
         raise DefinitionError("a scenario changes input columns with add, scale or set; "
                               "it cannot define a column", d.span)
     if d.name not in sheet.input_cells:
-        close = difflib.get_close_matches(d.name, list(sheet.input_cells), n=3)
+        close = close_names(d.name, sheet.input_cells, 3)
         raise UnknownNameError(f"'{d.name}' is not an input cell of the sheet", d.name_span,
                                close, hint="a scenario can set the sheet's input cells "
                                "(" + ", ".join(sheet.input_cells) + ")")
@@ -238,7 +238,7 @@ def selection_mask(sheet, ch: CheckedChange) -> np.ndarray:
 def chain(checked_sheet, name: str) -> list[CheckedScenario]:
     """The scenario and those it builds on, base first."""
     if name not in checked_sheet.scenarios:
-        close = difflib.get_close_matches(name, list(checked_sheet.scenarios), n=3)
+        close = close_names(name, checked_sheet.scenarios, 3)
         raise UnknownNameError(f"no scenario named '{name}'", None, close,
                                hint=None if close else "scenarios in this sheet: "
                                + (", ".join(checked_sheet.scenarios) or "none"))

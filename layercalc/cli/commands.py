@@ -5,6 +5,7 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
+from layercalc.names import close_names, did_you_mean
 from layercalc.cli.common import (
     PLOT_SUFFIXES, case_summary, emit, load_case, need_suffix, refuse_overwrite,
     worked_cases, worked_cases_folder, write_files,
@@ -95,12 +96,9 @@ def command_demo(args) -> int:
         print(f"\nthe files are in {worked_cases_folder()}")
         return 0
     if args.name not in cases:
-        import difflib
-
-        close = difflib.get_close_matches(args.name, list(cases), n=2)
+        close = close_names(args.name, cases, 2)
         raise InputError(f"no worked case named '{args.name}'",
-                         hint=("did you mean " + " or ".join(close) + "? ") if close else
-                         "see them all with: layercalc demo --list")
+                         hint=did_you_mean(close) or "see them all with: layercalc demo --list")
     path = cases[args.name]
     sheet = load(path)
     sys.stdout.write(report.render(sheet, sheet.evaluate()))

@@ -3,10 +3,10 @@ scenario axis, the sheet compiled for a scenario's options, and sweeps over inpu
 
 from __future__ import annotations
 
-import difflib
 
 import numpy as np
 
+from layercalc.names import close_names
 from layercalc.checking.checker import check_with_options
 from layercalc.checking.scenarios import CheckedChange, CheckedScenario, chain, selection_mask
 from layercalc.errors import EvaluationError, LayercalcError, UnknownNameError
@@ -102,7 +102,7 @@ def sweep_evaluation(checked_sheet, cell_values: dict[str, np.ndarray],
     SI values (all the same length S)."""
     for name in cell_values:
         if name not in checked_sheet.input_cells:
-            close = difflib.get_close_matches(name, list(checked_sheet.input_cells), n=3)
+            close = close_names(name, checked_sheet.input_cells, 3)
             raise UnknownNameError(f"'{name}' is not an input cell of this sheet", None, close,
                                    hint=None if close else "input cells: "
                                    + ", ".join(checked_sheet.input_cells))

@@ -6,12 +6,12 @@ the leading scenario axis of every array.
 
 from __future__ import annotations
 
-import difflib
 import re
 from dataclasses import dataclass
 
 import numpy as np
 
+from layercalc.names import close_names
 from layercalc.errors import DefinitionError, UnknownNameError
 
 MAX_POINTS = 2_000_000  # grid points in one sweep
@@ -43,7 +43,7 @@ def parse_range(text: str, sheet) -> Range:
         raise DefinitionError(f"{where}: START, STOP and STEP must be numbers") from None
     cells = sheet.checked.input_cells
     if name not in cells:
-        close = difflib.get_close_matches(name, list(cells), n=3)
+        close = close_names(name, cells, 3)
         raise UnknownNameError(f"{where}: '{name}' is not an input cell of this sheet", None,
                                close, hint=None if close else
                                "input cells: " + ", ".join(cells))
@@ -92,7 +92,7 @@ def run_sweep(sheet, ranges: list[Range], scenario: str | None = None,
         units[r.name] = r.unit
     for name in outputs:
         if name not in evaluation.cells:
-            close = difflib.get_close_matches(name, list(evaluation.cells), n=3)
+            close = close_names(name, evaluation.cells, 3)
             raise UnknownNameError(f"'{name}' is not a cell of this sheet", None, close)
         unit = checked.unit_of(name, "cell")
         values = np.broadcast_to(evaluation.cells[name], (n, 1))[:, 0]

@@ -8,6 +8,8 @@ The physics behind each line is in layercalc/physics (formulas and references in
 
 from __future__ import annotations
 
+from layercalc.names import CANONICAL
+
 OPTIONS = {
     "integrate": ("from_top", "from_surface"),
     "adjust": ("none", "uniform", "obrien"),
@@ -15,31 +17,13 @@ OPTIONS = {
 OPTION_DEFAULTS = {"integrate": "from_top", "adjust": "none"}
 
 # Input cells the defaults read, with the value used when the file does not give them.
-CELL_DEFAULTS = {
-    "surface_height": "0 m",
-    "omega_top": "0 [Pa/s]",
-    "omega_surface": "0 [Pa/s]",
-}
-
+CELL_DEFAULTS = {n: c.default for n, c in CANONICAL.items() if c.default}
 # Units assumed for canonical input names given without a unit (a notice says so).
-INPUT_UNITS = {
-    "p_bottom": "hPa", "p_top": "hPa", "p": "hPa", "T": "degC", "Td": "degC",
-    "div": "1e-5 s^-1", "RH": "%", "r": "g/kg", "z": "m", "dir": "deg", "speed": "kt",
-    "thickness": "m",
-}
-
-HUMIDITY_INPUTS = ("Td", "RH", "r")
-
+INPUT_UNITS = {n: c.assumed_unit for n, c in CANONICAL.items() if c.assumed_unit}
 # What the defaults expect each canonical input to be (checked where the user wrote it).
-INPUT_DIMENSIONS = {
-    "p_bottom": "hPa", "p_top": "hPa", "T": "K", "Td": "K", "div": "s^-1", "RH": "%",
-    "r": "g/kg",
-}
-CELL_DIMENSIONS = {
-    "surface_height": "m", "surface_pressure": "hPa", "omega_top": "Pa/s",
-    "omega_surface": "Pa/s", "upslope_wind": "m/s", "terrain_slope": "1",
-    "pressure_advection": "Pa/s",
-}
+INPUT_DIMENSIONS = {n: c.expected_unit for n, c in CANONICAL.items()
+                    if c.where == "layers" and c.expected_unit}
+CELL_DIMENSIONS = {n: c.expected_unit for n, c in CANONICAL.items() if c.where == "cell"}
 
 
 def prelude(names: set[str], options: dict[str, str]) -> tuple[str, list[str]]:

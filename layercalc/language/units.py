@@ -13,13 +13,13 @@ UNIT_TABLE, ONE) are built on first use, by whichever source was chosen.
 
 from __future__ import annotations
 
-import difflib
 import math
 from dataclasses import dataclass
 from fractions import Fraction
 from functools import lru_cache
 from types import MappingProxyType
 
+from layercalc.names import close_names, did_you_mean
 from layercalc.language.dimensions import PlainDimension
 from layercalc.errors import UnitError
 
@@ -291,9 +291,8 @@ def lookup(symbol: str, span=None) -> Unit:
     UNIT_TABLE = globals()["UNIT_TABLE"]
     entry = UNIT_TABLE.get(symbol)
     if entry is None:
-        close = difflib.get_close_matches(symbol, list(UNIT_TABLE), n=3, cutoff=0.5)
-        hint = ("did you mean " + " or ".join(f"'{c}'" for c in close) + "?") if close else (
-            "known units: " + ", ".join(UNIT_TABLE))
+        close = close_names(symbol, UNIT_TABLE, 3, cutoff=0.5)
+        hint = did_you_mean(close) or "known units: " + ", ".join(UNIT_TABLE)
         raise UnitError(f"unknown unit '{symbol}'", span, hint=hint)
     return Unit(entry.dimension, entry.scale, entry.offset, symbol)
 

@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 
 from layercalc.language import units as U
+from layercalc.names import INPUT_CELLS, LAYER_INPUTS
 from layercalc.formats.jsondoc import output_unit
 from layercalc.language.units import si_unit_text
 from layercalc.report.compare import render_comparison
@@ -21,10 +22,9 @@ from layercalc.report.layout import (  # the layout helpers, public here as befo
 __all__ = ["render", "render_comparison", "TableColumn", "auto", "auto_decimals", "fixed",
            "pressure_text", "table_lines", "wrap", "WIDTH"]
 
-CANONICAL_INPUTS = ("p_bottom", "p_top", "T", "Td", "RH", "r", "div")
+CANONICAL_INPUTS = LAYER_INPUTS
 # Input cells with a meaning of their own (shown in the header or summary, not as "yours").
-CANONICAL_CELLS = ("surface_height", "surface_pressure", "omega_top", "omega_surface",
-                   "upslope_wind", "terrain_slope", "pressure_advection")
+CANONICAL_CELLS = INPUT_CELLS
 ADJUSTMENTS = {
     "none": "none (the mismatch stays in the profile)",
     "uniform": "uniform (the same divergence correction in every layer)",

@@ -19,7 +19,6 @@ decompressed size) and while reading (cell count).
 
 from __future__ import annotations
 
-import difflib
 import math
 import re
 import zipfile
@@ -31,15 +30,14 @@ from layercalc.errors import LayercalcError, Notice, SpreadsheetError
 from layercalc.formats.xlsx.cells import blank, cell_name, number_text
 from layercalc.formats.xlsx.table import LayerTable
 from layercalc.language.defaults import CELL_DEFAULTS, OPTIONS
+from layercalc.names import INPUT_CELLS, close_names, did_you_mean
 
 MAX_FILE_BYTES = 50_000_000           # the .xlsx file on disk
 MAX_UNCOMPRESSED_BYTES = 200_000_000  # sum of the zip entries' declared sizes
 MAX_ZIP_ENTRIES = 5_000
 MAX_CELLS = 500_000                   # cells read over the sheets used
-# Input cells the default formulas may read (layercalc.defaults: CELL_DEFAULTS and the
-# terrain and advection terms of the surface pressure tendency).
-KNOWN_CELLS = (*CELL_DEFAULTS, "upslope_wind", "terrain_slope", "pressure_advection",
-               "surface_pressure")
+# Input cells the default formulas may read (layercalc.names: the canonical input cells).
+KNOWN_CELLS = INPUT_CELLS
 TEXT_SETTINGS = ("title", "note")
 IDENTIFIER = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 CFB_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"  # OLE2 compound file: encrypted or .xls
@@ -372,9 +370,8 @@ class _TextBuilder:
                     (choice, name, value_cell)]
         if key not in known_cells or not IDENTIFIER.fullmatch(key):
             choices = [*TEXT_SETTINGS, *OPTIONS, *sorted(known_cells)]
-            close = difflib.get_close_matches(key, choices, n=2)
-            hint = ("did you mean " + " or ".join(f"'{c}'" for c in close) + "?") if close \
-                else "settings are: " + ", ".join(choices)
+            close = close_names(key, choices, 2)
+            hint = did_you_mean(close) or "settings are: " + ", ".join(choices)
             raise self.error(f"unknown setting '{key}'", name, cell_name(r, 1),
                              hint=hint + " (a value of your own must be read by a formula on "
                                          "the formulas sheet)")
