@@ -42,6 +42,10 @@ class Checker(TableChecker, ExpressionChecker):
         self.source = document.source
         self.problems: list[LayercalcError] = []
         self.notices: list[Notice] = []
+        # State the mixins share, declared here (tables.py and expressions.py use it):
+        self.dim_cache: dict = {}         # formula key -> derived dimension (None: in progress)
+        self.row_order = None             # the layer table's rows, surface first (tables.py)
+        self.sounding_details = None      # levels/stations details for the outputs (tables.py)
 
     def fail(self, error: LayercalcError) -> None:
         if isinstance(error, CycleError) and any(
@@ -91,7 +95,7 @@ class Checker(TableChecker, ExpressionChecker):
         sheet = self.formulas(definitions, columns, n_layers, options)
         sheet.title, sheet.notes, sheet.rows_given_top_first = title, notes, top_first
         sheet.document = self.document
-        sheet.soundings = getattr(self, "sounding_details", None)
+        sheet.soundings = self.sounding_details
         if scenarios and self.with_scenarios and not self.problems:
             from layercalc.checking.scenarios import check_scenarios
 
@@ -290,7 +294,6 @@ class Checker(TableChecker, ExpressionChecker):
                            f"'{d.name}' yourself"))
 
     def compile_definition(self, d: Definition, is_default: bool) -> Formula:
-        self.current_kind = d.kind
         expr = self.expr(d.expr, prefer_columns=d.kind == COLUMN)
         if expr.meta.shape == COLUMN and d.kind == CELL:
             raise DefinitionError(

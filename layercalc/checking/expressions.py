@@ -75,7 +75,7 @@ class ExpressionChecker:
             return sheet.input_columns[name].unit.dimension
         if kind == CELL and name in sheet.input_cells:
             return sheet.input_cells[name].unit.dimension
-        cache = self.__dict__.setdefault("dim_cache", {})
+        cache = self.dim_cache
         key = (kind, name)
         if key in cache:
             if cache[key] is None:
@@ -88,9 +88,7 @@ class ExpressionChecker:
             return dim
         cache[key] = None  # in progress
         try:
-            saved = getattr(self, "current_kind", None)
             expr = self.expr(d.expr, prefer_columns=d.kind == COLUMN)
-            self.current_kind = saved
         except _CycleSignal as signal:
             del cache[key]
             raise CycleError(

@@ -165,7 +165,7 @@ class TableChecker:
         return bool(top_first)
 
     def plausibility(self, table: Table, columns: dict[str, InputColumn]) -> None:
-        order = getattr(self, "row_order", np.arange(len(table.rows)))
+        order = self.row_order if self.row_order is not None else np.arange(len(table.rows))
         names = [h.name for h in table.headings]
         for name in ("T", "Td"):
             col = columns.get(name)
