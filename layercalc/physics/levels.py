@@ -180,11 +180,6 @@ def hydrostatic_consistency(pressure_bottom, pressure_top, observed_thickness,
     return HydrostaticCheck(hypsometric, difference, flagged, implied)
 
 
-def _hpa(pressure):
-    """Pressure in Pa as hPa text, e.g. '500 hPa'."""
-    return f"{pressure / 100.0:g} hPa"
-
-
 def _temperature_error(difference, log_pressure_ratio):
     """Error of ONE endpoint temperature that explains a thickness difference. [K]
 
@@ -194,8 +189,28 @@ def _temperature_error(difference, log_pressure_ratio):
     return -2.0 * G0 * difference / (RD * log_pressure_ratio)
 
 
+class HydrostaticFlag(NamedTuple):
+    """One suspected error behind hydrostatic flags (``diagnose_hydrostatic_flags``).
+
+    cause: "height" (the height at `level` is off by about `height_error`), "temperature"
+    (the temperature at `level` is off: `temperature_errors` from the layer below and above),
+    or "layer" (one layer off: a temperature at one of its levels by `temperature_errors[0]`,
+    or, at the column's ends, a height). Pressures in Pa, differences in m, errors in K.
+    """
+
+    cause: str
+    level: float | None                  # the shared level (height, temperature) [Pa]
+    pressure_bottom: float               # the (lower) flagged layer's bottom [Pa]
+    pressure_top: float                  # the (upper) flagged layer's top [Pa]
+    differences: tuple                   # observed minus hypsometric, per flagged layer [m]
+    height_error: float | None = None    # for "height": how far the height is off [m]
+    temperature_errors: tuple = ()       # for "temperature" and "layer" [K]
+    lowest: bool = False                 # "layer": it is the lowest layer
+    highest: bool = False                # "layer": it is the highest layer
+
+
 def diagnose_hydrostatic_flags(pressure_bottom, pressure_top, difference, flagged):
-    """Name the likely cause of hydrostatic flags on consecutive layers, in plain English.
+    """The likely cause of hydrostatic flags on consecutive layers.
 
     Layers are taken in the given order, consecutive and surface first (as from
     ``layers_from_levels``), with difference = observed - hypsometric thickness.
@@ -220,8 +235,8 @@ def diagnose_hydrostatic_flags(pressure_bottom, pressure_top, difference, flagge
 
     Returns
     -------
-    list of str
-        One message per suspected error; empty when nothing is flagged.
+    list of HydrostaticFlag
+        One per suspected error; empty when nothing is flagged.
     """
     pressure_bottom = np.asarray(pressure_bottom, dtype=float)
     pressure_top = np.asarray(pressure_top, dtype=float)
@@ -229,45 +244,33 @@ def diagnose_hydrostatic_flags(pressure_bottom, pressure_top, difference, flagge
     flagged = np.asarray(flagged, dtype=bool)
     log_ratio = np.log(pressure_bottom / pressure_top)
     layer_count = flagged.size
-    messages = []
+    found = []
     layer = 0
     while layer < layer_count:
         if not flagged[layer]:
             layer += 1
             continue
-        d1 = difference[layer]
+        d1 = float(difference[layer])
         nxt = layer + 1
         if (nxt < layer_count and flagged[nxt]
                 and pressure_top[layer] == pressure_bottom[nxt]):
-            d2 = difference[nxt]
-            shared = _hpa(pressure_top[layer])
+            d2 = float(difference[nxt])
+            shared = float(pressure_top[layer])
+            pair = (float(pressure_bottom[layer]), float(pressure_top[nxt]), (d1, d2))
             if np.sign(d1) != np.sign(d2) and abs(d1 + d2) <= PAIR_SIMILARITY * max(abs(d1), abs(d2)):
-                direction = "high" if d1 > 0 else "low"
-                messages.append(
-                    f"height at {shared} is likely mistyped: the layers below and above it "
-                    f"are off by {d1:+.0f} m and {d2:+.0f} m (observed minus hypsometric), "
-                    f"so the reported height is about {abs(d1):.0f} m too {direction}")
+                found.append(HydrostaticFlag("height", shared, *pair, height_error=d1))
                 layer += 2
                 continue
             if np.sign(d1) == np.sign(d2):
-                error_below = _temperature_error(d1, log_ratio[layer])
-                error_above = _temperature_error(d2, log_ratio[nxt])
-                messages.append(
-                    f"temperature at {shared} is likely wrong: the layers below and above "
-                    f"it are both off ({d1:+.0f} m, {d2:+.0f} m), as from a temperature "
-                    f"error of about {error_below:+.1f} K (from the layer below) or "
-                    f"{error_above:+.1f} K (from the layer above) at {shared}")
+                errors = (float(_temperature_error(d1, log_ratio[layer])),
+                          float(_temperature_error(d2, log_ratio[nxt])))
+                found.append(HydrostaticFlag("temperature", shared, *pair,
+                                             temperature_errors=errors))
                 layer += 2
                 continue
-        bottom, top = _hpa(pressure_bottom[layer]), _hpa(pressure_top[layer])
-        error = _temperature_error(d1, log_ratio[layer])
-        text = (f"layer {bottom} to {top} is off by {d1:+.0f} m (observed minus "
-                f"hypsometric): check the temperature at {bottom} or {top} (one of them "
-                f"off by about {error:+.1f} K would explain it)")
-        if layer == 0:
-            text += f", or the height at {bottom}, the lowest level"
-        if layer == layer_count - 1:
-            text += f", or the height at {top}, the highest level"
-        messages.append(text)
+        found.append(HydrostaticFlag(
+            "layer", None, float(pressure_bottom[layer]), float(pressure_top[layer]), (d1,),
+            temperature_errors=(float(_temperature_error(d1, log_ratio[layer])),),
+            lowest=layer == 0, highest=layer == layer_count - 1))
         layer += 1
-    return messages
+    return found

@@ -8,7 +8,6 @@ notices placed on the row of the level the diagnosis names.
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 
 import numpy as np
@@ -55,7 +54,7 @@ class Sounding:
 
 
 def hpa(pressure: float) -> str:
-    return f"{pressure / 100.0:g} hPa"  # as physics.levels writes pressures in messages
+    return f"{pressure / 100.0:g} hPa"
 
 
 def mean_over_soundings(values) -> np.ndarray:
@@ -259,20 +258,43 @@ def _level_virtual_temperature(s: Sounding) -> np.ndarray:
     return humidity.virtual_temperature(temperature, np.nan_to_num(r, nan=0.0))
 
 
-_PRESSURE_IN_TEXT = re.compile(r"(?:at|layer) (\S+) hPa(?: to (\S+) hPa)?")
+def describe_hydrostatic_flag(flag: level_physics.HydrostaticFlag) -> str:
+    """A hydrostatic diagnosis in words, naming the level or layer and the likely error."""
+    if flag.cause == "height":
+        d1, d2 = flag.differences
+        direction = "high" if d1 > 0 else "low"
+        return (f"height at {hpa(flag.level)} is likely mistyped: the layers below and above "
+                f"it are off by {d1:+.0f} m and {d2:+.0f} m (observed minus hypsometric), "
+                f"so the reported height is about {abs(d1):.0f} m too {direction}")
+    if flag.cause == "temperature":
+        d1, d2 = flag.differences
+        below, above = flag.temperature_errors
+        shared = hpa(flag.level)
+        return (f"temperature at {shared} is likely wrong: the layers below and above "
+                f"it are both off ({d1:+.0f} m, {d2:+.0f} m), as from a temperature "
+                f"error of about {below:+.1f} K (from the layer below) or "
+                f"{above:+.1f} K (from the layer above) at {shared}")
+    bottom, top = hpa(flag.pressure_bottom), hpa(flag.pressure_top)
+    text = (f"layer {bottom} to {top} is off by {flag.differences[0]:+.0f} m (observed minus "
+            f"hypsometric): check the temperature at {bottom} or {top} (one of them "
+            f"off by about {flag.temperature_errors[0]:+.1f} K would explain it)")
+    if flag.lowest:
+        text += f", or the height at {bottom}, the lowest level"
+    if flag.highest:
+        text += f", or the height at {top}, the highest level"
+    return text
 
 
-def _message_span(s: Sounding, message: str) -> Span:
+def _flag_span(s: Sounding, flag: level_physics.HydrostaticFlag) -> Span:
     """The row of the level a diagnosis names (both rows for a layer); the table if none."""
-    found = _PRESSURE_IN_TEXT.search(message)
-    texts = [f"{p / 100.0:g}" for p in s.pressure]
-    if found is None or found.group(1) not in texts:
+    levels = list(s.pressure)
+    if flag.level is not None:
+        return s.row_span(levels.index(flag.level)) if flag.level in levels else s.table.span
+    if flag.pressure_bottom not in levels or flag.pressure_top not in levels:
         return s.table.span
-    span = s.row_span(texts.index(found.group(1)))
-    if found.group(2) in texts:
-        other = s.row_span(texts.index(found.group(2)))
-        span = Span(span.source, min(span.start, other.start), max(span.end, other.end))
-    return span
+    low = s.row_span(levels.index(flag.pressure_bottom))
+    high = s.row_span(levels.index(flag.pressure_top))
+    return Span(low.source, min(low.start, high.start), max(low.end, high.end))
 
 
 def hydrostatic_check(s: Sounding, tolerance: float, notices: list[Notice]) -> dict:
@@ -289,11 +311,11 @@ def hydrostatic_check(s: Sounding, tolerance: float, notices: list[Notice]) -> d
                                                            _level_virtual_temperature(s))
     observed = np.diff(s.values["z"])
     check = level_physics.hydrostatic_consistency(p_bottom, p_top, observed, tv, tolerance)
-    messages = level_physics.diagnose_hydrostatic_flags(p_bottom, p_top, check.difference,
-                                                        check.flagged)
-    for message in messages:
-        notices.append(Notice(f"hydrostatic check, {s.name}: {message}",
-                              _message_span(s, message)))
+    flags = level_physics.diagnose_hydrostatic_flags(p_bottom, p_top, check.difference,
+                                                     check.flagged)
+    messages = [describe_hydrostatic_flag(flag) for flag in flags]
+    for flag, message in zip(flags, messages):
+        notices.append(Notice(f"hydrostatic check, {s.name}: {message}", _flag_span(s, flag)))
     return {"sounding": s.name, "tolerance": tolerance, "p_bottom": jsonable(p_bottom),
             "p_top": jsonable(p_top), "observed_thickness": jsonable(observed),
             "hypsometric_thickness": jsonable(check.hypsometric_thickness),

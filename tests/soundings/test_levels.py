@@ -21,6 +21,7 @@ from layercalc.errors import LayercalcError
 from layercalc.physics.levels import (
     diagnose_hydrostatic_flags, hydrostatic_consistency, layer_mean_wind, layers_from_levels,
 )
+from layercalc.soundings.levels import describe_hydrostatic_flag
 
 # USSA 1976 defining constants, written out here (not imported) so that a change of
 # layercalc.constants shows up as a test failure or a stated mismatch term.
@@ -229,9 +230,11 @@ def test_mistyped_height_at_500_hpa_is_named():
     p_bottom, p_top, check = check_column(pressure, height, temperature)
     assert list(np.flatnonzero(check.flagged)) == [level - 1, level]
     assert_allclose(check.difference[level - 1:level + 1], [error, -error], atol=2.0)
-    messages = diagnose_hydrostatic_flags(p_bottom, p_top, check.difference, check.flagged)
+    flags = diagnose_hydrostatic_flags(p_bottom, p_top, check.difference, check.flagged)
+    messages = [describe_hydrostatic_flag(flag) for flag in flags]
     assert len(messages) == 1
     assert messages[0].startswith("height at 500 hPa is likely mistyped")
+    assert flags[0].cause == "height" and flags[0].level == 50000.0   # the structured form
     stated = float(re.search(r"about (\d+) m too high", messages[0]).group(1))
     assert abs(stated - error) <= 2.0   # rounding of the reported heights, 1 m per layer
 
@@ -248,13 +251,15 @@ def test_mistyped_temperature_at_the_lowest_level_flags_one_layer():
     assert list(np.flatnonzero(check.flagged)) == [0]
     want = -RD / G0 * temperature_error / 2.0 * np.log(1000.0 / 925.0)   # hypsometric
     assert_allclose(check.difference[0], want, atol=1.0)   # plus height rounding <= 1 m
-    messages = diagnose_hydrostatic_flags(p_bottom, p_top, check.difference, check.flagged)
+    flags = diagnose_hydrostatic_flags(p_bottom, p_top, check.difference, check.flagged)
+    messages = [describe_hydrostatic_flag(flag) for flag in flags]
     assert len(messages) == 1
     assert "layer 1000 hPa to 925 hPa" in messages[0] and "temperature" in messages[0]
     stated = float(re.search(r"about ([+-][\d.]+) K", messages[0]).group(1))
     # inverse of the hypsometric shift; 1 m of height rounding is 0.9 K over this layer
     assert abs(stated - temperature_error) <= 1.0
     assert "height at 1000 hPa, the lowest level" in messages[0]
+    assert flags[0].cause == "layer" and flags[0].lowest and not flags[0].highest
 
 
 def test_mistyped_temperature_at_an_inner_level_is_named():
@@ -267,9 +272,11 @@ def test_mistyped_temperature_at_an_inner_level_is_named():
     assert list(np.flatnonzero(check.flagged)) == [level - 1, level]
     want = -RD / G0 * 4.5 * np.log(p_bottom[level - 1:level + 1] / p_top[level - 1:level + 1])
     assert_allclose(check.difference[level - 1:level + 1], want, atol=1.5)  # hypsometric
-    messages = diagnose_hydrostatic_flags(p_bottom, p_top, check.difference, check.flagged)
+    flags = diagnose_hydrostatic_flags(p_bottom, p_top, check.difference, check.flagged)
+    messages = [describe_hydrostatic_flag(flag) for flag in flags]
     assert len(messages) == 1
     assert messages[0].startswith("temperature at 500 hPa is likely wrong")
+    assert flags[0].cause == "temperature" and flags[0].level == 50000.0
     stated = [float(t) for t in re.findall(r"([+-]\d+\.\d) K", messages[0])]
     assert len(stated) == 2
     # inverse formula per layer; height rounding (<= 1 m) plus the layer's own trapezoid
