@@ -14,7 +14,7 @@ from layercalc.language.typed import CELL, COLUMN, Formula
 from layercalc.source import Source
 
 
-@dataclass
+@dataclass(frozen=True)
 class CheckedSheet:
     source: Source
     title: str

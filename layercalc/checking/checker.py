@@ -7,6 +7,7 @@ order), tables.py (the layers table) and expressions.py (typing expressions)."""
 from __future__ import annotations
 
 import graphlib
+from dataclasses import replace
 import math
 
 from layercalc.names import close_names
@@ -92,21 +93,19 @@ class Checker(TableChecker, ExpressionChecker):
             columns, n_layers, top_first = self.inputs(table)
         else:  # layers built from level tables / station soundings (soundings.py)
             columns, n_layers, top_first = table.columns, table.layer_count, False
-        sheet = self.formulas(definitions, columns, n_layers, options)
-        sheet.title, sheet.notes, sheet.rows_given_top_first = title, notes, top_first
-        sheet.document = self.document
-        sheet.soundings = self.sounding_details
+        sheet = replace(self.formulas(definitions, columns, n_layers, options), title=title,
+                        notes=notes, rows_given_top_first=top_first, document=self.document,
+                        soundings=self.sounding_details)
         if scenarios and self.with_scenarios and not self.problems:
             from layercalc.checking.scenarios import check_scenarios
 
             try:
-                sheet.scenarios = check_scenarios(self, sheet, scenarios)
+                sheet = replace(sheet, scenarios=check_scenarios(self, sheet, scenarios))
             except LayercalcError as exc:
                 self.fail(exc)
         if self.problems:
             raise first_with_all(self.problems)
-        sheet.notices = self.notices
-        return sheet
+        return replace(sheet, notices=self.notices)
 
     def option(self, st: Option, options: dict, spans: dict) -> None:
         if st.name not in OPTIONS:
@@ -180,8 +179,7 @@ class Checker(TableChecker, ExpressionChecker):
         sheet = CheckedSheet(self.source, "", [], dict(options), columns, cells, [], n_layers,
                              False, remarks=remarks, replaced_defaults=replaced,
                              prelude_text=text)
-        self.compile_all(sheet, formulas_in)
-        return sheet
+        return replace(sheet, formulas=self.compile_all(sheet, formulas_in))
 
     def canonical_inputs(self, columns, cells) -> bool:
         """The inputs the built-in diagnostics read must have the dimension they expect;
@@ -231,7 +229,8 @@ class Checker(TableChecker, ExpressionChecker):
         return [s for s in build_document(source, parse(source)).statements
                 if isinstance(s, Definition)]
 
-    def compile_all(self, sheet: CheckedSheet, formulas_in) -> None:
+    def compile_all(self, sheet: CheckedSheet, formulas_in) -> list[Formula]:
+        """The formulas compiled and in dependency order (none when they form a circle)."""
         graph: dict[tuple[str, str], set[tuple[str, str]]] = {}
         compiled: dict[tuple[str, str], Formula] = {}
         failed: set[tuple[str, str]] = set()
@@ -263,10 +262,11 @@ class Checker(TableChecker, ExpressionChecker):
             self.fail(CycleError("formulas depend on each other in a circle: "
                                  + " -> ".join(cycle), first.name_span, cycle,
                                  hint="one of them must be computed from other values"))
-            return
-        sheet.formulas = [compiled[k] for k in order if k in compiled]
+            return []
+        ordered = [compiled[k] for k in order if k in compiled]
         if in_defaults and not self.problems:
             self.blame_user_definitions(in_defaults, formulas_in)
+        return ordered
 
     def blame_user_definitions(self, errors, formulas_in) -> None:
         """A built-in formula fails only because of something the user defined under a

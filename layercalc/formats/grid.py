@@ -24,9 +24,8 @@ Two traps of GRIB files handled here, each with a test: NCEP packs u and v of a 
 one multi-field message, which ecCodes reads as u alone unless multi-field support is on
 (cfgrib switches it on; `grib_inventory` does too); and cfgrib drops a variable whose level
 set differs from the first one it met (GFS: relative humidity and omega have fewer levels
-than the winds), so every variable is opened with its own filter.
-
-May import: physics, errors, constants (see formats/__init__).
+than the winds), so every variable is opened with its own filter. The layering rule is
+formats/__init__'s.
 """
 
 from __future__ import annotations

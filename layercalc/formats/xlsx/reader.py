@@ -23,7 +23,7 @@ import math
 import re
 import zipfile
 import zlib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from layercalc.errors import LayercalcError, Notice, SpreadsheetError
@@ -304,7 +304,7 @@ class _TextBuilder:
                 self.notice(notice.message, *where)
             else:
                 self.notices.append(notice)
-        sheet.checked.notices = list(self.notices)
+        sheet.checked = replace(sheet.checked, notices=list(self.notices))
         return sheet
 
     def formula_lines(self) -> list[tuple[str, str, str]]:
