@@ -124,6 +124,34 @@ class OutputError(LayercalcError):
     kind = "output error"
 
 
+class MessageError(LayercalcError):
+    """A coded message (TEMP, PILOT, BUFR) that cannot be decoded.
+
+    Keeps the report (its identification, e.g. "TTAA 99901 day 08 12 UTC") and the
+    offending group; the position comes from the group's span (file:line:column, with the
+    caret under the group), or for BUFR from `location` (file:message N (byte B)).
+    """
+
+    kind = "message error"
+
+    def __init__(self, message: str, span: "Span | None" = None, report: str | None = None,
+                 group: str | None = None, hint: str | None = None,
+                 location: str | None = None) -> None:
+        self.report = report
+        self.group = group
+        if report:
+            message = f"{report}: {message}"
+        super().__init__(message, span, hint, location=location)
+
+    @property
+    def line(self) -> int | None:
+        return self.span.line if self.span is not None else None
+
+    @property
+    def column(self) -> int | None:
+        return self.span.column if self.span is not None else None
+
+
 class Notice:
     """A warning: a problem worth telling, that does not stop evaluation (plausibility, dewpoint above T)."""
 

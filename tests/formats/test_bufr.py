@@ -1,0 +1,112 @@
+"""BUFR radiosonde messages (real sample data, tests/data/README.md) through ecCodes.
+
+Expected values are what ecCodes itself returns for the same keys (the independent
+reference, version printed in the assertion messages); the network test runs three real
+soundings end to end to omega and the surface pressure tendency.
+"""
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+eccodes = pytest.importorskip("eccodes")
+
+import layercalc  # noqa: E402
+from layercalc.constants import G0  # noqa: E402
+from layercalc.errors import InputError  # noqa: E402
+from layercalc.formats import bufr  # noqa: E402
+from layercalc.formats.decoded import MessageError  # noqa: E402
+from layercalc.formats.soundings_input import (  # noqa: E402
+    detect_format, read_soundings, soundings_layers_text,
+)
+
+DATA = Path(__file__).parent.parent / "data"
+NETWORK = DATA / "temp_network_309007.bufr"
+HIRES = DATA / "temp_hires_309057.bufr"
+VERSION = eccodes.codes_get_api_version()
+
+
+def eccodes_levels(path, index):
+    """(pressure, height, T, Td, dir, speed) as ecCodes prints them, missing as NaN."""
+    with open(path, "rb") as handle_file:
+        for _ in range(index + 1):
+            handle = eccodes.codes_bufr_new_from_file(handle_file)
+    eccodes.codes_set(handle, "unpack", 1)
+    keys = ["airTemperature", "dewpointTemperature", "windDirection", "windSpeed"]
+    n = eccodes.codes_get_size(handle, "airTemperature")
+    values = {k: np.asarray(eccodes.codes_get_array(handle, k), float)[:n] for k in keys + ["pressure"]}
+    for key, scale in (("nonCoordinateGeopotentialHeight", 1.0), ("nonCoordinateGeopotential", 1.0 / G0)):
+        try:
+            values["height"] = np.asarray(eccodes.codes_get_array(handle, key), float)[:n] * scale
+            break
+        except eccodes.KeyValueNotFoundError:
+            continue
+    eccodes.codes_release(handle)
+    for k, v in values.items():
+        values[k] = np.where(np.abs(v) > 1e90, np.nan, np.where(v == 2147483647, np.nan, v))
+    return values
+
+
+@pytest.mark.parametrize("path, index, template", [(NETWORK, 0, "3 09 007"), (NETWORK, 2, "3 09 007"),
+                                                    (HIRES, 0, "3 09 057")])
+def test_levels_equal_what_eccodes_prints(path, index, template):
+    sounding = bufr.read_bufr(path).soundings[index]
+    want = eccodes_levels(path, index)
+    assert f"BUFR template {template}" in sounding.remarks
+    for ours, theirs in (("temperature", "airTemperature"), ("dewpoint", "dewpointTemperature"),
+                         ("wind_direction", "windDirection"), ("wind_speed", "windSpeed"),
+                         ("height", "height")):
+        for p, value in zip(want["pressure"], want[theirs]):
+            k = np.flatnonzero(sounding.pressure == p)
+            assert k.size == 1
+            got = getattr(sounding, ours)[k[0]]
+            if np.isnan(value):
+                continue   # a level repeated at one pressure may fill the gap from its twin
+            assert got == pytest.approx(value, rel=1e-12), f"{ours} at {p} Pa (ecCodes {VERSION})"
+
+
+def test_station_position_elevation_and_time_from_the_message():
+    d = bufr.read_bufr(HIRES)
+    s = d.soundings[0]
+    # ecCodes 2.x prints for this message: 47.8341 N 10.8667 E, ground 760 m, 2025-02-23 10:45
+    assert (s.latitude, s.longitude, s.elevation) == (pytest.approx(47.8341), pytest.approx(10.8667), 760.0)
+    assert s.time == "2025-02-23 10:45 UTC" and s.position_source == "the BUFR message"
+    assert any("balloon drift" in r for r in s.remarks)
+
+
+def test_geopotential_of_the_old_template_is_divided_by_g0():
+    s = bufr.read_bufr(NETWORK).soundings[0]
+    # ecCodes gives 0 10 003 in m2 s-2; the surface of the first station: heightOfStation
+    # 33 m in the same message, so geopotential / g0 near the surface is near 33 m
+    assert s.height[0] == pytest.approx(s.elevation, abs=5.0)
+
+
+def test_real_three_station_network_end_to_end():
+    decoded = read_soundings(NETWORK, stations=["17062", "17130", "17240"])
+    text = soundings_layers_text(decoded)
+    assert text.count('station "') == 3 and "cell surface_height" in text
+    sheet = layercalc.loads(text)
+    result = sheet.evaluate()
+    si = result.si_cells
+    layers = result.si_layers
+    # the omega of the column is the integral of the network divergence (continuity):
+    # d(omega)/dp = -div, so from the top (the default) omega_surface = omega_top - sum(div dp)
+    integral = float((layers["div"] * (layers["p_bottom"] - layers["p_top"])).sum())
+    assert si["omega_surface"] == pytest.approx(si["omega_top"] - integral, rel=1e-9)
+    assert np.isfinite(si["surface_pressure_tendency"])
+    block = text.split('station "17062"')[1].split("  end")[0].strip().splitlines()
+    rows = len(block) - 3                  # minus the station line, "levels" and the header
+    assert len(layers) == rows - 1         # consecutive levels become layers
+
+
+def test_format_is_recognised_by_content():
+    assert detect_format(NETWORK.read_bytes(), "x") == "bufr"
+    with pytest.raises(InputError):
+        detect_format(b"\x00\x01 nothing", "x")
+
+
+def test_a_cut_off_message_is_an_error_with_its_byte():
+    data = NETWORK.read_bytes()[:3000]
+    with pytest.raises(MessageError, match="byte"):
+        bufr.parse_bufr(data, "cut.bufr")
