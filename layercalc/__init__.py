@@ -16,17 +16,17 @@ names the public API. The API itself is loaded on first use, so that `import lay
 from layercalc.caution import CAUTION
 from layercalc.errors import (
     CycleError, DefinitionError, EvaluationError, InputError, LayercalcError,
-    LayercalcSyntaxError, Notice, OutputError, SpreadsheetError, UnitError, UnknownNameError,
+    LayercalcSyntaxError, MessageError, Notice, OutputError, SpreadsheetError, UnitError, UnknownNameError,
 )
 from layercalc.version import __version__
 
-_FROM_API = ("Result", "Sheet", "load", "loads", "problems")
+_FROM_API = ("Result", "Sheet", "load", "loads", "problems", "read_soundings", "soundings_text")
 
 __all__ = [
     "CAUTION", "CycleError", "DefinitionError", "EvaluationError", "InputError",
-    "LayercalcError", "LayercalcSyntaxError", "Notice", "OutputError", "Result", "Sheet",
-    "SpreadsheetError", "UnitError", "UnknownNameError", "__version__", "load", "loads",
-    "problems",
+    "LayercalcError", "LayercalcSyntaxError", "MessageError", "Notice", "OutputError",
+    "Result", "Sheet", "SpreadsheetError", "UnitError", "UnknownNameError", "__version__",
+    "load", "loads", "problems", "read_soundings", "soundings_text",
 ]
 
 

@@ -55,6 +55,27 @@ def _compile(source: Source, reuse_checks: bool = False):
     return checked
 
 
+def read_soundings(path: str | Path, format: str | None = None, stations=None, near=None,
+                   station_table=None):
+    """Soundings from a TEMP/PILOT bulletin, a BUFR file or a text table (format by content).
+
+    Returns a `layercalc.formats.decoded.Decoded`: `.soundings` (levels surface first, SI),
+    `.all_notices`. `stations` picks identifiers; `near=(lat, lon, radius_km)` picks by
+    distance; `station_table` is a CSV id,latitude,longitude,elevation for land stations.
+    """
+    from layercalc.formats.soundings_input import read_soundings as read
+
+    return read(path, format=format, stations=stations, near=near, station_table=station_table)
+
+
+def soundings_text(decoded) -> str:
+    """A `.layers` text from `read_soundings`' result: a levels block for one sounding,
+    station blocks for several (ready for the network divergence)."""
+    from layercalc.formats.soundings_input import soundings_layers_text
+
+    return soundings_layers_text(decoded)
+
+
 def problems(path_or_text: str | Path, *, is_text: bool = False) -> list[LayercalcError]:
     """Every problem found in a file (or text), without raising: for `layercalc check`.
 

@@ -152,8 +152,38 @@ def command_import(args) -> int:
 
     need_suffix(args.output, (".layers",), "the sheet")
     refuse_overwrite(args.output, args.force)
+    sounding_options = args.stations or args.near or args.station_table
+    is_book = (args.format == "xlsx" or (args.format is None and
+               Path(args.workbook).suffix.lower() in (".xlsx", ".xlsm")))
+    if is_book and sounding_options:
+        raise InputError("--stations, --near and --station-table are for soundings, not workbooks")
+    if not is_book:
+        text = _soundings_text(args)
+        loads(text, name=args.output)  # refuse to write a sheet that would not load
+        write_text_atomic(args.output, text)
+        print(f"wrote {args.output}", file=sys.stderr)
+        return 0
     text = module.read_workbook(Path(args.workbook), loads)
     loads(text, name=args.workbook)  # refuse to write a sheet that would not load
     write_text_atomic(args.output, text)
     print(f"wrote {args.output}", file=sys.stderr)
     return 0
+
+
+def _soundings_text(args) -> str:
+    from layercalc.formats.soundings_input import read_soundings, soundings_layers_text
+
+    stations = [s.strip() for s in args.stations.split(",") if s.strip()] if args.stations else None
+    near = None
+    if args.near:
+        try:
+            near = tuple(float(x) for x in args.near.split(","))
+        except ValueError:
+            near = ()
+        if len(near) != 3:
+            raise InputError(f"--near {args.near}: expected LAT,LON,RADIUS_KM, e.g. 45.0,-30.0,400")
+    decoded = read_soundings(args.workbook, format=args.format, stations=stations, near=near,
+                             station_table=args.station_table)
+    for notice in decoded.all_notices:
+        print(notice.format(), file=sys.stderr)
+    return soundings_layers_text(decoded)

@@ -123,12 +123,23 @@ def build_parser() -> argparse.ArgumentParser:
                         help="the workbook to write (.xlsx)")
     export.set_defaults(handler=command_export)
 
-    read = _command(sub, "import", "turn an .xlsx workbook into a .layers file",
-                    "layercalc import filled_in.xlsx -o my_column.layers")
-    read.add_argument("workbook", metavar="WORKBOOK", help="an .xlsx workbook")
+    read = _command(sub, "import", "turn a workbook or soundings into a .layers file",
+                    "layercalc import filled_in.xlsx -o my_column.layers\n"
+                    "layercalc import bulletin.txt --stations 99901 -o sounding.layers\n"
+                    "layercalc import obs.bufr --near 45.0,-30.0,400 -o network.layers")
+    read.add_argument("workbook", metavar="FILE",
+                      help="an .xlsx workbook, a TEMP/PILOT bulletin, a BUFR file or a text "
+                           "table (recognised by content)")
     read.add_argument("-o", "--output", metavar="FILE", required=True,
                       help="the .layers file to write")
     read.add_argument("--force", action="store_true", help="replace FILE if it exists")
+    read.add_argument("--format", choices=("xlsx", "temp", "bufr", "table"),
+                      help="the input's format, when recognising it by content is not wanted")
+    read.add_argument("--stations", metavar="ID,ID", help="soundings of these stations only")
+    read.add_argument("--near", metavar="LAT,LON,RADIUS_KM",
+                      help="soundings within RADIUS_KM of a point")
+    read.add_argument("--station-table", metavar="FILE",
+                      help="CSV id,latitude,longitude,elevation for land stations")
     read.set_defaults(handler=command_import)
 
     sweep = _command(sub, "sweep", "vary one or two input cells and tabulate results",
