@@ -52,6 +52,8 @@ import json
 import math
 from pathlib import Path
 
+import numpy as np
+
 from layercalc.language import units as U
 
 LAYER_KEYS = ("p_bottom", "p_top", "T", "Tv", "div", "thickness", "z_bottom", "z_top",
@@ -195,32 +197,59 @@ def result_document(sheet, result) -> dict:
 
 def soundings_document(checked) -> dict | None:
     """The "soundings" key of a result document (see the module docstring), from the
-    details soundings.py keeps in checked.soundings; None for a sheet with a layers table."""
+    details the soundings stage keeps in checked.soundings (soundings.details); None for a
+    sheet with a layers table."""
     details = checked.soundings
-    if not details:
+    if details is None:
         return None
     units = dict(SOUNDINGS_UNITS)
-    for name in details["column_levels"]:
+    for name in details.column_levels:
         if name in checked.column_names:
             units[name] = U.si_unit_text(checked.unit_of(name, "column").dimension)
     network = None
-    if details.get("stations"):
-        given = details["stations"]
-        levels = dict(given["levels"])
-        levels["u_at_centroid"] = levels.pop("u")
-        levels["v_at_centroid"] = levels.pop("v")
-        network = {**{key: given[key] for key in NETWORK_KEYS},
-                   "stations": [dict(station) for station in given["stations"]],
-                   "levels": levels, "layer_divergence": list(given["layer_divergence"])}
+    if details.network is not None:
+        given = details.network
+        network = {**{key: float(getattr(given, key)) for key in NETWORK_KEYS},
+                   "stations": [{"name": s.name, "latitude": s.latitude,
+                                 "longitude": s.longitude, "x": s.x, "y": s.y,
+                                 "u": jsonable(s.u), "v": jsonable(s.v)}
+                                for s in given.stations],
+                   "levels": _arrays(given.levels, LEVEL_KEYS),
+                   "layer_divergence": jsonable(given.layer_divergence)}
+    wind = details.layer_wind
     return {
-        "thermodynamics_from": details["thermodynamics_from"],
-        "hydrostatic_tolerance": details["hydrostatic_tolerance"],
+        "thermodynamics_from": details.thermodynamics_from,
+        "hydrostatic_tolerance": details.hydrostatic_tolerance,
         "units": units,
-        "column_levels": dict(details["column_levels"]),
+        "column_levels": {name: jsonable(values)
+                          for name, values in details.column_levels.items()},
         "network": network,
-        "layer_wind": dict(details["layer_wind"]) if details.get("layer_wind") else None,
-        "hydrostatic": [dict(table) for table in details["hydrostatic"]],
+        "layer_wind": None if wind is None else _arrays(wind, ("p_bottom", "p_top", "u", "v")),
+        "hydrostatic": [{"sounding": table.sounding, "tolerance": table.tolerance,
+                         **_arrays(table, HYDROSTATIC_KEYS), "messages": list(table.messages)}
+                        for table in details.hydrostatic],
     }
+
+
+LEVEL_KEYS = ("pressure", "divergence", "divergence_interpolated", "vorticity",
+              "stations_used", "u_at_centroid", "v_at_centroid")
+HYDROSTATIC_KEYS = ("p_bottom", "p_top", "observed_thickness", "hypsometric_thickness",
+                    "difference", "flagged", "implied_virtual_temperature")
+
+
+def _arrays(record, keys) -> dict:
+    """Named arrays of a details record as JSON lists."""
+    return {key: jsonable(getattr(record, key)) for key in keys}
+
+
+def jsonable(values) -> list:
+    """Floats (None for NaN), booleans or integers, for JSON."""
+    array = np.asarray(values)
+    if array.dtype == bool:
+        return [bool(x) for x in array]
+    if array.dtype.kind in "iu":
+        return [int(x) for x in array]
+    return [None if not np.isfinite(x) else float(x) for x in array.astype(float)]
 
 
 def scenarios_document(sheet, names: list[str]) -> dict:

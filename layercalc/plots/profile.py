@@ -206,9 +206,10 @@ def figure_size(sheet) -> tuple[float, float]:
     return width, height
 
 
-def _station_details(sheet) -> dict | None:
+def _station_details(sheet):
+    """The sheet's sounding details when it has a station network, else None."""
     details = sheet.checked.soundings
-    return details if details and details.get("stations") else None
+    return details if details is not None and details.network is not None else None
 
 
 def profile_figure(sheet, scenario: str | None = None,

@@ -30,7 +30,7 @@ KEY_SPEEDS_KT = (5, 10, 20, 25, 50, 100)
 
 
 def _floats(values) -> np.ndarray:
-    return np.array([math.nan if v is None else float(v) for v in values], dtype=float)
+    return np.asarray(values, dtype=float)
 
 
 def check_level(level_hpa) -> float:
@@ -51,17 +51,17 @@ def level_index(pressures_pa, level_hpa: float) -> int:
     return int(np.flatnonzero(distance == distance.min())[0])  # surface first: higher p
 
 
-def plane_winds(network: dict, level: int) -> tuple[np.ndarray, np.ndarray]:
+def plane_winds(network, level: int) -> tuple[np.ndarray, np.ndarray]:
     """Each station's wind at `level` in the plane's (x, y) components [m/s] (NaN where a
     station has none): the reported (east, north) wind turned by the station's north angle
     (physics.stations.tangent_plane_coordinates, rotate_wind_to_plane)."""
-    members = network["stations"]
-    latitudes = np.array([s["latitude"] for s in members], dtype=float)
-    longitudes = np.array([s["longitude"] for s in members], dtype=float)
+    members = network.stations
+    latitudes = np.array([s.latitude for s in members], dtype=float)
+    longitudes = np.array([s.longitude for s in members], dtype=float)
     _, _, north_angle = station_physics.tangent_plane_coordinates(
-        latitudes, longitudes, network["centroid_latitude"], network["centroid_longitude"])
-    u = np.array([_floats(s["u"])[level] for s in members])
-    v = np.array([_floats(s["v"])[level] for s in members])
+        latitudes, longitudes, network.centroid_latitude, network.centroid_longitude)
+    u = np.array([_floats(s.u)[level] for s in members])
+    v = np.array([_floats(s.v)[level] for s in members])
     return station_physics.rotate_wind_to_plane(u, v, north_angle)
 
 
@@ -84,19 +84,19 @@ def _key_speed(largest_kt: float) -> int:
     return fitting[-1]
 
 
-def station_panel(ax, details: dict, level_hpa: float = DEFAULT_LEVEL_HPA) -> int:
+def station_panel(ax, details, level_hpa: float = DEFAULT_LEVEL_HPA) -> int:
     """Draw the station network and its winds at the level nearest `level_hpa` on `ax`;
     returns the index of the level drawn (surface first, as in the details)."""
     from layercalc.language.unit_text import parse_unit_string
 
     knot = parse_unit_string("kt")
     km = parse_unit_string("km")
-    network = details["stations"]
-    levels = network["levels"]
-    level = level_index(levels["pressure"], level_hpa)
-    members = network["stations"]
-    x = km.from_si(np.array([s["x"] for s in members], dtype=float))
-    y = km.from_si(np.array([s["y"] for s in members], dtype=float))
+    network = details.network
+    levels = network.levels
+    level = level_index(levels.pressure, level_hpa)
+    members = network.stations
+    x = km.from_si(np.array([s.x for s in members], dtype=float))
+    y = km.from_si(np.array([s.y for s in members], dtype=float))
     ox, oy = _outline(x, y)
     ax.plot(ox, oy, color="grey", linewidth=0.8, gid="network_outline")
     ax.plot(x, y, "o", color=STATION_COLOUR, markersize=5, gid="stations",
@@ -105,8 +105,8 @@ def station_panel(ax, details: dict, level_hpa: float = DEFAULT_LEVEL_HPA) -> in
             label="centroid (fitted wind)")
 
     u_plane, v_plane = plane_winds(network, level)
-    fit_u = _floats(levels["u"])[level]  # at the origin the plane's axes are east, north
-    fit_v = _floats(levels["v"])[level]
+    fit_u = _floats(levels.u_at_centroid)[level]  # at the origin the plane's axes are east, north
+    fit_v = _floats(levels.v_at_centroid)[level]
     speeds = np.hypot(np.append(u_plane, fit_u), np.append(v_plane, fit_v))
     largest = np.nanmax(speeds) if np.isfinite(speeds).any() else 1.0
     extent = max(np.ptp(x), np.ptp(y), 1e-3)
@@ -121,16 +121,16 @@ def station_panel(ax, details: dict, level_hpa: float = DEFAULT_LEVEL_HPA) -> in
     ax.quiverkey(quiver, 0.70, 0.95, float(knot.to_si(key)), f"{key} kt", labelpos="W",
                  coordinates="axes")
 
-    u_given = np.array([_floats(s["u"])[level] for s in members])
-    v_given = np.array([_floats(s["v"])[level] for s in members])
+    u_given = np.array([_floats(s.u)[level] for s in members])
+    v_given = np.array([_floats(s.v)[level] for s in members])
     direction, speed = winds.wind_direction_and_speed(u_given, v_given)
     for i, station in enumerate(members):
         wind = ("no wind" if not np.isfinite(speed[i]) else
                 f"{direction[i]:03.0f}\N{DEGREE SIGN} {knot.from_si(speed[i]):.0f} kt")
-        ax.annotate(f"{station['name']}\n{wind}", (x[i], y[i]),
+        ax.annotate(f"{station.name}\n{wind}", (x[i], y[i]),
                     xytext=_label_offset(u_plane[i], v_plane[i]), textcoords="offset points",
                     ha="center", va="center", fontsize="small",
-                    gid=f"label_{station['name']}")
+                    gid=f"label_{station.name}")
 
     tips_x = np.concatenate([x, [0.0], x + np.nan_to_num(u_plane) / scale])
     tips_y = np.concatenate([y, [0.0], y + np.nan_to_num(v_plane) / scale])
@@ -142,13 +142,13 @@ def station_panel(ax, details: dict, level_hpa: float = DEFAULT_LEVEL_HPA) -> in
     ax.set_ylabel("y (km; north at the centroid)")
     ax.grid(True, alpha=0.3)
     ax.legend(loc="upper left", fontsize="small")
-    pressure_hpa = float(levels["pressure"][level]) / 100.0
+    pressure_hpa = float(levels.pressure[level]) / 100.0
     per_second = parse_unit_string("1e-5 s^-1")
-    divergence = _floats(levels["divergence"])[level]
-    vorticity = _floats(levels["vorticity"])[level]
+    divergence = _floats(levels.divergence)[level]
+    vorticity = _floats(levels.vorticity)[level]
     vorticity_text = ("-" if not math.isfinite(vorticity)
                       else f"{per_second.from_si(vorticity):+.2f}")
-    note = " (interpolated)" if levels["divergence_interpolated"][level] else ""
+    note = " (interpolated)" if levels.divergence_interpolated[level] else ""
     ax.set_title(f"stations, winds at {pressure_hpa:g} hPa\ndivergence "
                  f"{per_second.from_si(divergence):+.2f}{note}, vorticity {vorticity_text} "
                  "(1e-5 s^-1)", fontsize="medium")

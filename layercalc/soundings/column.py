@@ -26,9 +26,9 @@ Called by the checker when a file has no `layers` table. What it does, in order:
   winds, at the same levels.
 
 Display units of the built columns: p_bottom, p_top [hPa]; T, Td, Tv [degC]; div
-[1e-5 s^-1]; RH [%]; r [g/kg]; any other column its header's unit. Details (per-level
-divergence and vorticity, the network's centroid and area, hydrostatic tables, layer-mean
-winds) are in SI, with their units under "units".
+[1e-5 s^-1]; RH [%]; r [g/kg]; any other column its header's unit. Details for the
+outputs (per-level divergence and vorticity, the network's centroid and area, hydrostatic
+tables, layer-mean winds) are soundings.details dataclasses, in SI.
 """
 
 from __future__ import annotations
@@ -41,9 +41,12 @@ from layercalc.language import units as U
 from layercalc.language.inputs import InputColumn
 from layercalc.language.unit_text import parse_unit_string
 from layercalc.errors import DefinitionError, Notice
+from layercalc.soundings.details import (
+    LayerWind, Network, NetworkLevels, NetworkStation, SoundingDetails,
+)
 from layercalc.soundings.levels import (
     LEVEL_ONLY, WIND_NAMES, Sounding, cell_definition, fill_gaps, hpa, hydrostatic_check,
-    jsonable, length_cell, level_notices, mean_over_soundings, read_sounding,
+    length_cell, level_notices, mean_over_soundings, read_sounding,
 )
 from layercalc.language.nodes import Station, Table
 from layercalc.physics import levels as level_physics, stations as station_physics
@@ -51,12 +54,6 @@ from layercalc.physics import levels as level_physics, stations as station_physi
 DISPLAY_UNITS = {"p_bottom": "hPa", "p_top": "hPa", "T": "degC", "Td": "degC", "Tv": "degC",
                  "RH": "%", "r": "g/kg", "div": "1e-5 s^-1"}
 TOLERANCE_CELL = "hydrostatic_tolerance"
-DETAIL_UNITS = {"pressure": "Pa", "p_bottom": "Pa", "p_top": "Pa", "divergence": "s^-1",
-                "vorticity": "s^-1", "u": "m/s", "v": "m/s", "area": "m^2", "x": "m",
-                "y": "m", "latitude": "deg", "longitude": "deg", "separation": "m",
-                "thickness": "m", "difference": "m", "tolerance": "m", "T": "K", "Td": "K",
-                "z": "m", "implied_virtual_temperature": "K", "smallest_angle": "deg",
-                "layer_divergence": "s^-1"}
 
 
 @dataclass
@@ -66,7 +63,7 @@ class SoundingLayers:
     columns: dict[str, InputColumn]
     layer_count: int
     notices: list[Notice] = field(default_factory=list)
-    details: dict = field(default_factory=dict)
+    details: SoundingDetails | None = None
 
 
 def _column_levels(main, network, notices) -> tuple[dict, dict, str]:
@@ -176,7 +173,7 @@ def _read_network(checker, stations: list[Station]) -> _Network:
 POLAR_LATITUDE = 85.0
 
 
-def _divergence(network: _Network, notices: list[Notice]) -> tuple[np.ndarray, dict]:
+def _divergence(network: _Network, notices: list[Notice]) -> tuple[np.ndarray, Network]:
     """Divergence per level (inner gaps interpolated in ln p) and the details of the fit."""
     winds = [s.wind() for s in network.soundings]
     u = np.stack([w[0] for w in winds], axis=-1)  # (levels, stations)
@@ -224,21 +221,18 @@ def _divergence(network: _Network, notices: list[Notice]) -> tuple[np.ndarray, d
     x, y, _ = station_physics.tangent_plane_coordinates(network.latitudes, network.longitudes,
                                                         *centre)
     shape = result.shape
-    details = {
-        "centroid_latitude": centre[0], "centroid_longitude": centre[1],
-        "area": result.area, "smallest_angle": shape.smallest_angle_deg,
-        "collinearity": shape.collinearity, "smallest_separation": shape.smallest_separation,
-        "largest_separation": shape.largest_separation,
-        "levels": {"pressure": jsonable(pressure), "divergence": jsonable(filled),
-                   "divergence_interpolated": jsonable(~np.isfinite(divergence)),
-                   "vorticity": jsonable(result.vorticity),
-                   "stations_used": [int(n) for n in np.atleast_1d(result.fit.stations_used)],
-                   "u": jsonable(result.fit.u_at_origin), "v": jsonable(result.fit.v_at_origin)},
-        "stations": [{"name": st.name, "latitude": st.latitude, "longitude": st.longitude,
-                      "x": float(x[i]), "y": float(y[i]), "u": jsonable(u[:, i]),
-                      "v": jsonable(v[:, i])} for i, st in enumerate(network.stations)],
-    }
-    return filled, details
+    levels = NetworkLevels(pressure, filled, ~np.isfinite(divergence),
+                           np.asarray(result.vorticity, dtype=float),
+                           np.atleast_1d(result.fit.stations_used).astype(int),
+                           np.asarray(result.fit.u_at_origin, dtype=float),
+                           np.asarray(result.fit.v_at_origin, dtype=float))
+    stations = tuple(NetworkStation(st.name, st.latitude, st.longitude, float(x[i]), float(y[i]),
+                                    u[:, i], v[:, i]) for i, st in enumerate(network.stations))
+    layer_divergence = level_physics.layers_from_levels(pressure, filled)[2]
+    return filled, Network(float(centre[0]), float(centre[1]), float(result.area),
+                           float(shape.smallest_angle_deg), float(shape.collinearity),
+                           float(shape.smallest_separation), float(shape.largest_separation),
+                           stations, levels, layer_divergence)
 
 
 # ---------------------------------------------------------------- the entry point
@@ -271,11 +265,9 @@ def layers_from_soundings(checker, level_tables: list[Table],
     heights = [s.values["z"] for s in ([main] if main else soundings) if "z" in s.values]
     if heights:  # observed heights at the column's levels (station mean), for the report
         heights = mean_over_soundings(heights)
-    details: dict = {"units": DETAIL_UNITS, "thermodynamics_from": source,
-                     "hydrostatic_tolerance": tolerance,
-                     "column_levels": {"pressure": jsonable(pressure),
-                                       **{n: jsonable(v) for n, v in levels.items()},
-                                       "z": jsonable(heights)}}
+    column_levels = {"pressure": pressure, **levels,
+                     "z": heights if len(heights) else np.array([])}
+    network_details = layer_wind = None
     if main is not None and network is not None:
         if main.pressure.size != network.pressure.size or not np.array_equal(
                 main.pressure, network.pressure):
@@ -297,20 +289,19 @@ def layers_from_soundings(checker, level_tables: list[Table],
             raise DefinitionError("div is given in a table and also comes from the station "
                                   "winds", span_of["div"],
                                   hint="remove the div column, or the stations' winds")
-        levels["div"], details["stations"] = _divergence(network, notices)
+        levels["div"], network_details = _divergence(network, notices)
         units["div"] = parse_unit_string("1e-5 s^-1")
         span_of["div"] = network.stations[0].span
-        details["stations"]["layer_divergence"] = jsonable(
-            level_physics.layers_from_levels(pressure, levels["div"])[2])
     if main is not None and main.wind() is not None:
         p_bottom, p_top, u, v = level_physics.layer_mean_wind(main.pressure, *main.wind())
-        details["layer_wind"] = {"p_bottom": jsonable(p_bottom), "p_top": jsonable(p_top),
-                                 "u": jsonable(u), "v": jsonable(v)}
-    details["hydrostatic"] = [hydrostatic_check(s, tolerance, notices) for s in soundings
-                              if "z" in s.values and "T" in s.values]
+        layer_wind = LayerWind(p_bottom, p_top, u, v)
+    hydrostatic = tuple(hydrostatic_check(s, tolerance, notices) for s in soundings
+                        if "z" in s.values and "T" in s.values)
     _surface_height_notice(checker, main if main is not None else network.soundings,
                            tolerance, notices)
     columns = _columns(pressure, levels, units, span_of)
+    details = SoundingDetails(source, tolerance, column_levels, network_details, layer_wind,
+                              hydrostatic)
     return SoundingLayers(columns, pressure.size - 1, notices, details)
 
 

@@ -19,6 +19,7 @@ from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError
 from layercalc.language.nodes import Definition, Literal, Table, Unary
 from layercalc.physics import humidity, levels as level_physics
 from layercalc.physics.winds import wind_components
+from layercalc.soundings.details import HydrostaticTable
 from layercalc.source import Span
 
 WIND_NAMES = ("dir", "speed", "u", "v")
@@ -63,14 +64,6 @@ def mean_over_soundings(values) -> np.ndarray:
     count = np.isfinite(values).sum(axis=0)
     total = np.where(np.isfinite(values), values, 0.0).sum(axis=0)
     return np.where(count > 0, total / np.maximum(count, 1), np.nan)
-
-
-def jsonable(values) -> list:
-    """Floats (None for NaN) or booleans, for JSON."""
-    array = np.asarray(values)
-    if array.dtype == bool:
-        return [bool(x) for x in array]
-    return [None if not np.isfinite(x) else float(x) for x in array.astype(float)]
 
 
 # ---------------------------------------------------------------- reading one table
@@ -297,7 +290,8 @@ def _flag_span(s: Sounding, flag: level_physics.HydrostaticFlag) -> Span:
     return Span(low.source, min(low.start, high.start), max(low.end, high.end))
 
 
-def hydrostatic_check(s: Sounding, tolerance: float, notices: list[Notice]) -> dict:
+def hydrostatic_check(s: Sounding, tolerance: float,
+                      notices: list[Notice]) -> HydrostaticTable:
     """Hydrostatic consistency of one sounding's reported heights; notices for the flags.
 
     Per layer between consecutive levels (physics.levels.hydrostatic_consistency):
@@ -305,7 +299,7 @@ def hydrostatic_check(s: Sounding, tolerance: float, notices: list[Notice]) -> d
     Tv_mean = (Tv_bottom + Tv_top) / 2 from Tv at the levels (Tv linear in ln p); a layer
     is flagged when |dz_obs - dz_hyp| > tolerance [m]. The likely cause of each flag
     (physics.levels.diagnose_hydrostatic_flags) becomes a notice on the row of the level
-    it names (both rows for a layer). Returns the table, in SI, for the details.
+    it names (both rows for a layer). Returns the table, in SI, for the outputs.
     """
     p_bottom, p_top, tv = level_physics.layers_from_levels(s.pressure,
                                                            _level_virtual_temperature(s))
@@ -316,9 +310,6 @@ def hydrostatic_check(s: Sounding, tolerance: float, notices: list[Notice]) -> d
     messages = [describe_hydrostatic_flag(flag) for flag in flags]
     for flag, message in zip(flags, messages):
         notices.append(Notice(f"hydrostatic check, {s.name}: {message}", _flag_span(s, flag)))
-    return {"sounding": s.name, "tolerance": tolerance, "p_bottom": jsonable(p_bottom),
-            "p_top": jsonable(p_top), "observed_thickness": jsonable(observed),
-            "hypsometric_thickness": jsonable(check.hypsometric_thickness),
-            "difference": jsonable(check.difference), "flagged": jsonable(check.flagged),
-            "implied_virtual_temperature": jsonable(check.implied_virtual_temperature),
-            "messages": messages}
+    return HydrostaticTable(s.name, tolerance, p_bottom, p_top, observed,
+                            check.hypsometric_thickness, check.difference, check.flagged,
+                            check.implied_virtual_temperature, tuple(flags), tuple(messages))

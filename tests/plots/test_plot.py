@@ -148,8 +148,8 @@ def quiver(ax, gid: str):
 def projection(network):
     import pyproj
 
-    return pyproj.Proj(proj="stere", lat_0=network["centroid_latitude"],
-                       lon_0=network["centroid_longitude"], k_0=1.0, R=RADIUS)
+    return pyproj.Proj(proj="stere", lat_0=network.centroid_latitude,
+                       lon_0=network.centroid_longitude, k_0=1.0, R=RADIUS)
 
 
 def downwind_direction(project, latitude, longitude, direction_from_deg):
@@ -167,7 +167,7 @@ def downwind_direction(project, latitude, longitude, direction_from_deg):
 @pytest.mark.parametrize("asked, drawn", [(500.0, 500), (480.0, 500), (620.0, 700)])
 def test_station_panel_positions_and_winds(asked, drawn):
     sheet = layercalc.load(THREE)
-    network = sheet.checked.soundings["stations"]
+    network = sheet.checked.soundings.network
     figure = profile_figure(sheet, station_level=asked)
     ax = station_axes(figure)
     project = projection(network)
@@ -188,15 +188,15 @@ def test_station_panel_positions_and_winds(asked, drawn):
         assert angle < 0.01  # degrees; the north angle here is 0.6 to 1.6 degrees
         label = next(t for t in ax.texts if t.get_gid() == f"label_{name}")
         assert label.get_text() == f"{name}\n{direction:03d}\N{DEGREE SIGN} {speed_kt} kt"
-    level = network["levels"]["pressure"].index(drawn * 100.0)
+    level = network.levels.pressure.tolist().index(drawn * 100.0)
     centre = quiver(ax, "centroid_wind")
-    assert_allclose([centre.U[0], centre.V[0]], [network["levels"]["u"][level],
-                                                 network["levels"]["v"][level]])
+    assert_allclose([centre.U[0], centre.V[0]], [network.levels.u_at_centroid[level],
+                                                 network.levels.v_at_centroid[level]])
     assert line([ax], "centroid").get_xdata()[0] == 0.0  # the plane's origin
     title = ax.get_title()
     assert f"winds at {drawn} hPa" in title
-    assert f"divergence {network['levels']['divergence'][level] * 1e5:+.2f}" in title
-    assert f"vorticity {network['levels']['vorticity'][level] * 1e5:+.2f}" in title
+    assert f"divergence {network.levels.divergence[level] * 1e5:+.2f}" in title
+    assert f"vorticity {network.levels.vorticity[level] * 1e5:+.2f}" in title
     # every arrow tip and label anchor lies inside the axes
     (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
     tips_x = arrows.X + arrows.U / arrows.scale

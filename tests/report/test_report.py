@@ -214,11 +214,11 @@ def test_station_network_positions_centroid_area_and_separations():
 
     sheet = layercalc.load(THREE_STATIONS)
     text = render(sheet, sheet.evaluate())
-    network = sheet.checked.soundings["stations"]
+    network = sheet.checked.soundings.network
     rows = station_rows(text)
     assert list(rows) == ["Northfield", "Eastmoor", "Southvale"]
-    projection = pyproj.Proj(proj="stere", lat_0=network["centroid_latitude"],
-                             lon_0=network["centroid_longitude"], k_0=1.0, R=6371008.7714)
+    projection = pyproj.Proj(proj="stere", lat_0=network.centroid_latitude,
+                             lon_0=network.centroid_longitude, k_0=1.0, R=6371008.7714)
     file_positions = {"Northfield": (47.10, -31.70), "Eastmoor": (45.85, -28.75),
                       "Southvale": (44.70, -32.30)}  # the worked case's station lines
     plane = {}
@@ -229,7 +229,7 @@ def test_station_network_positions_centroid_area_and_separations():
         assert rows[name][2] == pytest.approx(x / 1e3, abs=0.051)  # km, one decimal shown
         assert rows[name][3] == pytest.approx(y / 1e3, abs=0.051)
     flat = " ".join(text.split())
-    latitude, longitude = network["centroid_latitude"], network["centroid_longitude"]
+    latitude, longitude = network.centroid_latitude, network.centroid_longitude
     assert f"centroid {latitude:.2f} N, {-longitude:.2f} W" in flat  # west of Greenwich
     assert 45.0 < latitude < 47.1 and -32.3 < longitude < -28.75  # inside the triangle
     # area: shoelace formula on the pyproj plane positions (common practice, no source);
@@ -338,16 +338,16 @@ def test_hydrostatic_tables_in_decametres_and_si():
 def test_station_section_in_si_units():
     sheet = layercalc.load(THREE_STATIONS)
     text = render(sheet, sheet.evaluate(), system="si")
-    network = sheet.checked.soundings["stations"]
+    network = sheet.checked.soundings.network
     rows = station_rows(text)
     # positions in m: layercalc.physics.stations via soundings.py (checked against pyproj
     # in test_station_network_positions_centroid_area_and_separations)
-    assert rows["Eastmoor"][2:] == [round(network["stations"][1]["x"]),
-                                    round(network["stations"][1]["y"])]
+    assert rows["Eastmoor"][2:] == [round(network.stations[1].x),
+                                    round(network.stations[1].y)]
     level_rows = table_rows(block(text, "Divergence and relative vorticity"), "20000")
     assert list(level_rows)[-1] == "100000"
     assert float(level_rows["100000"][0]) == pytest.approx(
-        network["levels"]["divergence"][0], rel=1e-3)  # four digits shown
+        network.levels.divergence[0], rel=1e-3)  # four digits shown
     assert block(text, "Divergence and relative vorticity")[2].split() == ["Pa", "s^-1", "s^-1"]
 
 

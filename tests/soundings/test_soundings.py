@@ -176,11 +176,11 @@ def reported_ussa_text(mistype_500: bool = False, extra: str = "") -> str:
 def test_hydrostatic_check_passes_a_clean_column():
     sheet = load(reported_ussa_text())
     assert not [m for m in messages(sheet) if "hydrostatic" in m]
-    table = sheet.checked.soundings["hydrostatic"][0]
-    assert not any(table["flagged"])     # worst layer 7.5 m + rounding < 10 m (test_levels)
+    table = sheet.checked.soundings.hydrostatic[0]
+    assert not any(table.flagged)     # worst layer 7.5 m + rounding < 10 m (test_levels)
     # isothermal 200-100 hPa layers: implied Tv is USSA's 216.65 K to the height and
     # temperature rounding (0.5 m over ~1800 m, 0.05 K: < 0.15 K)
-    assert_allclose(table["implied_virtual_temperature"][-2:], 216.65, atol=0.15)
+    assert_allclose(table.implied_virtual_temperature[-2:], 216.65, atol=0.15)
 
 
 def test_hydrostatic_check_names_a_mistyped_height():
@@ -196,7 +196,7 @@ def test_hydrostatic_check_names_a_mistyped_height():
     assert abs(stated - 180.0) <= 2.0
     assert notice.span.line == line_of(text, "5754")       # the row of the 500 hPa level
     assert layercalc.problems(text, is_text=True) == []    # a warning, not an error
-    flagged = sheet.checked.soundings["hydrostatic"][0]["flagged"]
+    flagged = sheet.checked.soundings.hydrostatic[0].flagged
     assert [i for i, f in enumerate(flagged) if f] == [3, 4]   # 700-500 and 500-400 hPa
 
 
@@ -212,7 +212,7 @@ def test_hydrostatic_tolerance_is_a_cell():
     for cell in ("20 m", "2 dam"):
         sheet = load(base + f"cell hydrostatic_tolerance = {cell}\n" + table)
         assert not [m for m in messages(sheet) if "hydrostatic" in m]
-        assert_allclose(sheet.checked.soundings["hydrostatic_tolerance"], 20.0)
+        assert_allclose(sheet.checked.soundings.hydrostatic_tolerance, 20.0)
     wrong_text = base + "cell hydrostatic_tolerance = 15 K\n" + table
     wrong = error_of(wrong_text)
     column = wrong_text.splitlines()[1].index("15 K") + 1
@@ -277,9 +277,9 @@ def test_linear_wind_field_gives_its_divergence_in_the_div_column(network, latit
     want = (LEVEL_DIVERGENCE[:-1] + LEVEL_DIVERGENCE[1:]) / 2
     assert_allclose(result.si_columns["div"], want, rtol=0, atol=1e-17)
     assert_allclose(result.layers["div"], want / 1e-5, rtol=0, atol=1e-12)  # display unit
-    details = sheet.checked.soundings["stations"]
-    assert_allclose(details["levels"]["divergence"], LEVEL_DIVERGENCE, rtol=0, atol=1e-17)
-    assert_allclose(details["levels"]["vorticity"], LEVEL_VORTICITY, rtol=0, atol=1e-17)
+    details = sheet.checked.soundings.network
+    assert_allclose(details.levels.divergence, LEVEL_DIVERGENCE, rtol=0, atol=1e-17)
+    assert_allclose(details.levels.vorticity, LEVEL_VORTICITY, rtol=0, atol=1e-17)
     # omega follows: integrated from omega = 0 at the top, continuity gives the surface
     # value -sum(div dp) (arithmetic)
     dp = (PRESSURES[:-1] - PRESSURES[1:]) * 100.0
@@ -314,9 +314,9 @@ def test_missing_wind_at_one_of_three_stations_is_interpolated_in_log_pressure()
     station_b = text.index('station "Station B"')
     assert found[0].span.line == line_of(text[station_b:], "700.0") + \
         text[:station_b].count("\n")       # Station B's 700 hPa row
-    details = sheet.checked.soundings["stations"]["levels"]
-    assert details["divergence_interpolated"] == [False, False, True, False, False]
-    assert details["stations_used"][2] == 2
+    details = sheet.checked.soundings.network.levels
+    assert details.divergence_interpolated.tolist() == [False, False, True, False, False]
+    assert details.stations_used[2] == 2
 
 
 def test_missing_wind_at_one_of_five_stations_is_fitted_from_the_rest():
@@ -366,7 +366,7 @@ def test_column_temperature_is_the_mean_over_the_stations():
     assert_allclose(sheet.evaluate().layers["T"], (levels[:-1] + levels[1:]) / 2, rtol=1e-12)
     notice = next(n for n in sheet.check() if 'station "B" has no T' in n.message)
     assert "700 hPa" in notice.message
-    assert sheet.checked.soundings["thermodynamics_from"] == "the mean over the stations"
+    assert sheet.checked.soundings.thermodynamics_from == "the mean over the stations"
 
 
 def test_levels_table_gives_the_thermodynamics_and_stations_the_winds():
@@ -397,11 +397,19 @@ def test_each_station_is_checked_hydrostatically():
     assert found[0].span.line == text[:station_b].count("\n") + 5   # B's 850 hPa row
 
 
-def test_details_are_plain_json():
+def test_details_are_frozen_records_and_plain_json_only_in_the_json_writer():
+    import dataclasses
+
+    from layercalc.formats.jsondoc import soundings_document
+
     latitudes, longitudes = triangle(45.0, 20.0, 0.0)
-    details = load(network_text(latitudes, longitudes, missing=[(1, 2)])).checked.soundings
-    text = json.dumps(details, allow_nan=False)        # raises on NaN or numpy types
-    assert json.loads(text)["stations"]["stations"][1]["u"][2] is None   # the missing wind
+    checked = load(network_text(latitudes, longitudes, missing=[(1, 2)])).checked
+    details = checked.soundings
+    assert np.isnan(details.network.stations[1].u[2])  # the missing wind, NaN in SI arrays
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        details.network = None
+    text = json.dumps(soundings_document(checked), allow_nan=False)  # raises on NaN/numpy
+    assert json.loads(text)["network"]["stations"][1]["u"][2] is None
 
 
 # --- bad input: our error, with a position -----------------------------------------------------
@@ -480,12 +488,12 @@ def test_worked_case_evaluates_cleanly():
     assert sheet.check() == []                  # no warnings: every check passes
     result = sheet.evaluate()
     details = sheet.checked.soundings
-    stations = details["stations"]["stations"]
+    stations = list(details.network.stations)
     assert len(stations) == 3
-    sides = [great_circle_km(a["latitude"], a["longitude"], b["latitude"], b["longitude"])
+    sides = [great_circle_km(a.latitude, a.longitude, b.latitude, b.longitude)
              for a, b in zip(stations, stations[1:] + stations[:1])]
     assert all(200.0 < side < 400.0 for side in sides)     # the brief for this case
-    level = np.array(details["stations"]["levels"]["divergence"])
+    level = np.array(details.network.levels.divergence)
     assert_allclose(result.si_columns["div"], (level[:-1] + level[1:]) / 2, rtol=1e-12)
     assert np.isfinite(result.cells["surface_pressure_tendency"])
 
