@@ -2,7 +2,11 @@
 
 from __future__ import annotations
 
+import os
+import subprocess
+import sys
 import textwrap
+from pathlib import Path
 
 import layercalc
 
@@ -29,3 +33,28 @@ def error_of(text: str) -> layercalc.LayercalcError:
     except layercalc.LayercalcError as exc:
         return exc
     raise AssertionError("expected a LayercalcError")
+
+
+# ---------------------------------------------------------------- the command line
+PACKAGE_ROOT = Path(layercalc.__file__).resolve().parent.parent
+
+
+def cli(capsys, *args) -> tuple[int, str, str]:
+    """`layercalc ARGS` in this process: (exit status, stdout, stderr); a usage error's
+    SystemExit becomes its exit status."""
+    from layercalc.cli.main import main
+
+    try:
+        code = main([str(a) for a in args])
+    except SystemExit as stop:
+        code = stop.code
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def process(*args, cwd: Path) -> subprocess.CompletedProcess:
+    """`python -m layercalc ARGS` in another process, importing this checkout's layercalc."""
+    env = dict(os.environ)
+    env["PYTHONPATH"] = os.pathsep.join([str(PACKAGE_ROOT), env.get("PYTHONPATH", "")])
+    return subprocess.run([sys.executable, "-m", "layercalc", *map(str, args)], cwd=cwd,
+                          env=env, capture_output=True, text=True, timeout=300)

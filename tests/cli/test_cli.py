@@ -6,10 +6,7 @@ from __future__ import annotations
 
 import csv
 import json
-import os
 import re
-import subprocess
-import sys
 from pathlib import Path
 
 import numpy as np
@@ -20,10 +17,10 @@ import layercalc
 from layercalc.cli.common import worked_cases_folder
 from layercalc.cli.main import main
 from layercalc.cli.templates import TEMPLATE
+from tests.helpers import cli, process
 
 CASES = worked_cases_folder()
 WARMING = CASES / "midlevel_warming.layers"
-PACKAGE_ROOT = Path(layercalc.__file__).resolve().parent.parent
 COMMANDS = ("run", "check", "new", "demo", "plot", "export", "import", "sweep")
 
 BAD_UNITS = """\
@@ -36,14 +33,6 @@ column bad = T + p_bottom
 """
 
 
-def layercalc_process(*args: str, cwd: Path) -> subprocess.CompletedProcess:
-    """`python -m layercalc ARGS` in another process, importing the same layercalc."""
-    env = dict(os.environ)
-    env["PYTHONPATH"] = os.pathsep.join([str(PACKAGE_ROOT), env.get("PYTHONPATH", "")])
-    return subprocess.run([sys.executable, "-m", "layercalc", *args], cwd=cwd, env=env,
-                          capture_output=True, text=True, timeout=300)
-
-
 @pytest.fixture
 def bad_case(tmp_path) -> Path:
     path = tmp_path / "bad.layers"
@@ -54,7 +43,7 @@ def bad_case(tmp_path) -> Path:
 # ---------------------------------------------------------------- through a process
 @pytest.mark.slow
 def test_run_in_a_process_from_a_fresh_folder(tmp_path):
-    done = layercalc_process("run", str(WARMING), cwd=tmp_path)
+    done = process("run", str(WARMING), cwd=tmp_path)
     assert done.returncode == 0, done.stderr
     assert "Kestrel Fell" in done.stdout and "Summary" in done.stdout
     assert "caution:" in done.stdout
@@ -63,7 +52,7 @@ def test_run_in_a_process_from_a_fresh_folder(tmp_path):
 
 @pytest.mark.slow
 def test_json_in_a_process(tmp_path):
-    done = layercalc_process("run", str(WARMING), "--json", cwd=tmp_path)
+    done = process("run", str(WARMING), "--json", cwd=tmp_path)
     assert done.returncode == 0, done.stderr
     document = json.loads(done.stdout)
     assert document["scenario"] == "base" and len(document["layers"]) == 12
@@ -73,7 +62,7 @@ def test_json_in_a_process(tmp_path):
 def test_a_bad_file_gives_exit_1_with_position_and_no_traceback(tmp_path, bad_case):
     for command in ("run", "check", "plot"):
         extra = ("-o", str(tmp_path / "x.png")) if command == "plot" else ()
-        done = layercalc_process(command, str(bad_case), *extra, cwd=tmp_path)
+        done = process(command, str(bad_case), *extra, cwd=tmp_path)
         assert done.returncode == 1, (command, done.stderr)
         text = done.stdout + done.stderr
         assert f"{bad_case}:6:14: unit error" in text
@@ -83,18 +72,18 @@ def test_a_bad_file_gives_exit_1_with_position_and_no_traceback(tmp_path, bad_ca
 
 @pytest.mark.slow
 def test_usage_errors_exit_2(tmp_path):
-    assert layercalc_process(cwd=tmp_path).returncode == 2
-    done = layercalc_process("run", str(WARMING), "--no-such-option", cwd=tmp_path)
+    assert process(cwd=tmp_path).returncode == 2
+    done = process("run", str(WARMING), "--no-such-option", cwd=tmp_path)
     assert done.returncode == 2 and "Traceback" not in done.stderr
-    assert layercalc_process("frobnicate", cwd=tmp_path).returncode == 2
-    both = layercalc_process("run", str(WARMING), "--scenario", "warmed",
+    assert process("frobnicate", cwd=tmp_path).returncode == 2
+    both = process("run", str(WARMING), "--scenario", "warmed",
                              "--all-scenarios", cwd=tmp_path)
     assert both.returncode == 2
 
 
 @pytest.mark.slow
 def test_demo_in_a_process_from_any_folder(tmp_path):
-    done = layercalc_process("demo", cwd=tmp_path)
+    done = process("demo", cwd=tmp_path)
     assert done.returncode == 0, done.stderr
     assert "Where to go next" in done.stdout and "layercalc new" in done.stdout
     assert "surface pressure tendency" in done.stdout
@@ -102,11 +91,11 @@ def test_demo_in_a_process_from_any_folder(tmp_path):
 
 @pytest.mark.slow
 def test_new_plot_and_check_in_a_process(tmp_path):
-    made = layercalc_process("new", "-o", "mine.layers", cwd=tmp_path)
+    made = process("new", "-o", "mine.layers", cwd=tmp_path)
     assert made.returncode == 0, made.stderr
     assert (tmp_path / "mine.layers").read_text(encoding="utf-8") == TEMPLATE
-    assert layercalc_process("check", "mine.layers", cwd=tmp_path).stdout.strip() == "ok"
-    drawn = layercalc_process("plot", "mine.layers", "-o", "mine.png", cwd=tmp_path)
+    assert process("check", "mine.layers", cwd=tmp_path).stdout.strip() == "ok"
+    drawn = process("plot", "mine.layers", "-o", "mine.png", cwd=tmp_path)
     assert drawn.returncode == 0, drawn.stderr
     assert (tmp_path / "mine.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
 
@@ -114,16 +103,12 @@ def test_new_plot_and_check_in_a_process(tmp_path):
 @pytest.mark.slow
 @pytest.mark.parametrize("command", COMMANDS)
 def test_help_on_every_command_has_an_example(command, tmp_path):
-    done = layercalc_process(command, "--help", cwd=tmp_path)
+    done = process(command, "--help", cwd=tmp_path)
     assert done.returncode == 0, done.stderr
     assert "example" in done.stdout and f"layercalc {command}" in done.stdout
 
 
 # ---------------------------------------------------------------- in-process
-def run(capsys, *args: str) -> tuple[int, str, str]:
-    code = main(list(args))
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 def test_top_level_help_and_version(capsys):
@@ -137,97 +122,97 @@ def test_top_level_help_and_version(capsys):
 
 
 def test_no_command_is_a_usage_error(capsys):
-    code, _, err = run(capsys)
+    code, _, err = cli(capsys)
     assert code == 2 and "usage" in err
 
 
 def test_run_report(capsys):
-    code, out, err = run(capsys, "run", str(WARMING))
+    code, out, err = cli(capsys, "run", str(WARMING))
     assert code == 0 and err == ""
     assert max(len(line) for line in out.splitlines()) <= 80
     assert "200-150" in out.split("1000-950")[0]  # the column top comes first
 
 
 def test_run_si_units_and_decametres(capsys):
-    _, si, _ = run(capsys, "run", str(WARMING), "--units", "si")
+    _, si, _ = cli(capsys, "run", str(WARMING), "--units", "si")
     assert "Pa/s" in si and "hPa/h" not in si
-    _, dam, _ = run(capsys, "run", str(WARMING), "--heights", "dam")
+    _, dam, _ = cli(capsys, "run", str(WARMING), "--heights", "dam")
     assert "Heights of standard surfaces (dam)" in dam
 
 
 def test_run_one_scenario_and_all_scenarios(capsys):
-    code, out, _ = run(capsys, "run", str(WARMING), "--scenario", "warmed")
+    code, out, _ = cli(capsys, "run", str(WARMING), "--scenario", "warmed")
     assert code == 0 and "scenario warmed: the 500-300" in out and "add warming to T" in out
-    code, out, _ = run(capsys, "run", str(WARMING), "--all-scenarios")
+    code, out, _ = cli(capsys, "run", str(WARMING), "--all-scenarios")
     assert code == 0 and "warmed_divergent" in out and "Scenarios compared" in out
     assert max(len(line) for line in out.splitlines()) <= 80
-    code, out, _ = run(capsys, "run", str(WARMING), "--all-scenarios", "--json")
+    code, out, _ = cli(capsys, "run", str(WARMING), "--all-scenarios", "--json")
     names = [d["scenario"] for d in json.loads(out)["scenarios"]]
     assert names == ["base", "warmed", "warmed_divergent"]
 
 
 def test_an_unknown_scenario_is_our_error(capsys):
-    code, out, err = run(capsys, "run", str(WARMING), "--scenario", "warmd")
+    code, out, err = cli(capsys, "run", str(WARMING), "--scenario", "warmd")
     assert code == 1 and out == ""
     assert "no scenario named 'warmd'" in err and "warmed" in err
 
 
 def test_csv_has_a_units_row_and_is_written_whole(capsys, tmp_path):
     target = tmp_path / "layers.csv"
-    code, _, _ = run(capsys, "run", str(WARMING), "--csv", str(target))
+    code, _, _ = cli(capsys, "run", str(WARMING), "--csv", str(target))
     assert code == 0
     rows = list(csv.reader(target.open(encoding="utf-8")))
     assert rows[0][:3] == ["p_bottom", "p_top", "T"]
     assert rows[1][:3] == ["hPa", "hPa", "degC"]
     assert len(rows) == 2 + 12 and float(rows[2][0]) == 1000.0  # surface first
     assert sorted(p.name for p in tmp_path.iterdir()) == ["layers.csv"]  # no temp file left
-    code, _, _ = run(capsys, "run", str(WARMING), "--csv", str(target), "--units", "si")
+    code, _, _ = cli(capsys, "run", str(WARMING), "--csv", str(target), "--units", "si")
     assert list(csv.reader(target.open(encoding="utf-8")))[1][:3] == ["Pa", "Pa", "K"]
 
 
 def test_output_to_a_file_and_to_a_missing_folder(capsys, tmp_path):
-    code, out, _ = run(capsys, "run", str(WARMING), "--json", "-o", str(tmp_path / "r.json"))
+    code, out, _ = cli(capsys, "run", str(WARMING), "--json", "-o", str(tmp_path / "r.json"))
     assert code == 0 and out == ""
     assert json.loads((tmp_path / "r.json").read_text(encoding="utf-8"))["layers"]
-    code, _, err = run(capsys, "run", str(WARMING), "-o", str(tmp_path / "no" / "r.txt"))
+    code, _, err = cli(capsys, "run", str(WARMING), "-o", str(tmp_path / "no" / "r.txt"))
     assert code == 1 and "does not exist" in err
 
 
 def test_missing_file(capsys, tmp_path):
-    code, _, err = run(capsys, "run", str(tmp_path / "nothing.layers"))
+    code, _, err = cli(capsys, "run", str(tmp_path / "nothing.layers"))
     assert code == 1 and "no such file" in err
 
 
 def test_check_ok_and_problems(capsys, bad_case):
-    code, out, _ = run(capsys, "check", str(WARMING))
+    code, out, _ = cli(capsys, "check", str(WARMING))
     assert code == 0 and out.strip().endswith("ok")
-    code, out, _ = run(capsys, "check", str(bad_case))
+    code, out, _ = cli(capsys, "check", str(bad_case))
     assert code == 1
     assert out.startswith(f"{bad_case}:6:14: unit error: cannot add a pressure to a "
                           "temperature")
     assert "6 | column bad = T + p_bottom" in out
-    code, out, _ = run(capsys, "check", str(WARMING), str(bad_case))
+    code, out, _ = cli(capsys, "check", str(WARMING), str(bad_case))
     assert code == 1 and f"{WARMING}: ok" in out
 
 
 def test_check_lists_every_problem(capsys, tmp_path):
     path = tmp_path / "two.layers"
     path.write_text(BAD_UNITS + "column worse = ln(p_top)\n", encoding="utf-8")
-    code, out, _ = run(capsys, "check", str(path))
+    code, out, _ = cli(capsys, "check", str(path))
     assert code == 1
     assert f"{path}:6:" in out and f"{path}:7:" in out
 
 
 def test_new_template_loads_refuses_to_overwrite_and_forces(capsys, tmp_path):
-    code, out, _ = run(capsys, "new")
+    code, out, _ = cli(capsys, "new")
     assert code == 0 and out == TEMPLATE
     target = tmp_path / "c.layers"
-    assert run(capsys, "new", "-o", str(target))[0] == 0
+    assert cli(capsys, "new", "-o", str(target))[0] == 0
     target.write_text("mine", encoding="utf-8")
-    code, _, err = run(capsys, "new", "-o", str(target))
+    code, _, err = cli(capsys, "new", "-o", str(target))
     assert code == 1 and "exists already" in err and "--force" in err
     assert target.read_text(encoding="utf-8") == "mine"
-    assert run(capsys, "new", "-o", str(target), "--force")[0] == 0
+    assert cli(capsys, "new", "-o", str(target), "--force")[0] == 0
     sheet = layercalc.load(target)
     sheet.evaluate()
     for scenario in sheet.scenarios:
@@ -247,25 +232,25 @@ def test_template_uses_every_construct():
 
 
 def test_demo_list_and_unknown(capsys):
-    code, out, _ = run(capsys, "demo", "--list")
+    code, out, _ = cli(capsys, "demo", "--list")
     assert code == 0 and "standard_atmosphere" in out
-    code, _, err = run(capsys, "demo", "standard_atmosphre")
+    code, _, err = cli(capsys, "demo", "standard_atmosphre")
     assert code == 1 and "standard_atmosphere" in err
 
 
 def test_plot_refuses_other_formats(capsys, tmp_path):
-    code, _, err = run(capsys, "plot", str(WARMING), "-o", str(tmp_path / "p.jpg"))
+    code, _, err = cli(capsys, "plot", str(WARMING), "-o", str(tmp_path / "p.jpg"))
     assert code == 1 and ".png or .svg" in err
     assert list(tmp_path.iterdir()) == []
 
 
 def test_sweep(capsys, tmp_path):
-    code, out, _ = run(capsys, "sweep", str(WARMING), "--vary", "omega_top=-1:1:1",
+    code, out, _ = cli(capsys, "sweep", str(WARMING), "--vary", "omega_top=-1:1:1",
                        "--csv", str(tmp_path / "s.csv"))
     assert code == 0 and "3 points" in out
     rows = list(csv.reader((tmp_path / "s.csv").open(encoding="utf-8")))
     assert rows[0][0] == "omega_top" and len(rows) == 2 + 3
-    code, _, err = run(capsys, "sweep", str(WARMING), "--vary", "nothing=0:1:1")
+    code, _, err = cli(capsys, "sweep", str(WARMING), "--vary", "nothing=0:1:1")
     assert code == 1 and "nothing" in err
 
 
@@ -276,7 +261,7 @@ def test_sweep_workbook_has_caution_and_units_and_three_ranges_are_a_usage_error
     from layercalc.api import CAUTION
 
     target = tmp_path / "s.xlsx"
-    code, _, _ = run(capsys, "sweep", str(WARMING), "--scenario", "warmed_divergent",
+    code, _, _ = cli(capsys, "sweep", str(WARMING), "--scenario", "warmed_divergent",
                      "--vary", "warming=0:2:1", "--xlsx", str(target), "--quiet")
     assert code == 0
     rows = list(load_workbook(target)["sweep"].iter_rows(values_only=True))
@@ -284,20 +269,20 @@ def test_sweep_workbook_has_caution_and_units_and_three_ranges_are_a_usage_error
     assert rows[3][:2] == ("warming", "surface_pressure_tendency")
     assert rows[4][:2] == ("K", "hPa/(3 h)")
     assert [r[0] for r in rows[5:]] == [0, 1, 2]
-    code, _, err = run(capsys, "sweep", str(WARMING), "--vary", "warming=0:1:1",
+    code, _, err = cli(capsys, "sweep", str(WARMING), "--vary", "warming=0:1:1",
                        "--vary", "div_scale=1:2:1", "--vary", "surface_height=0:1:1")
     assert code == 2 and "one or two cells" in err
 
 
 def test_export_and_import(capsys, tmp_path):
     book = tmp_path / "case.xlsx"
-    code, _, err = run(capsys, "export", str(WARMING), "-o", str(book))
+    code, _, err = cli(capsys, "export", str(WARMING), "-o", str(book))
     assert code == 0 and book.is_file()
     back = tmp_path / "back.layers"
-    code, _, err = run(capsys, "import", str(book), "-o", str(back))
+    code, _, err = cli(capsys, "import", str(book), "-o", str(back))
     assert code == 0, err
     layercalc.load(back).evaluate()
-    code, _, err = run(capsys, "import", str(book), "-o", str(back))
+    code, _, err = cli(capsys, "import", str(book), "-o", str(back))
     assert code == 1 and "exists already" in err
 
 
@@ -307,7 +292,7 @@ THREE_STATIONS = CASES / "three_stations.layers"
 
 def test_run_a_station_network_report(capsys):
     for options in ((), ("--units", "si"), ("--heights", "dam", "--every-column")):
-        code, out, err = run(capsys, "run", str(THREE_STATIONS), *options)
+        code, out, err = cli(capsys, "run", str(THREE_STATIONS), *options)
         assert code == 0 and err == "", options
         assert max(len(line) for line in out.splitlines()) <= 80, options
         assert out.rstrip().endswith("local procedures.")
@@ -315,17 +300,17 @@ def test_run_a_station_network_report(capsys):
         for name in ("Northfield", "Eastmoor", "Southvale"):
             assert f'Hydrostatic check, station "{name}"' in out
     # every layer passes (the case's header: "every station's heights pass")
-    _, out, _ = run(capsys, "run", str(THREE_STATIONS))
+    _, out, _ = cli(capsys, "run", str(THREE_STATIONS))
     tables = out.split("Hydrostatic check", 1)[1].split("observed:")[0]
     flags = [line.split()[-2] for line in tables.splitlines() if re.match(r"\d+-\d+ ", line)]
     assert flags == ["ok"] * 24  # 3 stations x 8 layers
 
 
 def test_json_gains_a_soundings_key_and_keeps_the_rest(capsys):
-    _, plain, _ = run(capsys, "run", str(WARMING), "--json")
+    _, plain, _ = cli(capsys, "run", str(WARMING), "--json")
     plain_keys = list(json.loads(plain))
     assert "soundings" not in plain_keys  # a layers table: no soundings
-    code, out, _ = run(capsys, "run", str(THREE_STATIONS), "--json")
+    code, out, _ = cli(capsys, "run", str(THREE_STATIONS), "--json")
     assert code == 0
     document = json.loads(out)
     assert [k for k in document if k != "soundings"] == plain_keys  # nothing else moves
@@ -364,7 +349,7 @@ def test_json_soundings_of_a_linear_wind_field_with_a_missing_wind(capsys, tmp_p
     latitudes, longitudes = pentagon(45.0, 20.0, 0.0)
     case = tmp_path / "five.layers"
     case.write_text(network_text(latitudes, longitudes, missing=[(3, 1)]), encoding="utf-8")
-    code, out, err = run(capsys, "run", str(case), "--json")
+    code, out, err = cli(capsys, "run", str(case), "--json")
     assert code == 0, err
     network = json.loads(out)["soundings"]["network"]
     # divergence a + d and vorticity c - b by construction (tests/physics/test_stations.py,
@@ -381,12 +366,11 @@ def test_plot_a_station_network(capsys, tmp_path):
     from layercalc.plots.profile import SINGLE_SIZE, STATION_PANEL_WIDTH
 
     target = tmp_path / "three.png"
-    code, _, err = run(capsys, "plot", str(THREE_STATIONS), "-o", str(target), "--dpi", "50")
+    code, _, err = cli(capsys, "plot", str(THREE_STATIONS), "-o", str(target), "--dpi", "50")
     assert code == 0 and f"wrote {target}" in err
     # profile panel plus the station panel (plot.py's sizes, in inches, at 50 dpi)
     assert imread(target).shape[:2] == (round(SINGLE_SIZE[1] * 50),
                                         round((SINGLE_SIZE[0] + STATION_PANEL_WIDTH) * 50))
-
 
 
 def test_plot_station_level_option(capsys, tmp_path, monkeypatch):
@@ -402,7 +386,7 @@ def test_plot_station_level_option(capsys, tmp_path, monkeypatch):
 
     monkeypatch.setattr(plot_module, "profile_figure", spy)
     target = tmp_path / "three.png"
-    code, _, _ = run(capsys, "plot", str(THREE_STATIONS), "-o", str(target), "--dpi", "30",
+    code, _, _ = cli(capsys, "plot", str(THREE_STATIONS), "-o", str(target), "--dpi", "30",
                      "--station-level", "850")
     assert code == 0
     # the worked case reports at 850 hPa (a standard level), so that level is drawn
@@ -415,7 +399,7 @@ def test_json_soundings_of_a_levels_table_with_winds(capsys, tmp_path):
                     "  p [hPa]  T [degC]  dir [deg]  speed [m/s]\n"
                     "  1000  14.0  180  10\n  850  6.0  270  20\n  700  -4.0  360  30\nend\n",
                     encoding="utf-8")
-    code, out, err = run(capsys, "run", str(case), "--json")
+    code, out, err = cli(capsys, "run", str(case), "--json")
     assert code == 0, err
     soundings = json.loads(out)["soundings"]
     assert soundings["network"] is None and soundings["hydrostatic"] == []
@@ -432,13 +416,13 @@ def test_json_soundings_of_a_levels_table_with_winds(capsys, tmp_path):
 
 
 def test_output_names_must_fit_their_format(capsys, tmp_path):
-    code, _, err = run(capsys, "export", str(WARMING), "-o", str(tmp_path / "book.csv"))
+    code, _, err = cli(capsys, "export", str(WARMING), "-o", str(tmp_path / "book.csv"))
     assert code == 1 and "must end in .xlsx" in err
-    code, _, err = run(capsys, "sweep", str(WARMING), "--vary", "warming=0:1:1",
+    code, _, err = cli(capsys, "sweep", str(WARMING), "--vary", "warming=0:1:1",
                        "--xlsx", str(tmp_path / "s.csv"))
     assert code == 1 and "must end in .xlsx" in err
     same = tmp_path / "same.txt"
-    code, _, err = run(capsys, "run", str(WARMING), "--csv", str(same), "-o", str(same))
+    code, _, err = cli(capsys, "run", str(WARMING), "--csv", str(same), "-o", str(same))
     assert code == 1 and "both name" in err
     assert list(tmp_path.iterdir()) == []
 

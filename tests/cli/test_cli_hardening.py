@@ -14,8 +14,6 @@ import errno
 import hashlib
 import os
 import re
-import subprocess
-import sys
 import zipfile
 from pathlib import Path
 
@@ -26,6 +24,7 @@ import layercalc
 from layercalc import files
 from layercalc.cli.common import worked_cases, worked_cases_folder
 from layercalc.cli.main import main
+from tests.helpers import cli, process
 from layercalc.constants import G0, RD
 from layercalc.language.parser import MAX_NESTING
 
@@ -33,7 +32,6 @@ ERRORS = Path(__file__).resolve().parents[1] / "errors"
 GOLDEN = sorted(ERRORS.glob("*.layers"))
 WORKED = worked_cases()
 WARMING = worked_cases_folder() / "midlevel_warming.layers"
-PACKAGE_ROOT = Path(layercalc.__file__).resolve().parent.parent
 COMMANDS = ("run", "check", "new", "demo", "plot", "export", "import", "sweep")
 OLD = b"old bytes that must survive\n"
 SMALL_TABLE = """\
@@ -46,22 +44,6 @@ end
 
 
 # ---------------------------------------------------------------- helpers
-def cli(capsys, *args) -> tuple[int, str, str]:
-    """layercalc.cli.main in-process; a usage error's SystemExit becomes its exit code."""
-    try:
-        code = main([str(a) for a in args])
-    except SystemExit as stop:
-        code = stop.code
-    out, err = capsys.readouterr()
-    return code, out, err
-
-
-def process(*args, cwd: Path) -> subprocess.CompletedProcess:
-    """`python -m layercalc ARGS` in another process, importing this checkout's layercalc."""
-    env = dict(os.environ)
-    env["PYTHONPATH"] = os.pathsep.join([str(PACKAGE_ROOT), env.get("PYTHONPATH", "")])
-    return subprocess.run([sys.executable, "-m", "layercalc", *map(str, args)], cwd=cwd,
-                          env=env, capture_output=True, text=True, timeout=300)
 
 
 def digest(path: Path) -> str:
