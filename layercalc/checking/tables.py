@@ -8,11 +8,13 @@ import math
 import numpy as np
 
 from layercalc.language import units as U
-from layercalc.language.inputs import InputColumn, entry_span, implausible_temperature
+from layercalc.language import plausibility
+from layercalc.language.inputs import InputColumn, entry_span
 from layercalc.language.unit_text import parse_unit_string, written_unit
 from layercalc.language.defaults import INPUT_UNITS
 from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError
 from layercalc.language.nodes import Station, Table
+from layercalc.physics import humidity
 from layercalc.source import Span
 
 MAX_LAYERS = 1_000_000
@@ -98,7 +100,8 @@ class TableChecker:
         if self.problems:
             return columns, len(table.rows), False
         top_first = self.order_layers(table, columns)
-        self.plausibility(table, columns)
+        if not self.problems:
+            self.plausibility(table, columns)
         return columns, len(table.rows), top_first
 
     def heading_unit(self, heading) -> U.Unit:
@@ -165,24 +168,63 @@ class TableChecker:
         return bool(top_first)
 
     def plausibility(self, table: Table, columns: dict[str, InputColumn]) -> None:
+        """Values no air has are errors, values beyond what air does are warnings, each
+        naming the likely unit slip (language/plausibility.py holds the bounds)."""
         order = self.row_order if self.row_order is not None else np.arange(len(table.rows))
         names = [h.name for h in table.headings]
+
+        def span(name: str, k: int) -> Span:
+            return entry_span(table, int(order[k]), names.index(name))
+
         for name in ("T", "Td"):
             col = columns.get(name)
             if col is None or not U.same_dimension(col.unit.dimension, U.lookup("K").dimension):
                 continue
             for k, value in enumerate(col.values):
-                span = entry_span(table, int(order[k]), names.index(name))
                 if value <= 0:
                     self.fail(DefinitionError(
-                        f"{name} is below absolute zero ({value:.2f} K)", span,
+                        f"{name} is below absolute zero ({value:.2f} K)", span(name, k),
                         hint="check the unit in the header ([degC] or [K])"))
                     return
-                warning = implausible_temperature(name, value)
-                if warning:
-                    self.notices.append(Notice(warning, span))
+        failed = set()
+        for name, col in columns.items():
+            found = plausibility.check_values(name, col.values, col.unit)
+            if found is None:
+                continue
+            if found.kind == "error":
+                failed.add(name)
+                self.fail(DefinitionError(found.message, span(name, found.index),
+                                          hint=found.hint))
+            else:
+                self.notices.append(Notice(found.message, span(name, found.index)))
+        if failed:
+            return
+        vapour = self.vapour_pressure(columns)
+        if vapour is not None:
+            e, made_from = vapour
+            p_mid = np.sqrt(columns["p_bottom"].values * columns["p_top"].values)
+            found = plausibility.vapour_pressure_finding(e, p_mid, made_from,
+                                                         columns["p_bottom"].unit)
+            if found is not None:
+                self.fail(DefinitionError(found.message, table.row_spans[int(order[found.index])],
+                                          hint=found.hint))
+                return
         if "T" in columns and "Td" in columns:
             over = np.flatnonzero(columns["Td"].values > columns["T"].values + 1e-9)
             for k in over[:3]:
                 self.notices.append(Notice("dewpoint above temperature (supersaturated)",
                                            table.row_spans[int(order[k])]))
+
+    @staticmethod
+    def vapour_pressure(columns: dict[str, InputColumn]) -> tuple[np.ndarray, str] | None:
+        """The vapour pressure [Pa] the default formulas will use, and what it is made from
+        (as language/defaults.py: from Td, else RH and T); None when neither is given."""
+        kelvin = U.lookup("K").dimension
+        if "Td" in columns and U.same_dimension(columns["Td"].unit.dimension, kelvin):
+            return humidity.vapour_pressure_from_dewpoint(columns["Td"].values), "Td"
+        if "RH" in columns and "T" in columns and U.is_dimensionless(
+                columns["RH"].unit.dimension) and U.same_dimension(
+                columns["T"].unit.dimension, kelvin):
+            return (humidity.vapour_pressure_from_relative_humidity(
+                columns["RH"].values, columns["T"].values), "RH and T")
+        return None

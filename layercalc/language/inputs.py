@@ -1,5 +1,5 @@
-"""Input values as checked: the columns and cells a sheet gives, converted to SI, and what a
-plausible input value is. Shared by the sounding readers and the checker.
+"""Input values as checked: the columns and cells a sheet gives, converted to SI. Shared by
+the sounding readers and the checker (what a plausible value is: plausibility.py).
 """
 
 from __future__ import annotations
@@ -11,8 +11,6 @@ import numpy as np
 from layercalc.language import units as U
 from layercalc.language.nodes import Table
 from layercalc.source import Span
-
-PLAUSIBLE_TEMPERATURE = (150.0, 340.0)  # K; outside: a warning (coldest/warmest observed air)
 
 
 @dataclass(frozen=True)
@@ -30,16 +28,6 @@ class InputCell:
     value: float  # SI
     span: Span | None
     given: bool = True
-
-
-def implausible_temperature(name: str, kelvin: float, where: str = "") -> str | None:
-    """The warning for a temperature outside PLAUSIBLE_TEMPERATURE (None inside it)."""
-    lo, hi = PLAUSIBLE_TEMPERATURE
-    if lo <= kelvin <= hi:
-        return None
-    celsius = U.lookup("degC").from_si
-    return (f"{name} = {celsius(kelvin):.1f} degC{where} is outside the plausible range "
-            f"{celsius(lo):.0f} to {celsius(hi):.0f} degC")
 
 
 def entry_span(table: Table, row: int, column: int) -> Span:

@@ -13,7 +13,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from layercalc.language import units as U
-from layercalc.language.inputs import entry_span, implausible_temperature
+from layercalc.language import plausibility
+from layercalc.language.inputs import entry_span
 from layercalc.language.unit_text import parse_unit_string, resolve_unit
 from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError
 from layercalc.language.nodes import Definition, Literal, Table, Unary
@@ -140,7 +141,9 @@ def read_sounding(checker, table: Table, name: str) -> Sounding:
 
 
 def _plausible(s: Sounding) -> None:
-    """Our error for values that cannot be: T below 0 K, negative speed, direction off 0-360."""
+    """Our error for values that cannot be: T below 0 K, negative speed, direction off 0-360,
+    and what language/plausibility.py calls an error (values no air has, the vapour
+    pressure at or above the pressure, heights that do not fit the pressures)."""
     for name in ("T", "Td"):
         for k, value in enumerate(s.values.get(name, ())):
             if value <= 0:
@@ -155,20 +158,55 @@ def _plausible(s: Sounding) -> None:
             raise DefinitionError(
                 f"wind direction {value:g} deg is outside 0 to 360", s.entry_span("dir", k),
                 hint="the direction the wind blows from, clockwise from north")
+    for name, found in _findings(s):
+        if found.kind == "error":
+            raise DefinitionError(f"{s.name}: {found.message}", s.entry_span(name, found.index),
+                                  hint=found.hint)
+    vapour = _level_vapour_pressure(s)
+    if vapour is not None:
+        found = plausibility.vapour_pressure_finding(vapour[0], s.pressure, vapour[1],
+                                                     s.units["p"])
+        if found is not None:
+            raise DefinitionError(f"{s.name}: {found.message}", s.row_span(found.index),
+                                  hint=found.hint)
+    if "z" in s.values:
+        found = plausibility.height_finding(s.pressure, s.values["z"], s.units["z"])
+        if found is not None:
+            raise DefinitionError(f"{s.name}: {found.message}",
+                                  s.table.headings[[h.name for h in s.table.headings]
+                                                   .index("z")].span, hint=found.hint)
+
+
+def _findings(s: Sounding) -> list[tuple[str, plausibility.Finding]]:
+    """Each column's first value outside its bounds (language/plausibility.py)."""
+    found = []
+    for name, values in s.values.items():
+        finding = plausibility.check_values(name, values, s.units[name])
+        if finding is not None:
+            found.append((name, finding))
+    return found
 
 
 def level_notices(s: Sounding, notices: list[Notice]) -> None:
-    """Warnings as the checker gives for layers: T, Td outside its range, Td above T."""
-    for name in ("T", "Td"):
-        for k, value in enumerate(s.values.get(name, ())):
-            warning = np.isfinite(value) and implausible_temperature(
-                name, value, f" at {hpa(s.pressure[k])}")
-            if warning:
-                notices.append(Notice(f"{s.name}: {warning}", s.entry_span(name, k)))
+    """Warnings as the checker gives for layers: values beyond what air does (naming the
+    likely unit slip), Td above T."""
+    for name, found in _findings(s):
+        if found.kind == "warning":
+            notices.append(Notice(f"{s.name}: {found.message}", s.entry_span(name, found.index)))
     if "T" in s.values and "Td" in s.values:
         for k in np.flatnonzero(s.values["Td"] > s.values["T"] + 1e-9)[:3]:
             notices.append(Notice(f"{s.name}: dewpoint above temperature at "
                                   f"{hpa(s.pressure[k])} (supersaturated)", s.row_span(k)))
+
+
+def _level_vapour_pressure(s: Sounding) -> tuple[np.ndarray, str] | None:
+    """The vapour pressure at the levels [Pa] and what it is made from (Td, else RH and T)."""
+    if "Td" in s.values:
+        return humidity.vapour_pressure_from_dewpoint(s.values["Td"]), "Td"
+    if "RH" in s.values and "T" in s.values:
+        return (humidity.vapour_pressure_from_relative_humidity(s.values["RH"], s.values["T"]),
+                "RH and T")
+    return None
 
 
 # ---------------------------------------------------------------- gaps, means, layers

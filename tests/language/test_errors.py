@@ -1,5 +1,7 @@
 """Exact error text for bad inputs: tests/errors/NAME.layers -> NAME.expected.
 
+A file without errors gives its warnings instead (what `layercalc check` prints).
+
 Regenerate the expected files only on purpose:  python -m tests.language.test_errors --update
 """
 
@@ -17,7 +19,7 @@ CASES = sorted(FOLDER.glob("*.layers"))
 
 
 def formatted(path: Path) -> str:
-    problems = layercalc.problems(path)
+    problems = layercalc.problems(path) or layercalc.load(path).check()
     text = "\n".join(p.format() for p in problems)
     return text.replace(str(path), f"errors/{path.name}") + "\n"
 
