@@ -121,12 +121,24 @@ def test_level_of_nondivergence_in_summary():
     assert 65000 < levels[0] < 80000  # between the 800-650 and 650-500 midpoints
 
 
+def _humidity_column(heading: str, values) -> str:
+    """MOIST with its Td column replaced (a negative humidity is refused, so every row)."""
+    lines = MOIST.splitlines()
+    lines[1] = lines[1].replace("Td [degC]", heading)
+    for i, value in enumerate(values, start=2):
+        cells = lines[i].split()
+        cells[3] = f"{value:g}"
+        lines[i] = "  " + "  ".join(cells)
+    return "\n".join(lines) + "\n"
+
+
 def test_relative_humidity_and_mixing_ratio_inputs():
-    rh_table = MOIST.replace("Td [degC]", "RH [%]").replace("  19.0 ", "  74.0 ")
+    # made-up humidities; only the lowest layer's is checked below
+    rh_table = _humidity_column("RH [%]", [74, 70, 60, 50, 40, 30])
     rh = layercalc.loads(rh_table).evaluate().si_columns
     es = humidity.saturation_vapour_pressure(T[0])
     assert_allclose(rh["e"][0], 0.74 * es, rtol=1e-14)  # e = RH es(T), definition of RH
-    r_table = MOIST.replace("Td [degC]", "r [g/kg]").replace("  19.0 ", "  12.0 ")
+    r_table = _humidity_column("r [g/kg]", [12, 9, 5, 2, 0.5, 0.1])
     r = layercalc.loads(r_table).evaluate().si_columns
     assert_allclose(r["Tv"][0], humidity.virtual_temperature(T[0], 0.012), rtol=1e-14)
 

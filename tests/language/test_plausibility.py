@@ -90,3 +90,15 @@ def test_check_names_the_fix(capsys, case, status):
     assert main(["check", str(ERRORS / f"{case}.layers")]) == status
     out = capsys.readouterr().out
     assert ("did you mean" in out) or ("hint:" in out)
+
+
+WARNING_ONLY = [p for p in sorted(ERRORS.glob("*.layers"))
+                if ": warning: " in p.with_suffix(".expected").read_text(encoding="utf-8")]
+
+
+@pytest.mark.parametrize("path", WARNING_ONLY, ids=[p.stem for p in WARNING_ONLY])
+def test_a_warning_does_not_stop_the_run_and_the_report_shows_it(path, capsys):
+    assert len(WARNING_ONLY) >= 3
+    assert main(["run", str(path)]) == 0
+    report = capsys.readouterr().out
+    assert "did you mean [" in report and "warning:" in report
