@@ -255,10 +255,17 @@ class ExpressionChecker:
 
     def refuse_affine(self, node, verb):
         if isinstance(node, TNumber) and node.affine:
-            raise UnitError(
-                f"a degC value cannot be {verb}", node.meta.span,
-                hint="degC is an offset scale: a degC number is an absolute temperature; "
-                     "write differences and products in K")
+            raise UnitError(f"a degC value cannot be {verb}", node.meta.span,
+                            hint=AFFINE_HINTS.get(verb, AFFINE_HINTS[None]))
+
+
+# What to write instead of an operation on a degC number, by operation.
+AFFINE_HINTS = {
+    "negated": "a temperature below freezing takes its sign against the number: -6 degC "
+               "(no brackets between); a temperature difference is written in K: -(6 K)",
+    None: "degC is an offset scale: a degC number is an absolute temperature; "
+          "write differences and products in K",
+}
 
 
 

@@ -194,7 +194,7 @@ class _Builder:
         span = self.span(tree)
         if kind == "literal":
             unit = self.unit(c[1]) if len(c) > 1 else None
-            return Literal(span, float(c[0]), unit)
+            return Literal(span, float(str(c[0]).replace(" ", "").replace("\t", "")), unit)
         if kind == "name":
             return Name(span, str(c[0]))
         if kind == "call":

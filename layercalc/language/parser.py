@@ -19,6 +19,7 @@ _TERMINAL_WORDS = {
     "NAME": "a name",
     "NUMBER": "a number",
     "SIGNED_NUMBER": "a number",
+    "OFFSET_SIGNED": "a number",
     "SIGNED_INT": "a whole number",
     "STRING": 'text in double quotes ("...")',
     "_NL": "the end of the line",
@@ -155,7 +156,7 @@ def _describe_expected(expected: set[str], parser) -> str:
     value_starters = {"NAME", "NUMBER", "LPAR", "MINUS"}
     if value_starters <= names:
         words.append("a value (a number, a name, a function call or '(')")
-        names -= value_starters | {"PLUS", "NOT"}
+        names -= value_starters | {"PLUS", "NOT", "OFFSET_SIGNED"}
     operators = {"PLUS", "MINUS", "STAR", "SLASH", "CIRCUMFLEX", "COMPARE"}
     if len(operators & names) >= 4:
         words.append("an operator (+ - * / ^ or a comparison)")
