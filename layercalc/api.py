@@ -85,10 +85,13 @@ def problems(path_or_text: str | Path, *, is_text: bool = False) -> list[Layerca
         sheet = loads(str(path_or_text)) if is_text else load(path_or_text)
     except LayercalcError as exc:
         return list(getattr(exc, "problems", [exc]))
+    from layercalc.evaluation.uncertainty import check_error_model
+
     found: list[LayercalcError] = []
     for scenario in (None, *sheet.scenarios):  # so that `check` and `run` agree
         try:
             sheet.evaluate(scenario)
+            check_error_model(sheet.checked, scenario)
         except LayercalcError as exc:
             found.append(exc)
     return found

@@ -49,7 +49,24 @@ CANONICAL = {c.name: c for c in (
     Canonical("terrain_slope", "cell", expected_unit="1", meaning="rise over run"),
     Canonical("pressure_advection", "cell", expected_unit="Pa/s",
               meaning="advection of surface pressure by the synoptic pattern"),
+    # the error model (evaluation/uncertainty.py); defaults there, not injected here
+    Canonical("wind_error", "cell", expected_unit="m/s",
+              meaning="random wind error per component, at the lowest level"),
+    Canonical("wind_error_growth", "cell", expected_unit="m s^-1 hPa^-1",
+              meaning="growth of the wind error per pressure depth above the lowest level"),
+    Canonical("level_correlation", "cell", expected_unit="1",
+              meaning="correlation of the errors of adjacent levels or layers"),
+    Canonical("direction_step", "cell", expected_unit="deg",
+              meaning="resolution of the reported wind directions"),
+    Canonical("speed_step", "cell", expected_unit="kt",
+              meaning="resolution of the reported wind speeds"),
+    Canonical("div_error", "cell", expected_unit="s^-1",
+              meaning="error of a hand-entered layer divergence"),
+    Canonical("members", "cell", expected_unit="1", meaning="size of the error ensemble"),
+    Canonical("seed", "cell", expected_unit="1", meaning="seed of the error ensemble"),
 )}
+ERROR_MODEL_CELLS = ("wind_error", "wind_error_growth", "level_correlation", "direction_step",
+                     "speed_step", "div_error", "members", "seed")
 
 PRESSURE_BOUNDS = ("p_bottom", "p_top")          # a layer's bounds; scenarios cannot change them
 LAYER_INPUTS = ("p_bottom", "p_top", "T", "Td", "RH", "r", "div")

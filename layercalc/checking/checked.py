@@ -34,6 +34,8 @@ class CheckedSheet:
     soundings: object = None  # details of layers built from levels/stations (soundings.py)
     # the same sheet checked with other options, by sorted option items (evaluation/scenarios)
     option_variants: dict = field(default_factory=dict, repr=False)
+    # uncertainty assessments by variant name (evaluation/uncertainty.assess_sheet)
+    uncertainty: dict = field(default_factory=dict, repr=False)
 
     def unit_of(self, name: str, kind: str | None = None) -> U.Unit:
         """The display unit of a column or cell (columns first when `kind` is not given)."""

@@ -16,6 +16,22 @@ The JSON document (one per variant; values in SI, layers from the surface upward
 
 A documented key the sheet cannot compute (no `div` column: no omega) is present with null.
 
+"uncertainty" (after "summary", or "soundings" when present) is null without an error model
+(station networks always have one: the reporting resolution), otherwise, in SI:
+
+    "uncertainty": {
+      "model": {"wind_error": ..|null, "wind_error_growth": .., "level_correlation": ..,
+                "direction_step": .., "speed_step": .., "div_error": ..|null,
+                "declared": [names the file gave]},
+      "members": int, "seed": int,
+      "cells": {name: {"sigma": .., "p05": .., "p50": .., "p95": ..}},
+                # sigma exact (linear propagation) for the linear cells, else the
+                # ensemble's; percentiles always from the ensemble
+      "probability_falling": ..,                    # share of members with a falling p_s
+      "layers": {column: [sigma per layer, surface first]},
+      "levels": {"divergence": [..], "vorticity": [..]}}   # station networks only, in
+                # the order of soundings.network.levels.pressure
+
 A sheet built from soundings (`levels` tables or `station` blocks, soundings.py) has one
 more key, "soundings", after "summary" (sheets with a layers table have none): what the
 soundings gave, in SI, levels and layers from the surface upward, null for a missing value.
@@ -32,7 +48,8 @@ It is the same for every scenario (scenario changes act on the layers, not the s
         "smallest_angle": .., "collinearity": .., "smallest_separation": ..,
         "largest_separation": ..,
         "stations": [{"name": str, "latitude": .., "longitude": .., "x": .., "y": ..,
-                      "u": [..], "v": [..]}],      # x, y on the tangent plane about the
+                      "u": [..], "v": [..], "reported": "direction and speed" | "components"}],
+                                                    # x, y on the tangent plane about the
                                                     # centroid; u, v east and north, per level
         "levels": {"pressure": [..], "divergence": [..],
                    "divergence_interpolated": [bool], "vorticity": [..],
@@ -184,6 +201,7 @@ def result_document(sheet, result) -> dict:
     soundings = soundings_document(sheet.checked)
     if soundings is not None:
         document["soundings"] = soundings
+    document["uncertainty"] = uncertainty_document(sheet, result.scenario)
     document.update({
         "options": dict(checked.options),
         "notes": sheet.notes,
@@ -193,6 +211,28 @@ def result_document(sheet, result) -> dict:
         "caution": _caution(),
     })
     return document
+
+
+def uncertainty_document(sheet, scenario: str) -> dict | None:
+    """The "uncertainty" key (see the module docstring); None without an error model."""
+    from layercalc.evaluation.uncertainty import assess_sheet
+
+    found = assess_sheet(sheet, scenario)
+    if found is None:
+        return None
+    model = found.model.as_dict()
+    return {
+        "model": model,
+        "members": found.model.members,
+        "seed": found.model.seed,
+        "cells": {name: {k: _number(v) for k, v in summary.items()}
+                  for name, summary in found.cells.items()},
+        "probability_falling": found.probability_falling,
+        "layers": {name: [_number(x) for x in sigma] for name, sigma in found.layers.items()},
+        **({"levels": {name: [_number(x) for x in sigma]
+                       for name, sigma in found.levels.items()}}
+           if found.levels is not None else {}),
+    }
 
 
 def soundings_document(checked) -> dict | None:
@@ -212,7 +252,8 @@ def soundings_document(checked) -> dict | None:
         network = {**{key: float(getattr(given, key)) for key in NETWORK_KEYS},
                    "stations": [{"name": s.name, "latitude": s.latitude,
                                  "longitude": s.longitude, "x": s.x, "y": s.y,
-                                 "u": jsonable(s.u), "v": jsonable(s.v)}
+                                 "u": jsonable(s.u), "v": jsonable(s.v),
+                                 "reported": s.reported}
                                 for s in given.stations],
                    "levels": _arrays(given.levels, LEVEL_KEYS),
                    "layer_divergence": jsonable(given.layer_divergence)}

@@ -14,6 +14,7 @@ from layercalc.names import INPUT_CELLS, LAYER_INPUTS
 from layercalc.formats.jsondoc import output_unit
 from layercalc.language.units import si_unit_text
 from layercalc.report.compare import render_comparison
+from layercalc.report.uncertainty import lines as uncertainty_lines
 from layercalc.report.layout import (  # the layout helpers, public here as before
     WIDTH, TableColumn, auto, auto_decimals, fixed, grid, is_zero, pressure_text,
     table_lines, unit_words, wrap, wrap_pair,
@@ -83,6 +84,7 @@ class _Report:
         self.add("")
         self.layer_table()
         self.summary()
+        self.add(*uncertainty_lines(self))
         self.soundings()
         self.user_columns()
         self.user_cells()

@@ -227,7 +227,10 @@ def _divergence(network: _Network, notices: list[Notice]) -> tuple[np.ndarray, N
                            np.asarray(result.fit.u_at_origin, dtype=float),
                            np.asarray(result.fit.v_at_origin, dtype=float))
     stations = tuple(NetworkStation(st.name, st.latitude, st.longitude, float(x[i]), float(y[i]),
-                                    u[:, i], v[:, i]) for i, st in enumerate(network.stations))
+                                    u[:, i], v[:, i],
+                                    "direction and speed" if "dir" in network.soundings[i].values
+                                    else "components")
+                     for i, st in enumerate(network.stations))
     layer_divergence = level_physics.layers_from_levels(pressure, filled)[2]
     return filled, Network(float(centre[0]), float(centre[1]), float(result.area),
                            float(shape.smallest_angle_deg), float(shape.collinearity),

@@ -27,6 +27,7 @@ class NetworkStation:
     y: float               # [m], north at the centroid
     u: np.ndarray          # [m/s] per level
     v: np.ndarray          # [m/s] per level
+    reported: str = "components"  # or "direction and speed" (rounding of the report applies)
 
 
 @dataclass(frozen=True)

@@ -24,7 +24,7 @@ from tests.formats.test_xlsx_export import ALL_CASES, case_sheet
 # a workbook stores 16 (openpyxl writes "%.16g"), so these re-import within 1e-16
 # (relative); omega near the ground is a small remainder of large terms there (Dines ratio
 # 0.02), which makes that about 1e-14 in the results, hence 1e-12 for these cases.
-COMPUTED_INPUTS = {"three_stations"}
+COMPUTED_INPUTS = {"three_stations", "three_stations_uncertainty"}
 
 HEADER = ["p_bottom [hPa]", "p_top [hPa]", "T", "Td [degC]", "div [1e-5 s^-1]"]
 ROWS_TOP_FIRST = [[300, 200, -45.0, -55.0, 0.4], [500, 300, -22.0, -35.0, 0.8],

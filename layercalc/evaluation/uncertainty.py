@@ -1,0 +1,401 @@
+"""How far to trust the answer: the sheet's error model, exact propagation and an ensemble.
+
+The error model is a set of input cells with reserved names (``MODEL_CELLS``), so their
+units are checked like any cell and scenarios and sweeps may change them. Station
+networks whose winds are reported as direction and speed always carry at least the
+reporting resolution (``direction_step`` 5 deg, ``speed_step`` 1 kt, uniform errors,
+independent): a floor, never the whole error.
+
+Two methods, side by side:
+- exact linear propagation (physics/uncertainty.py) of the wind or divergence covariance
+  through the fit, the gap fill, the layer means, the adjustment and the integration:
+  sigma of div, div_adjusted, omega, w (at fixed Tv) and of the linear cells (tendency,
+  omega_surface, net and column-mean divergence, top mismatch); for more than three
+  stations also the misfit estimate of the wind error (RSS / (2n - 6)) and the tendency
+  sigma it implies;
+- a Monte Carlo ensemble (physics/ensembles.py) for everything else and for the
+  percentiles: members drawn with a seeded generator, the perturbed divergence handed to
+  the evaluator as its leading scenario axis (one pass, no loop over members).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from layercalc.constants import G0, RD
+from layercalc.errors import DefinitionError
+from layercalc.physics import ensembles as ens, error_models as err, uncertainty as unc
+from layercalc.physics.kinematic import nondivergence_levels
+from layercalc.physics.stations import rotate_wind_to_plane, spherical_centroid, \
+    tangent_plane_coordinates
+from layercalc.physics.winds import wind_direction_and_speed
+
+# Reserved input cells of the error model: name -> (expected unit, SI default or None).
+MODEL_CELLS = {
+    "wind_error": ("m/s", None),              # declared per-component wind error
+    "wind_error_growth": ("m s^-1 hPa^-1", 0.0),  # its growth with depth above the surface
+    "level_correlation": ("1", 0.0),          # correlation of adjacent levels' errors
+    "direction_step": ("deg", np.deg2rad(err.DIRECTION_STEP_DEG)),  # reporting resolution
+    "speed_step": ("kt", err.SPEED_STEP_KT * err.KNOT),
+    "div_error": ("1e-5 s^-1", None),         # hand-entered layer divergence error
+    "members": ("1", 10000.0),
+    "seed": ("1", 1.0),
+}
+# Ensembles below this size give percentiles too rough to print (own choice, no source:
+# the 5 % point of 200 members rests on 10 of them).
+MINIMUM_MEMBERS = 200
+MAXIMUM_MEMBERS = 1_000_000
+# Cells and columns that are linear in the divergence (exact sigma by propagation).
+LINEAR_CELLS = ("surface_pressure_tendency", "omega_surface", "net_mass_divergence",
+                "column_mean_divergence", "top_mismatch")
+
+
+@dataclass(frozen=True)
+class ErrorModel:
+    """One variant's error model, SI. ``declared``: names the file gave."""
+
+    wind_error: float | None
+    wind_error_growth: float
+    level_correlation: float
+    direction_step: float
+    speed_step: float
+    div_error: float | None
+    members: int
+    seed: int
+    declared: tuple = ()
+
+    def as_dict(self) -> dict:
+        return {"wind_error": self.wind_error, "wind_error_growth": self.wind_error_growth,
+                "level_correlation": self.level_correlation,
+                "direction_step": self.direction_step, "speed_step": self.speed_step,
+                "div_error": self.div_error, "declared": list(self.declared)}
+
+
+@dataclass
+class Network:
+    """Station winds as the fit saw them (SI), levels surface first."""
+
+    names: list
+    latitudes: np.ndarray
+    longitudes: np.ndarray
+    pressure: np.ndarray
+    u: np.ndarray            # (levels, n), NaN missing
+    v: np.ndarray
+    reported: bool           # True: direction and speed (rounding applies)
+
+
+@dataclass
+class Assessment:
+    """Uncertainty of one variant. Sigmas SI; ``cells`` name -> EnsembleSummary-like dict."""
+
+    model: ErrorModel
+    cells: dict
+    probability_falling: float | None
+    layers: dict
+    levels: dict | None
+    nondivergence: list = field(default_factory=list)   # (base, p05, p50, p95, found)
+    residual_sigma: np.ndarray | None = None             # per level, n > 3
+    residual_tendency_sigma: float | None = None
+    sensitivity: list = field(default_factory=list)      # (what, change, effect) SI
+    linear: dict = field(default_factory=dict)           # name -> exact sigma
+    ranges: dict = field(default_factory=dict)           # column -> (p05, p95) per layer
+    method: str = ""
+
+
+def error_model(checked, cells: dict | None = None) -> ErrorModel:
+    """The error model of the base sheet or a variant (``cells``: SI overrides (S,))."""
+    values, declared = {}, []
+    for name, (_, default) in MODEL_CELLS.items():
+        value = default
+        if name in checked.input_cells and checked.input_cells[name].given:
+            value, declared = checked.input_cells[name].value, declared + [name]
+        if cells and name in cells:
+            value = float(np.ravel(cells[name])[0])
+            declared = declared if name in declared else declared + [name]
+        values[name] = value
+    _check_ranges(checked, values)
+    return ErrorModel(values["wind_error"], values["wind_error_growth"],
+                      values["level_correlation"], values["direction_step"],
+                      values["speed_step"], values["div_error"], int(values["members"]),
+                      int(values["seed"]), tuple(declared))
+
+
+def _check_ranges(checked, values) -> None:
+    def fail(name, text, hint):
+        cell = checked.input_cells.get(name)
+        raise DefinitionError(f"{name} {text}", cell.span if cell else None, hint=hint)
+
+    for name in ("wind_error", "wind_error_growth", "direction_step", "speed_step",
+                 "div_error"):
+        if values[name] is not None and values[name] < 0:
+            fail(name, "must not be negative", "an error is a standard deviation or a "
+                 "step, 0 or more")
+    if not -1.0 < values["level_correlation"] < 1.0:
+        fail("level_correlation", "must lie strictly between -1 and 1",
+             "0 for independent levels, e.g. 0.3 for weakly correlated ones")
+    members = values["members"]
+    if members != int(members) or not MINIMUM_MEMBERS <= members <= MAXIMUM_MEMBERS:
+        fail("members", f"must be a whole number from {MINIMUM_MEMBERS} to {MAXIMUM_MEMBERS}",
+             "10000 gives percentiles to about 1 %")
+    if values["seed"] != int(values["seed"]) or values["seed"] < 0:
+        fail("seed", "must be a whole number, 0 or more", "any fixed number, e.g. 1")
+
+
+def network_of(checked) -> Network | None:
+    details = checked.soundings
+    given = getattr(details, "network", None) if details is not None else None
+    if given is None:
+        return None
+    stations = given.stations
+    return Network([s.name for s in stations],
+                   np.array([s.latitude for s in stations]),
+                   np.array([s.longitude for s in stations]),
+                   np.asarray(given.levels.pressure, dtype=float),
+                   np.stack([np.asarray(s.u, dtype=float) for s in stations], axis=-1),
+                   np.stack([np.asarray(s.v, dtype=float) for s in stations], axis=-1),
+                   all(s.reported == "direction and speed" for s in stations))
+
+
+def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) -> Assessment | None:
+    """Uncertainty of one variant.
+
+    checked: the base checked sheet; compiled, columns, cells: the variant as the evaluator
+    takes it (``scenario_inputs``); base_columns: its evaluated columns (SI, 1-D).
+    None when the sheet has no divergence or no error model applies.
+    """
+    from layercalc.evaluation.engine import evaluate
+
+    if "div" not in checked.input_columns or "p_bottom" not in checked.input_columns:
+        return None
+    model = error_model(checked, cells)
+    network = network_of(checked)
+    dp = base_columns["p_bottom"] - base_columns["p_top"]
+    layer_count = dp.size
+    integrate = compiled.options.get("integrate", "from_top")
+    adjust = compiled.options.get("adjust", "none") if integrate == "from_surface" else "none"
+    rng = np.random.default_rng(model.seed)
+    members = model.members
+    if network is not None:
+        chain = _network_chain(network, model)
+        layer_cov = chain["to_layers"] @ chain["covariance"] @ chain["to_layers"].T
+        perturbation = _network_members(network, model, chain, rng, members)
+    elif model.div_error is not None:
+        layer_cov = err.layer_divergence_covariance(np.full(layer_count, model.div_error),
+                                                    model.level_correlation)
+        perturbation = ens.draw_correlated_gaussian(
+            rng, members, np.full(layer_count, model.div_error), model.level_correlation)
+        chain = None
+    else:
+        return None
+    omega = unc.omega_matrix(dp, integrate, adjust)
+    adjusted = unc.adjustment_matrix(dp, adjust)
+    linear = _linear_sigmas(base_columns, dp, omega, adjusted, layer_cov, integrate)
+
+    base_div = np.atleast_2d(columns.get("div", checked.input_columns["div"].values))
+    ensemble = evaluate(compiled, {**columns, "div": base_div + perturbation}, cells)
+    summaries = {}
+    for name, values in ensemble.cells.items():
+        if values.shape[0] == members:
+            s = ens.ensemble_summary(values[:, 0])
+            summaries[name] = {"sigma": float(linear.get(name, s.sigma)), "p05": float(s.p05),
+                               "p50": float(s.p50), "p95": float(s.p95)}
+    layers, ranges = {}, {}
+    for name, values in ensemble.columns.items():
+        if values.shape[0] == members:
+            sigma = np.std(values, axis=0, ddof=1)
+            layers[name] = np.asarray(linear.get(name, sigma), dtype=float)
+            if name in ("omega_bottom", "omega_top", "div_adjusted"):
+                ranges[name] = tuple(np.percentile(values, [5.0, 95.0], axis=0))
+    tendency = ensemble.cells.get("surface_pressure_tendency")
+    falling = None if tendency is None or tendency.shape[0] != members else \
+        float(ens.probability_below(tendency[:, 0]))
+    assessment = Assessment(model, summaries, falling, layers, None, linear=linear,
+                            ranges=ranges, method=f"{members} members, seed {model.seed}")
+    if "div_adjusted" in ensemble.columns:
+        assessment.nondivergence = _nondivergence(base_columns, ensemble.columns["div_adjusted"])
+    if chain is not None:
+        assessment.levels = {"divergence": chain["level_sigma"][0],
+                             "vorticity": chain["level_sigma"][1]}
+        row = omega[0] @ chain["to_layers"]
+        assessment.sensitivity = _sensitivity(network, model, row)
+        if network.latitudes.size > 3:
+            assessment.residual_sigma, assessment.residual_tendency_sigma = \
+                _residual(network, chain, row)
+    return assessment
+
+
+def _network_chain(network: Network, model: ErrorModel) -> dict:
+    """Matrices from flat winds (levels, 2, n) to level and layer divergence, and the
+    input covariance (rounding floor plus the declared error)."""
+    levels, n = network.u.shape
+    valid = np.isfinite(network.u) & np.isfinite(network.v)
+    rows = unc.divergence_vorticity_matrix(
+        unc.station_fit_matrix(network.latitudes, network.longitudes, valid))
+    fitted = np.isfinite(rows).all(axis=(-1, -2))
+    rows = np.where(np.isfinite(rows), rows, 0.0)
+    covariance = np.zeros((levels * 2 * n,) * 2)
+    if network.reported:
+        direction, speed = wind_direction_and_speed(network.u, network.v)
+        rounding = err.rounding_component_covariance(
+            direction, speed, np.rad2deg(model.direction_step), model.speed_step)
+        grid = covariance.reshape(levels, 2, n, levels, 2, n)
+        level, station = np.meshgrid(np.arange(levels), np.arange(n), indexing="ij")
+        for c in range(2):
+            for d in range(2):
+                grid[level, c, station, level, d, station] = rounding[..., c, d]
+    if model.wind_error is not None:
+        sigma = err.wind_error_sigma(network.pressure, model.wind_error,
+                                     model.wind_error_growth)
+        grid_sigma = np.broadcast_to(sigma[:, None], (levels, n))
+        covariance = covariance + err.wind_error_covariance(grid_sigma, grid_sigma,
+                                                            model.level_correlation)
+    valid_flat = np.repeat(valid[:, None, :], 2, axis=1).reshape(-1)
+    covariance = covariance * np.outer(valid_flat, valid_flat)
+    divergence_rows = unc.block_diagonal(rows[:, 0:1])
+    vorticity_rows = unc.block_diagonal(rows[:, 1:2])
+    level_sigma = [np.sqrt(np.diag(unc.propagate_covariance(m, covariance)))
+                   for m in (divergence_rows, vorticity_rows)]
+    level_sigma[0] = np.where(fitted, level_sigma[0], np.nan)
+    level_sigma[1] = np.where(fitted, level_sigma[1], np.nan)
+    to_layers = (unc.layer_mean_matrix(levels) @ unc.gap_fill_matrix(network.pressure, fitted)
+                 @ divergence_rows)
+    return {"rows": rows, "valid": valid, "covariance": covariance, "to_layers": to_layers,
+            "level_sigma": level_sigma, "divergence_rows": divergence_rows}
+
+
+def _network_members(network, model, chain, rng, members) -> np.ndarray:
+    """Layer divergence perturbations (members, L): rounding of the reports (exact, not
+    linearised) plus the declared Gaussian error, through the linear fit."""
+    levels, n = network.u.shape
+    u = np.where(chain["valid"], network.u, 0.0)
+    v = np.where(chain["valid"], network.v, 0.0)
+    delta = np.zeros((members, levels, 2, n))
+    if network.reported:
+        direction, speed = wind_direction_and_speed(u, v)
+        du, dv = ens.perturb_reported_winds(rng, members, direction, speed,
+                                            np.rad2deg(model.direction_step), model.speed_step)
+        delta[:, :, 0], delta[:, :, 1] = du - u, dv - v
+    if model.wind_error is not None:
+        sigma = err.wind_error_sigma(network.pressure, model.wind_error,
+                                     model.wind_error_growth)
+        delta += ens.draw_correlated_gaussian(
+            rng, members, np.broadcast_to(sigma[:, None, None], (levels, 2, n)),
+            model.level_correlation)
+    delta *= chain["valid"][None, :, None, :]
+    return delta.reshape(members, -1) @ chain["to_layers"].T
+
+
+def _linear_sigmas(columns, dp, omega, adjusted, layer_cov, integrate) -> dict:
+    def sigma(matrix):
+        return np.sqrt(np.maximum(np.diag(unc.propagate_covariance(matrix, layer_cov)), 0.0))
+
+    interface = sigma(omega)
+    out = {"div": sigma(np.eye(dp.size)), "div_adjusted": sigma(adjusted),
+           "omega_bottom": interface[:-1], "omega_top": interface[1:]}
+    if "Tv" in columns:  # w = -omega Rd Tv / (p g0): linear in omega at fixed Tv
+        out["w_bottom"] = out["omega_bottom"] * RD * columns["Tv"] / (columns["p_bottom"] * G0)
+        out["w_top"] = out["omega_top"] * RD * columns["Tv"] / (columns["p_top"] * G0)
+    out["omega_surface"] = out["surface_pressure_tendency"] = float(interface[0])
+    out["net_mass_divergence"] = float(sigma(dp[None, :])[0])
+    out["column_mean_divergence"] = out["net_mass_divergence"] / float(np.sum(dp))
+    # from the top the mismatch is 0 by construction; from the surface it is
+    # omega_s + sum(div dp) - omega_top, of the divergence as given
+    out["top_mismatch"] = 0.0 if integrate == "from_top" else out["net_mass_divergence"]
+    return out
+
+
+def _nondivergence(columns, members_div) -> list:
+    """For each level of non-divergence of the variant: the members' nearest crossing."""
+    base = nondivergence_levels(columns["p_mid"], columns["div_adjusted"]) \
+        if np.any(columns["div_adjusted"]) else []
+    log_p = np.log(columns["p_mid"])
+    lower, upper = members_div[:, :-1], members_div[:, 1:]
+    crossing = lower * upper < 0
+    with np.errstate(all="ignore"):
+        fraction = lower / (lower - upper)
+    crossing_log_p = np.where(crossing, log_p[:-1] + (log_p[1:] - log_p[:-1]) * fraction,
+                              np.nan)
+    out = []
+    for level in base:
+        distance = np.abs(crossing_log_p - np.log(level))
+        has = crossing.any(axis=1)
+        nearest = np.take_along_axis(crossing_log_p, np.nanargmin(
+            np.where(np.isfinite(distance), distance, np.inf), axis=1)[:, None], axis=1)[:, 0]
+        found = np.exp(nearest[has])
+        p05, p50, p95 = np.percentile(found, [5, 50, 95]) if found.size else (np.nan,) * 3
+        out.append((level, float(p05), float(p50), float(p95), float(has.mean())))
+    return out
+
+
+def _sensitivity(network, model, row) -> list:
+    """The tendency's change for one reporting step of each wind, largest first."""
+    levels, n = network.u.shape
+    per_wind = row.reshape(levels, 2, n)
+    out = []
+    if network.reported:
+        direction, speed = wind_direction_and_speed(network.u, network.v)
+        jacobian = err.wind_component_jacobian(direction, speed)
+        effect = np.einsum("lcs,lscj->lsj", per_wind, np.nan_to_num(jacobian))
+        for (label, j, step) in (("direction", 0, model.direction_step),
+                                 ("speed", 1, model.speed_step)):
+            for level in range(levels):
+                for s in range(n):
+                    out.append((f"{label} at {network.pressure[level] / 100:g} hPa, "
+                                f"{network.names[s]}", label, step,
+                                float(effect[level, s, j] * step)))
+    if model.wind_error is not None:
+        sigma = err.wind_error_sigma(network.pressure, model.wind_error,
+                                     model.wind_error_growth)
+        for level in range(levels):
+            for s in range(n):
+                for c, name in enumerate(("u", "v")):
+                    out.append((f"{name} at {network.pressure[level] / 100:g} hPa, "
+                                f"{network.names[s]}", name, float(sigma[level]),
+                                float(per_wind[level, c, s] * sigma[level])))
+    ranked = err.rank_sensitivity(np.array([o[3] for o in out]), 1.0)
+    return [out[i] for i in ranked.order[:8]]
+
+
+def _residual(network, chain, row):
+    """Misfit estimate of the wind error per level and the tendency sigma it implies."""
+    centre = spherical_centroid(network.latitudes, network.longitudes)
+    x, y, north = tangent_plane_coordinates(network.latitudes, network.longitudes, *centre)
+    u, v = rotate_wind_to_plane(network.u, network.v, north)
+    sigma = err.residual_wind_sigma(x, y, u, v)
+    levels, n = network.u.shape
+    grid = np.broadcast_to(np.nan_to_num(sigma)[:, None], (levels, n))
+    covariance = err.wind_error_covariance(grid, grid, 0.0)
+    return sigma, float(np.sqrt(row @ covariance @ row))
+
+
+def assess_sheet(sheet, scenario: str | None = None) -> Assessment | None:
+    """``assess`` for the base sheet or a named scenario of an API ``Sheet``."""
+    checked = sheet.checked
+    key = scenario or "base"
+    if key not in checked.uncertainty:
+        checked.uncertainty[key] = _assess_variant(sheet, None if key == "base" else key)
+    return checked.uncertainty[key]
+
+
+def _assess_variant(sheet, scenario):
+    checked = sheet.checked
+    result = sheet.evaluate(scenario)
+    if scenario in (None, "base"):
+        compiled, columns, cells = checked, {}, {}
+    else:
+        from layercalc.evaluation.scenarios import scenario_inputs
+
+        compiled, columns, cells = scenario_inputs(checked, scenario)
+    return assess(checked, compiled, columns, cells, result.si_columns)
+
+
+def check_error_model(checked, scenario: str | None = None) -> ErrorModel:
+    """The error model of a variant, its values checked (for ``layercalc check``)."""
+    cells = {}
+    if scenario not in (None, "base"):
+        from layercalc.evaluation.scenarios import scenario_inputs
+
+        cells = scenario_inputs(checked, scenario)[2]
+    return error_model(checked, cells)

@@ -1,0 +1,117 @@
+"""Tests of layercalc.evaluation.uncertainty: the sheet's error model, exact propagation
+beside the ensemble, scenarios, reproducibility and bad input.
+
+Sources of expected values are given beside each check; Monte Carlo bounds are 5
+standard errors of the statistic (derivation in tests/physics/test_uncertainty.py).
+"""
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+
+import layercalc
+from layercalc.errors import LayercalcError
+from layercalc.evaluation.uncertainty import assess_sheet
+from layercalc.physics import ensembles as ens
+
+CASES = Path(__file__).resolve().parents[2] / "worked_cases"
+HAND = """title "Made-up column with hand-entered divergence"
+cell div_error = 0.3 [1e-5 s^-1]
+cell members = 20000
+cell seed = 5
+layers
+  p_bottom [hPa]  p_top [hPa]  T [degC]  div [1e-5 s^-1]
+  1000  900   10   -1.0
+  900   800    5   -0.5
+  800   700    0    0.0
+  700   600   -8    0.5
+  600   500  -16    0.8
+end
+"""
+
+
+def test_tendency_sigma_for_hand_entered_divergence_is_sigma_dp_root_k():
+    # source: derived, from the top omega_s = -sum D dp, sigma = sigma_D dp sqrt(k) for k
+    # independent layers of equal depth dp; ensemble within 5 standard errors of s for a
+    # normal variable, 5 sqrt(2 / N) / 2 = 2.5 % at N = 20000
+    assessment = assess_sheet(layercalc.loads(HAND))
+    want = 0.3e-5 * 10000.0 * np.sqrt(5.0)
+    assert_allclose(assessment.linear["surface_pressure_tendency"], want, rtol=1e-12)
+    cell = assessment.cells["surface_pressure_tendency"]
+    assert cell["sigma"] == assessment.linear["surface_pressure_tendency"]
+    # the ensemble's 5-95 % range is +-1.645 sigma about the value (normal errors)
+    sheet = layercalc.loads(HAND)
+    value = sheet.evaluate().si_cells["surface_pressure_tendency"]
+    half = (cell["p95"] - cell["p05"]) / 2.0
+    assert_allclose(half, ens.NORMAL_QUANTILE_95 * want, rtol=0.05)  # quantile SE ~1 %
+    assert_allclose(cell["p50"], value, atol=0.05 * want)
+    p = ens.normal_probability_below(value, want)
+    assert abs(assessment.probability_falling - p) < 5 * np.sqrt(p * (1 - p) / 20000)
+
+
+def test_station_network_ensemble_agrees_with_exact_propagation():
+    # source: derived (exact linear propagation of the linearised rounding covariance);
+    # the ensemble draws the rounding exactly (uniform direction and speed), a sum of 54
+    # small independent terms, nearly normal: 5 sqrt(2 / N) / 2 = 3.5 % at N = 10000
+    assessment = assess_sheet(layercalc.load(CASES / "three_stations.layers"))
+    assert assessment is not None and assessment.model.members == 10000
+    linear = assessment.linear["surface_pressure_tendency"]
+    sheet = layercalc.load(CASES / "three_stations.layers")
+    from layercalc.evaluation.uncertainty import network_of
+    assert network_of(sheet.checked).reported
+    spread = assessment.cells["surface_pressure_tendency"]
+    # the percentiles come from the ensemble; their half range must be near 1.645 sigma
+    assert_allclose((spread["p95"] - spread["p05"]) / 2.0, ens.NORMAL_QUANTILE_95 * linear,
+                    rtol=0.05)
+    # levels: one sigma per level of soundings.network.levels.pressure, all positive
+    assert assessment.levels["divergence"].shape == (9,)
+    assert np.all(assessment.levels["divergence"] > 0)
+
+
+def test_ensemble_is_reproducible_and_the_seed_matters():
+    # source: common practice, no source (a seeded generator repeats itself)
+    sheet = layercalc.loads(HAND)
+    first, again = assess_sheet(sheet), assess_sheet(sheet)
+    assert first.cells == again.cells
+    other = assess_sheet(layercalc.loads(HAND.replace("seed = 5", "seed = 6")))
+    assert other.cells["surface_pressure_tendency"]["p05"] != \
+        first.cells["surface_pressure_tendency"]["p05"]
+
+
+def test_a_scenario_changes_the_error_model():
+    # source: derived, the declared error adds variance: the instrument variant's exact
+    # sigma must exceed the rounding floor's; the growth makes the upper levels worse
+    sheet = layercalc.load(CASES / "three_stations_uncertainty.layers")
+    base, instrument = assess_sheet(sheet), assess_sheet(sheet, "instrument")
+    assert instrument.model.wind_error == pytest.approx(1.5)
+    assert base.model.wind_error == 0.0
+    assert instrument.linear["surface_pressure_tendency"] > \
+        1.2 * base.linear["surface_pressure_tendency"]
+    assert np.all(instrument.levels["divergence"] > base.levels["divergence"])
+
+
+@pytest.mark.parametrize("old, line, words", [
+    ("cell seed = 5", "cell level_correlation = 1",
+     "level_correlation must lie strictly between -1 and 1"),
+    ("cell members = 20000", "cell members = 10", "members must be a whole number"),
+    ("cell div_error = 0.3 [1e-5 s^-1]", "cell div_error = -1 [1e-5 s^-1]",
+     "div_error must not be negative"),
+])
+def test_bad_error_model_values_are_refused_with_their_position(old, line, words):
+    text = HAND.replace(old, line)
+    with pytest.raises(LayercalcError) as caught:
+        assess_sheet(layercalc.loads(text, "case.layers"))
+    assert words in caught.value.message
+    assert caught.value.span is not None
+    # layercalc check finds it too, at the cell's line
+    found = layercalc.problems(text, is_text=True)
+    assert [words in p.message for p in found] == [True]
+
+
+def test_error_model_units_are_checked_like_any_cell():
+    text = HAND.replace("cell seed = 5", "cell wind_error = 3 K")
+    with pytest.raises(LayercalcError) as caught:
+        layercalc.loads(text, "case.layers")
+    assert "cell wind_error must be a speed, not a temperature" in caught.value.message
