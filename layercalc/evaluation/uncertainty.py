@@ -238,8 +238,8 @@ def _network_chain(network: Network, model: ErrorModel) -> dict:
     covariance = np.zeros((levels * 2 * n,) * 2)
     if network.reported:
         direction, speed = wind_direction_and_speed(network.u, network.v)
-        rounding = err.rounding_component_covariance(
-            direction, speed, np.rad2deg(model.direction_step), model.speed_step)
+        rounding = np.nan_to_num(err.rounding_component_covariance(  # missing winds: 0
+            direction, speed, np.rad2deg(model.direction_step), model.speed_step))
         grid = covariance.reshape(levels, 2, n, levels, 2, n)
         level, station = np.meshgrid(np.arange(levels), np.arange(n), indexing="ij")
         for c in range(2):

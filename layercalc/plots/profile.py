@@ -144,6 +144,14 @@ def _profile_panel(ax, sheet, result, u) -> None:
         xa, ya = steps(u["1e-5 s^-1"].from_si(columns["div_adjusted"]), pb, pt)
         ax.plot(xa, ya, "--", color=DIVERGENCE_COLOUR, label="divergence, adjusted",
                 gid="steps_div_adjusted")
+    assessment = _uncertainty(sheet, result)
+    if assessment is not None and "div" in assessment.layers:
+        middle = np.sqrt(pb * pt)  # error bars at the layer's log-pressure midpoint
+        ax.errorbar(u["1e-5 s^-1"].from_si(columns["div"]), middle,
+                    xerr=u["1e-5 s^-1"].from_si(assessment.layers["div"]), fmt="none",
+                    ecolor=DIVERGENCE_COLOUR, elinewidth=0.8, capsize=2, gid="div_error")
+        x = np.concatenate([x, x + u["1e-5 s^-1"].from_si(assessment.layers["div"]).max(),
+                            x - u["1e-5 s^-1"].from_si(assessment.layers["div"]).max()])
     ax.axvline(0.0, color="grey", linewidth=0.8)
     ax.set_xlabel("divergence (1e-5 s^-1)", color=DIVERGENCE_COLOUR)
     span = max(np.abs(x).max(), 1e-3) * 1.15
@@ -158,14 +166,32 @@ def _profile_panel(ax, sheet, result, u) -> None:
     top = ax.twiny()
     top.plot(u[HPA_PER_HOUR].from_si(omega), p_hpa, "o-", color=OMEGA_COLOUR, markersize=3,
              label="omega at interfaces", gid="omega")
+    shown = [u[HPA_PER_HOUR].from_si(omega)]
+    if assessment is not None and "omega_top" in assessment.ranges:
+        low = np.concatenate([assessment.ranges["omega_bottom"][0][:1],
+                              assessment.ranges["omega_top"][0]])
+        high = np.concatenate([assessment.ranges["omega_bottom"][1][:1],
+                               assessment.ranges["omega_top"][1]])
+        low, high = u[HPA_PER_HOUR].from_si(low), u[HPA_PER_HOUR].from_si(high)
+        top.fill_betweenx(p_hpa, low, high, color=OMEGA_COLOUR, alpha=0.15, linewidth=0,
+                          label="omega, 5-95 % of the error ensemble", gid="omega_range")
+        shown += [low, high]
     top.set_xlabel("omega (hPa/h; negative = ascent)", color=OMEGA_COLOUR)
-    omega_span = max(np.abs(u[HPA_PER_HOUR].from_si(omega)).max(), 1e-3) * 1.15
+    omega_span = max(np.abs(np.concatenate(shown)).max(), 1e-3) * 1.15
     top.set_xlim(-omega_span, omega_span)
     top.set_ylim(ax.get_ylim())
-    lines = ax.get_lines() + top.get_lines()
+    lines = ax.get_lines() + top.get_lines() + [c for c in top.collections
+                                                 if c.get_gid() == "omega_range"]
     ax.legend([ln for ln in lines if not ln.get_label().startswith("_")],
               [ln.get_label() for ln in lines if not ln.get_label().startswith("_")],
               loc="best", fontsize="small")
+
+
+def _uncertainty(sheet, result):
+    """The variant's error assessment (evaluation/uncertainty.py), or None."""
+    from layercalc.evaluation.uncertainty import assess_sheet
+
+    return assess_sheet(sheet, result.scenario)
 
 
 def _scenario_panel(ax, sheet, names: list[str], u) -> None:

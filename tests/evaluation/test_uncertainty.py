@@ -115,3 +115,18 @@ def test_error_model_units_are_checked_like_any_cell():
     with pytest.raises(LayercalcError) as caught:
         layercalc.loads(text, "case.layers")
     assert "cell wind_error must be a speed, not a temperature" in caught.value.message
+
+
+def test_a_missing_wind_leaves_finite_sigmas_through_the_gap_fill():
+    # source: derived, an unfitted level is interpolated in ln p from fitted ones, so the
+    # layer sigmas stay finite while that level's own sigma is undefined (None in JSON)
+    from tests.physics.test_stations import triangle
+    from tests.soundings.test_soundings import network_text
+
+    latitudes, longitudes = triangle(50.0, 5.0, 15.0)
+    sheet = layercalc.loads(network_text(latitudes, longitudes, missing=[(1, 2)]), "gap.layers")
+    assessment = assess_sheet(sheet)
+    assert np.all(np.isfinite(assessment.layers["div"]))
+    assert np.all(np.isfinite(assessment.layers["omega_top"]))
+    assert np.isnan(assessment.levels["divergence"][2])
+    assert np.isfinite(np.delete(assessment.levels["divergence"], 2)).all()
