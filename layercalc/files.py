@@ -90,3 +90,36 @@ def write_all_or_none(outputs: list[tuple[str | Path, bytes]]) -> None:
             except (OSError, OutputError):
                 pass  # the newer file is complete (atomic); the first error is the one to tell
         raise
+
+
+def write_through_temporary(path: str | Path, writer) -> None:
+    """For writers that need a file name (netCDF): `writer(temporary_path)` writes a
+    temporary file in the target's folder, which is renamed over `path` when the writer
+    returns; any failure removes it and leaves the target untouched."""
+    path = Path(path)
+    folder = path.parent if str(path.parent) else Path(".")
+    if path.is_dir():
+        raise OutputError(f"cannot write {path}: it is a folder",
+                          hint="give a file name, e.g. " + str(path / "out"))
+    if not folder.is_dir():
+        what = "is not a folder" if folder.exists() else "does not exist"
+        raise OutputError(f"cannot write {path}: {folder} {what}", hint=_HINT)
+    try:
+        handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp",
+                                             dir=folder)
+        os.close(handle)
+    except OSError as exc:
+        raise OutputError(f"cannot write {path}: {exc.strerror or exc}", hint=_HINT) from None
+    try:
+        writer(temporary)
+        os.chmod(temporary, file_mode(path))
+        os.replace(temporary, path)
+    except BaseException as exc:
+        try:
+            os.unlink(temporary)
+        except OSError:
+            pass
+        if isinstance(exc, OSError):
+            raise OutputError(f"cannot write {path}: {exc.strerror or exc}",
+                              hint=_HINT) from None
+        raise

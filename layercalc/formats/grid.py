@@ -194,8 +194,10 @@ def read_grid(path: str | Path, chunks: dict | None = None,
               required: tuple[str, ...] = REQUIRED) -> GriddedFields:
     """Open a netCDF or GRIB file of model fields on pressure levels.
 
-    `chunks` (dims of the file, e.g. {"x": 200, "y": 200}) makes every variable a lazy dask
-    array; without it the fields are loaded lazily by xarray without dask.
+    `chunks` (canonical dims: {"y": 200, "x": 200, "time": 1}) makes every variable a lazy
+    dask array, one chunk along the levels; the file is opened in its own natural pieces
+    (a GRIB message, a netCDF chunk) and cut into these chunks after reading, so that no
+    message is decoded twice. Without `chunks` xarray reads lazily without dask.
     """
     path = Path(path)
     if not path.is_file():
@@ -214,13 +216,30 @@ def read_grid(path: str | Path, chunks: dict | None = None,
         if chunks:
             require(("dask",), "grid", "reading in chunks")
         try:
-            dataset = xr.open_dataset(path, chunks=chunks, decode_timedelta=False)
+            dataset = xr.open_dataset(path, chunks={} if chunks is not None else None,
+                                      decode_timedelta=False)
         except (OSError, ValueError) as exc:
             raise InputError(f"cannot read {path} as netCDF: {exc}") from None
-        return interpret_datasets({"netcdf": dataset}, path.name, "netcdf", required)
-    require(("xarray", "cfgrib", "eccodes"), "grib", "reading GRIB")
-    inventory = grib_inventory(path)
-    return interpret_datasets(_open_grib(path, inventory, chunks), path.name, "grib", required)
+        fields = interpret_datasets({"netcdf": dataset}, path.name, "netcdf", required)
+    else:
+        require(("xarray", "cfgrib", "eccodes"), "grib", "reading GRIB")
+        if chunks is not None:
+            require(("dask",), "grib", "reading in chunks")
+        inventory = grib_inventory(path)
+        fields = interpret_datasets(_open_grib(path, inventory, chunks), path.name, "grib",
+                                    required)
+    if chunks is None:
+        return fields
+    unknown = set(chunks) - {"y", "x", "time"}
+    if unknown:
+        raise InputError(f"chunks along {', '.join(sorted(unknown))}: only y, x and time "
+                         f"can be chunked", hint="e.g. --chunks y=200,x=200 (levels stay "
+                         "in one chunk)")
+    wanted = {dim: size for dim, size in chunks.items() if dim in fields.dataset.dims}
+    dataset = fields.dataset.chunk({**wanted, **({"level": -1} if "level" in
+                                                  fields.dataset.dims else {})})
+    return GriddedFields(dataset, fields.geometry, fields.source, fields.humidity,
+                         fields.notes)
 
 
 def grib_inventory(path: str | Path) -> dict[tuple[str, str], list[float]]:
@@ -262,7 +281,8 @@ def _open_grib(path: Path, inventory, chunks):
         for short in variable.grib_names:
             if (short, level_type) not in inventory:
                 continue
-            dataset = xr.open_dataset(path, engine="cfgrib", chunks=chunks,
+            dataset = xr.open_dataset(path, engine="cfgrib",
+                                      chunks={} if chunks is not None else None,
                                       decode_timedelta=False, backend_kwargs={
                                           "filter_by_keys": {"shortName": short,
                                                              "typeOfLevel": level_type},
