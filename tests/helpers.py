@@ -58,3 +58,23 @@ def process(*args, cwd: Path) -> subprocess.CompletedProcess:
     env["PYTHONPATH"] = os.pathsep.join([str(PACKAGE_ROOT), env.get("PYTHONPATH", "")])
     return subprocess.run([sys.executable, "-m", "layercalc", *map(str, args)], cwd=cwd,
                           env=env, capture_output=True, text=True, timeout=300)
+
+
+def optional(*modules: str):
+    """Import optional packages (the grid and grib extras) or skip the test module; in CI
+    (.ci/run sets LAYERCALC_REQUIRE_GRID=1) a missing package is a failure, not a skip."""
+    import importlib
+    import os
+
+    import pytest
+
+    loaded = []
+    for name in modules:
+        try:
+            loaded.append(importlib.import_module(name))
+        except ImportError:
+            if os.environ.get("LAYERCALC_REQUIRE_GRID") == "1":
+                raise
+            pytest.skip(f"needs {name} (pip install 'layercalc[grib]')",
+                        allow_module_level=True)
+    return loaded[0] if len(loaded) == 1 else loaded

@@ -162,6 +162,10 @@ def build_parser() -> argparse.ArgumentParser:
                        "(.png): a line for one range, a shaded grid for two")
     sweep.add_argument("--quiet", action="store_true", help="do not print the table")
     sweep.set_defaults(handler=command_sweep)
+
+    from layercalc.cli.grid import add_grid_commands
+
+    add_grid_commands(sub, _command)
     return parser
 
 

@@ -271,6 +271,25 @@ _GRIB_KEYS = ["uvRelativeToGrid", "LoVInDegrees", "Latin1InDegrees", "Latin2InDe
               "iScansNegatively", "jScansPositively"]
 
 
+_INDEX_FOLDER: list = []
+
+
+def _index_path(path: Path) -> str:
+    """Where cfgrib keeps its message index for this process: a temporary folder (removed
+    at exit), never beside the user's file. The index is built by the first open of a file
+    and reused by the opens of the other variables (one scan of the file, not one each)."""
+    import os
+    import tempfile
+
+    import hashlib
+
+    if not _INDEX_FOLDER:
+        _INDEX_FOLDER.append(tempfile.TemporaryDirectory(prefix="layercalc-grib-"))
+    status = path.stat()
+    key = hashlib.sha1(f"{path.resolve()}|{status.st_size}|{status.st_mtime_ns}".encode())
+    return os.path.join(_INDEX_FOLDER[0].name, key.hexdigest()[:16] + ".{short_hash}.idx")
+
+
 def _open_grib(path: Path, inventory, chunks):
     """One dataset per canonical variable, each opened with its own filter."""
     import xarray as xr
@@ -286,7 +305,8 @@ def _open_grib(path: Path, inventory, chunks):
                                       decode_timedelta=False, backend_kwargs={
                                           "filter_by_keys": {"shortName": short,
                                                              "typeOfLevel": level_type},
-                                          "indexpath": "", "read_keys": _GRIB_KEYS})
+                                          "indexpath": _index_path(path),
+                                          "read_keys": _GRIB_KEYS})
             if short in dataset.data_vars:
                 opened[name] = dataset
                 break

@@ -17,9 +17,9 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-pytest.importorskip("dask")
-pytest.importorskip("cfgrib")
-pytest.importorskip("netCDF4")
+from tests.helpers import optional  # noqa: E402
+
+optional("dask", "cfgrib", "netCDF4", "xarray")
 
 from layercalc.api import loads  # noqa: E402
 from layercalc.evaluation import grid as engine  # noqa: E402

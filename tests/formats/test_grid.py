@@ -16,8 +16,9 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-xr = pytest.importorskip("xarray")
-pytest.importorskip("netCDF4")
+from tests.helpers import optional  # noqa: E402
+
+xr, _ = optional("xarray", "netCDF4")
 
 from layercalc.errors import InputError, LayercalcError  # noqa: E402
 from layercalc.formats import grid as reader  # noqa: E402
@@ -29,9 +30,7 @@ GFS_GRIB = DATA / "gfs_region_subset.grib2"
 GFS_NC = DATA / "gfs_global_uv.nc"
 NAM_NC = DATA / "nam211_lambert.nc"
 
-needs_grib = pytest.mark.skipif(
-    not all(__import__("importlib").util.find_spec(m) for m in ("cfgrib", "eccodes")),
-    reason="GRIB tests need the grib extra (cfgrib, eccodes)")
+optional("cfgrib", "eccodes", "dask")  # the grib extra, for the whole module
 
 
 @functools.lru_cache(maxsize=None)
@@ -60,7 +59,6 @@ def decode_fields(path, short_name, multi):
     return fields
 
 
-@needs_grib
 def test_multi_field_messages_give_v():
     # The trap: NAM packs u and v of a level in one message. Without multi-field support
     # ecCodes sees u only (ecCodes 2.50, the file's own inventory: 19 levels of each).
@@ -78,7 +76,6 @@ def test_multi_field_messages_give_v():
     assert not np.allclose(u.values, v.values)
 
 
-@needs_grib
 def test_variables_with_their_own_level_sets_are_kept():
     # The trap: opened with one filter for all isobaric fields, cfgrib keeps the level set
     # it met first (26 levels) and skips relative humidity (25) and omega (21).
@@ -93,7 +90,6 @@ def test_variables_with_their_own_level_sets_are_kept():
     assert any("70, 50, 30, 20, 10 hPa dropped" in note for note in fields.notes)
 
 
-@needs_grib
 def test_grib_units_and_order():
     fields = read(GFS_GRIB)
     ds = fields.dataset
@@ -108,7 +104,6 @@ def test_grib_units_and_order():
     assert fields.geometry.radius == 6371229.0          # GRIB shape of the Earth 6
 
 
-@needs_grib
 def test_lambert_grid_from_grib_matches_pyproj():
     pyproj = pytest.importorskip("pyproj")
     geometry = read(NAM_GRIB).geometry
@@ -122,7 +117,6 @@ def test_lambert_grid_from_grib_matches_pyproj():
     assert np.abs(y - geometry.y[:, None]).max() < 50.0
 
 
-@needs_grib
 def test_netcdf_lambert_subset_equals_the_grib():
     # nam211_lambert.nc holds grid-relative x_wind/y_wind cut from the same messages;
     # after turning, both readers must give the same earth-relative winds (float32)
