@@ -20,12 +20,8 @@ Canonical variables (found by CF standard name in netCDF, by GRIB short name in 
 | ps | surface pressure [Pa] | surface_air_pressure | sp |
 | orography | surface height [m] | surface_altitude, surface_geopotential (/ g0) | orog |
 
-Two traps of GRIB files handled here, each with a test: NCEP packs u and v of a level into
-one multi-field message, which ecCodes reads as u alone unless multi-field support is on
-(cfgrib switches it on; `grib_inventory` does too); and cfgrib drops a variable whose level
-set differs from the first one it met (GFS: relative humidity and omega have fewer levels
-than the winds), so every variable is opened with its own filter. The layering rule is
-formats/__init__'s.
+GRIB files are opened in `formats.grib`, which describes the two traps of NCEP GRIB files
+it avoids. The layering rule is formats/__init__'s.
 """
 
 from __future__ import annotations
@@ -42,8 +38,8 @@ from layercalc.physics.grid import (
     lambert_inverse, lambert_map_factor, wraps_in_longitude,
 )
 
-__all__ = ["GridGeometry", "GriddedFields", "read_grid", "interpret_datasets",
-           "grib_inventory", "require", "VARIABLES"]
+__all__ = ["GridGeometry", "GriddedFields", "read_grid", "interpret_datasets", "require",
+           "VARIABLES"]
 
 GRIB_SUFFIXES = (".grib", ".grb", ".grib2", ".grb2", ".grib1", ".grb1")
 NETCDF_SUFFIXES = (".nc", ".nc4", ".netcdf", ".cdf")
@@ -225,9 +221,12 @@ def read_grid(path: str | Path, chunks: dict | None = None,
         require(("xarray", "cfgrib", "eccodes"), "grib", "reading GRIB")
         if chunks is not None:
             require(("dask",), "grib", "reading in chunks")
-        inventory = grib_inventory(path)
-        fields = interpret_datasets(_open_grib(path, inventory, chunks), path.name, "grib",
-                                    required)
+        from layercalc.formats.grib import grib_inventory, open_grib
+
+        wanted = {name: ("isobaricInhPa" if variable.on_levels else "surface",
+                         variable.grib_names) for name, variable in VARIABLES.items()}
+        fields = interpret_datasets(open_grib(path, grib_inventory(path), chunks, wanted),
+                                    path.name, "grib", required)
     if chunks is None:
         return fields
     unknown = set(chunks) - {"y", "x", "time"}
@@ -240,77 +239,6 @@ def read_grid(path: str | Path, chunks: dict | None = None,
                                                   fields.dataset.dims else {})})
     return GriddedFields(dataset, fields.geometry, fields.source, fields.humidity,
                          fields.notes)
-
-
-def grib_inventory(path: str | Path) -> dict[tuple[str, str], list[float]]:
-    """(shortName, typeOfLevel) -> sorted levels of every field in a GRIB file, read with
-    multi-field support on (without it, the v of NCEP's u/v messages is not seen)."""
-    import eccodes
-
-    found: dict[tuple[str, str], set] = {}
-    eccodes.codes_grib_multi_support_on()
-    try:
-        with open(path, "rb") as stream:
-            eccodes.codes_grib_multi_support_reset_file(stream)
-            while (handle := eccodes.codes_grib_new_from_file(stream)) is not None:
-                try:
-                    key = (eccodes.codes_get(handle, "shortName"),
-                           eccodes.codes_get(handle, "typeOfLevel"))
-                    found.setdefault(key, set()).add(float(eccodes.codes_get(handle, "level")))
-                finally:
-                    eccodes.codes_release(handle)
-    except eccodes.CodesInternalError as exc:
-        raise InputError(f"cannot read {Path(path).name} as GRIB: {exc}") from None
-    finally:
-        eccodes.codes_grib_multi_support_off()
-    return {key: sorted(levels) for key, levels in found.items()}
-
-
-_GRIB_KEYS = ["uvRelativeToGrid", "LoVInDegrees", "Latin1InDegrees", "Latin2InDegrees",
-              "LaDInDegrees", "radius", "shapeOfTheEarth", "DxInMetres", "DyInMetres",
-              "iScansNegatively", "jScansPositively"]
-
-
-_INDEX_FOLDER: list = []
-
-
-def _index_path(path: Path) -> str:
-    """Where cfgrib keeps its message index for this process: a temporary folder (removed
-    at exit), never beside the user's file. The index is built by the first open of a file
-    and reused by the opens of the other variables (one scan of the file, not one each)."""
-    import os
-    import tempfile
-
-    import hashlib
-
-    if not _INDEX_FOLDER:
-        _INDEX_FOLDER.append(tempfile.TemporaryDirectory(prefix="layercalc-grib-"))
-    status = path.stat()
-    key = hashlib.sha1(f"{path.resolve()}|{status.st_size}|{status.st_mtime_ns}".encode())
-    return os.path.join(_INDEX_FOLDER[0].name, key.hexdigest()[:16] + ".{short_hash}.idx")
-
-
-def _open_grib(path: Path, inventory, chunks):
-    """One dataset per canonical variable, each opened with its own filter."""
-    import xarray as xr
-
-    opened = {}
-    for name, variable in VARIABLES.items():
-        level_type = "isobaricInhPa" if variable.on_levels else "surface"
-        for short in variable.grib_names:
-            if (short, level_type) not in inventory:
-                continue
-            dataset = xr.open_dataset(path, engine="cfgrib",
-                                      chunks={} if chunks is not None else None,
-                                      decode_timedelta=False, backend_kwargs={
-                                          "filter_by_keys": {"shortName": short,
-                                                             "typeOfLevel": level_type},
-                                          "indexpath": _index_path(path),
-                                          "read_keys": _GRIB_KEYS})
-            if short in dataset.data_vars:
-                opened[name] = dataset
-                break
-    return opened
 
 
 def interpret_datasets(datasets: dict, name: str, kind: str,

@@ -22,6 +22,7 @@ xr, _ = optional("xarray", "netCDF4")
 
 from layercalc.errors import InputError, LayercalcError  # noqa: E402
 from layercalc.formats import grid as reader  # noqa: E402
+from layercalc.formats.grib import grib_inventory  # noqa: E402
 from layercalc.physics.grid import divergence_latlon  # noqa: E402
 
 DATA = Path(__file__).resolve().parents[1] / "data" / "grid"
@@ -65,7 +66,7 @@ def test_multi_field_messages_give_v():
     assert decode_fields(NAM_GRIB, "v", multi=False) == {}
     v_direct = decode_fields(NAM_GRIB, "v", multi=True)
     assert len(v_direct) == 19
-    assert reader.grib_inventory(NAM_GRIB)[("v", "isobaricInhPa")] == sorted(v_direct)
+    assert grib_inventory(NAM_GRIB)[("v", "isobaricInhPa")] == sorted(v_direct)
     # the reader's v, turned back to the grid, is ecCodes' v (float32 storage)
     fields = read(NAM_GRIB)
     assert fields.levels.size == 19 and fields.has("v")
