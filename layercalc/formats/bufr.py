@@ -27,10 +27,10 @@ from pathlib import Path
 import numpy as np
 
 from layercalc.constants import G0
-from layercalc.errors import InputError, LayercalcError, Notice
+from layercalc.errors import InputError, LayercalcError, MessageError, Notice
 
 from . import hydrostatic
-from .decoded import Decoded, DecodedSounding, MessageError, sort_levels
+from .decoded import Decoded, DecodedSounding, sort_levels
 
 __all__ = ["parse_bufr", "read_bufr", "split_messages"]
 

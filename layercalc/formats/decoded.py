@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from layercalc.errors import LayercalcError, MessageError, Notice  # noqa: F401 (MessageError: re-exported)
+from layercalc.errors import LayercalcError, Notice
 
 # One international knot [m/s]: 1 nautical mile (1852 m, exact by definition, adopted
 # by the International Hydrographic Conference of 1929) per hour. SI Brochure, 9th ed.

@@ -15,8 +15,9 @@ from __future__ import annotations
 import numpy as np
 
 from layercalc.constants import T_ZERO_CELSIUS
+from layercalc.errors import MessageError
 
-from .decoded import KNOT, DecodedSounding, MessageError
+from .decoded import KNOT, DecodedSounding
 
 __all__ = ["layers_text"]
 

@@ -19,13 +19,13 @@ from pathlib import Path
 
 import numpy as np
 
-from layercalc.errors import InputError, LayercalcError, Notice
+from layercalc.errors import InputError, Notice
 from layercalc.constants import EARTH_MEAN_RADIUS
 from layercalc.physics.sphere import great_circle_angles, unit_vectors
 from layercalc.source import read_source
 
 from . import bufr, temp, text_table
-from .decoded import Decoded, MessageError
+from .decoded import Decoded
 from .layers_writer import layers_text
 
 __all__ = ["FORMATS", "detect_format", "read_soundings", "read_station_table",
@@ -159,7 +159,6 @@ def read_station_table(path) -> dict:
     table = {}
     offset = 0
     for number, line in enumerate(source.text.split("\n"), start=1):
-        start = offset
         offset += len(line) + 1
         stripped = line.strip()
         if not stripped or stripped.startswith("#"):

@@ -28,17 +28,16 @@ height is checked again, and a disagreement is a warning at the group in the mes
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 
-from layercalc.errors import InputError, LayercalcError, Notice
+from layercalc.errors import InputError, LayercalcError, MessageError, Notice
 from layercalc.physics import sounding_profile as profile
 from layercalc.source import Source, read_source
 
 from . import hydrostatic, temp_code as code
 from .bulletin import split_bulletin
-from .decoded import Decoded, DecodedSounding, MessageError, sort_levels
+from .decoded import Decoded, DecodedSounding, sort_levels
 from .temp_parts import PILOT_HEIGHT_UNIT, Entry, Part, decode_report
 
 __all__ = ["parse_temp", "read_temp"]

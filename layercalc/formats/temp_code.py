@@ -20,8 +20,10 @@ import re
 
 import numpy as np
 
+from layercalc.errors import MessageError
+
 from .bulletin import Group
-from .decoded import KNOT, MessageError
+from .decoded import KNOT
 
 _DIGITS_OR_SLASH = re.compile(r"^[0-9/]{5}$")
 

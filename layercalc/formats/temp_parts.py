@@ -26,12 +26,11 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-from layercalc.errors import Notice
+from layercalc.errors import MessageError, Notice
 from layercalc.source import Span
 
 from . import temp_code as code
 from .bulletin import MIMI, Group, Report
-from .decoded import MessageError
 
 # Section markers that end the standard surfaces or the significant levels.
 _REGIONAL = {"51515", "52525", "53535", "54545", "55555", "56565", "57575", "58585",

@@ -14,9 +14,8 @@ eccodes = pytest.importorskip("eccodes")
 
 import layercalc  # noqa: E402
 from layercalc.constants import G0  # noqa: E402
-from layercalc.errors import InputError  # noqa: E402
+from layercalc.errors import InputError, MessageError  # noqa: E402
 from layercalc.formats import bufr  # noqa: E402
-from layercalc.formats.decoded import MessageError  # noqa: E402
 from layercalc.formats.soundings_input import (  # noqa: E402
     detect_format, read_soundings, soundings_layers_text,
 )

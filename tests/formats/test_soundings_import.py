@@ -4,13 +4,12 @@ and the written .layers text (it must load and evaluate). Made-up stations only.
 
 import subprocess
 import sys
-from pathlib import Path
 
 import numpy as np
 import pytest
 
 import layercalc
-from layercalc.errors import DefinitionError, InputError, LayercalcError
+from layercalc.errors import InputError, LayercalcError
 from layercalc.formats.soundings_input import detect_format, read_soundings, soundings_layers_text
 from layercalc.formats.text_table import parse_text_table
 
