@@ -1,6 +1,7 @@
 """Physical constants used by layercalc, each defined once with its unit and source.
 
-Every constant below is a plain float in SI units. ``CONSTANTS`` is the read-only
+Every constant below is a plain float in SI units (the standard atmosphere's layer table
+is a tuple of such floats). ``CONSTANTS`` is the read-only
 table of the names the layers language exposes in formulas; each entry is a
 ``Constant(value, unit, source)`` named tuple.
 
@@ -73,6 +74,30 @@ BOLTON_TEMPERATURE_OFFSET = 243.5
 # (Moritz, H., 2000: Geodetic Reference System 1980. J. Geodesy 74, 128-133; the IUGG
 # mean radius, 6371.0088 km).
 EARTH_MEAN_RADIUS = 6371008.7714
+
+# --- Units of measurement outside the SI -------------------------------------------
+
+# One international knot [m s^-1]: one nautical mile (1852 m, exact by definition, adopted
+# by the International Hydrographic Conference of 1929) per hour. SI Brochure, 9th ed.
+# (BIPM, 2019), table 8 (from memory). Upper winds in TEMP/PILOT come in knots when 50 is
+# added to the day.
+KNOT = 1852.0 / 3600.0
+
+# --- U.S. Standard Atmosphere 1976, 0-47 km geopotential ---------------------------
+# U.S. Standard Atmosphere, 1976 (NOAA/NASA/USAF, Washington DC), table 4 (from memory):
+# layers of constant lapse rate by geopotential height. The base pressures of the upper
+# layers are not stored: they follow from the sea-level pressure, the lapse rates and the
+# hypsometric equation (layercalc.physics.sounding_profile), and agree with the table's
+# 22632.06, 5474.889 and 868.0187 Pa to the digits given (tests/physics/test_physics.py).
+
+# Sea-level pressure P0 [Pa], an adopted constant of the standard.
+USSA_SEA_LEVEL_PRESSURE = 101325.0
+
+# (base geopotential height [m], base temperature [K], lapse rate dT/dH [K m^-1]) of the
+# four lowest layers: 0-11 km -6.5 K/km, 11-20 km isothermal, 20-32 km +1.0 K/km,
+# 32-47 km +2.8 K/km.
+USSA_LAYERS = ((0.0, 288.15, -0.0065), (11000.0, 216.65, 0.0),
+               (20000.0, 216.65, 0.001), (32000.0, 228.65, 0.0028))
 
 
 class Constant(NamedTuple):

@@ -16,11 +16,6 @@ import numpy as np
 
 from layercalc.errors import LayercalcError, Notice
 
-# One international knot [m/s]: 1 nautical mile (1852 m, exact by definition, adopted
-# by the International Hydrographic Conference of 1929) per hour. SI Brochure, 9th ed.
-# (BIPM, 2019), table 8 (from memory).
-KNOT = 1852.0 / 3600.0
-
 FIELDS = ("height", "temperature", "dewpoint", "wind_direction", "wind_speed")
 
 

@@ -14,10 +14,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from layercalc.constants import T_ZERO_CELSIUS
+from layercalc.constants import KNOT, T_ZERO_CELSIUS
 from layercalc.errors import MessageError
 
-from .decoded import KNOT, DecodedSounding
+from .decoded import DecodedSounding
 
 __all__ = ["layers_text"]
 

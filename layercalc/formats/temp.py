@@ -31,6 +31,7 @@ import math
 
 import numpy as np
 
+from layercalc.constants import T_ZERO_CELSIUS
 from layercalc.errors import InputError, LayercalcError, MessageError, Notice
 from layercalc.physics import sounding_profile as profile
 from layercalc.source import Source, read_source
@@ -232,8 +233,8 @@ def _profile(levels: dict, keys) -> tuple[np.ndarray, np.ndarray]:
             tv.append((t, values.get("dewpoint", math.nan)))
     if not pressure:
         return np.array([]), np.array([])
-    t = np.array([x[0] for x in tv]) + 273.15
-    td = np.array([x[1] for x in tv]) + 273.15
+    t = np.array([x[0] for x in tv]) + T_ZERO_CELSIUS
+    td = np.array([x[1] for x in tv]) + T_ZERO_CELSIUS
     return np.array(pressure), profile.profile_virtual_temperature(np.array(pressure), t, td)
 
 
@@ -289,8 +290,8 @@ def _arrays(levels: dict):
     pressure = np.array([k * 10.0 for k in keys])
     columns = {name: np.array([levels[k]["values"].get(name, math.nan) for k in keys])
                for name in _FIELDS}
-    columns["temperature"] = columns["temperature"] + 273.15
-    columns["dewpoint"] = columns["dewpoint"] + 273.15
+    columns["temperature"] = columns["temperature"] + T_ZERO_CELSIUS
+    columns["dewpoint"] = columns["dewpoint"] + T_ZERO_CELSIUS
     positions = tuple(levels[k]["spans"] for k in keys)
     return pressure, columns, positions
 

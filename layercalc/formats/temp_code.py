@@ -20,10 +20,10 @@ import re
 
 import numpy as np
 
+from layercalc.constants import KNOT
 from layercalc.errors import MessageError
 
 from .bulletin import Group
-from .decoded import KNOT
 
 _DIGITS_OR_SLASH = re.compile(r"^[0-9/]{5}$")
 

@@ -25,6 +25,8 @@ from typing import NamedTuple
 
 import numpy as np
 
+from layercalc.constants import KNOT  # m/s per knot; in __all__ because the models speak knots
+
 from .uncertainty import plane_fit_matrix
 
 __all__ = [
@@ -33,10 +35,6 @@ __all__ = [
     "rounding_sigma", "wind_component_jacobian", "rounding_component_covariance",
     "residual_wind_sigma", "rank_sensitivity",
 ]
-
-# One knot in m/s: the international nautical mile, 1852 m by definition (International
-# Hydrographic Conference, 1929), per hour.
-KNOT = 1852.0 / 3600.0
 
 # Resolution of a reported upper wind: direction to 5 degrees and speed to whole knots in
 # the WMO TEMP code (FM 35; WMO-No. 306, from memory, not re-read). Reporting resolution

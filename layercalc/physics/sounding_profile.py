@@ -9,25 +9,32 @@ in K, heights in geopotential metres.
 
 import numpy as np
 
-from layercalc.constants import G0, RD
+from layercalc.constants import G0, RD, USSA_LAYERS, USSA_SEA_LEVEL_PRESSURE
 from layercalc.physics import humidity
 
-__all__ = ["standard_atmosphere_height", "profile_virtual_temperature",
+__all__ = ["standard_atmosphere_height", "standard_atmosphere_base_pressures", "profile_virtual_temperature",
            "hydrostatic_heights", "pressure_at_height"]
 
-# U.S. Standard Atmosphere, 1976 (NOAA/NASA/USAF), table 4 (from memory): layers of
-# constant lapse rate by geopotential height. (base height [m], base temperature [K],
-# lapse rate dT/dz [K/m], base pressure [Pa]); base pressures follow from the first
-# row, the lapse rates and the hypsometric equation and agree with the table's
-# 22632.06, 5474.889 and 868.0187 Pa to the digits given.
-_USSA_P0 = 101325.0
-_USSA_LAYERS = ((0.0, 288.15, -0.0065), (11000.0, 216.65, 0.0),
-                (20000.0, 216.65, 0.001), (32000.0, 228.65, 0.0028))
 
+def standard_atmosphere_base_pressures():
+    """Pressure at the base of each layer of the U.S. Standard Atmosphere 1976 (0-47 km).
 
-def _ussa_base_pressures():
-    pressures = [_USSA_P0]
-    for (z0, t0, lapse), (z1, _, _) in zip(_USSA_LAYERS[:-1], _USSA_LAYERS[1:]):
+    From the sea-level pressure up, layer by layer (constants.USSA_LAYERS):
+      L != 0: p1 = p0 * ((T0 + L (z1 - z0)) / T0) ** (-g0 / (Rd L))
+      L == 0: p1 = p0 * exp(-g0 (z1 - z0) / (Rd T0))
+
+    Returns
+    -------
+    list of float
+        One base pressure per layer, the first the sea-level pressure. [Pa]
+
+    References
+    ----------
+    U.S. Standard Atmosphere, 1976, NOAA/NASA/USAF, Washington DC, eqs. 33a/33b and
+    table 4 (equation numbers from memory).
+    """
+    pressures = [USSA_SEA_LEVEL_PRESSURE]
+    for (z0, t0, lapse), (z1, _, _) in zip(USSA_LAYERS[:-1], USSA_LAYERS[1:]):
         p0 = pressures[-1]
         if lapse == 0.0:
             pressures.append(p0 * np.exp(-G0 * (z1 - z0) / (RD * t0)))
@@ -59,9 +66,9 @@ def standard_atmosphere_height(pressure):
     table 4 (equation numbers from memory).
     """
     pressure = np.asarray(pressure, dtype=float)
-    bases = _ussa_base_pressures()
+    bases = standard_atmosphere_base_pressures()
     result = np.empty_like(pressure)
-    for index, ((z0, t0, lapse), p0) in enumerate(zip(_USSA_LAYERS, bases)):
+    for index, ((z0, t0, lapse), p0) in enumerate(zip(USSA_LAYERS, bases)):
         lower = bases[index + 1] if index + 1 < len(bases) else 0.0
         inside = (pressure <= p0) | (index == 0)
         inside &= pressure > lower

@@ -12,9 +12,8 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from layercalc.constants import G0, RD
+from layercalc.constants import G0, KNOT, RD
 from layercalc.errors import LayercalcError, MessageError
-from layercalc.formats.decoded import KNOT
 from layercalc.formats.temp import parse_temp
 
 from . import temp_encoder as E

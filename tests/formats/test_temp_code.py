@@ -9,10 +9,10 @@ import math
 
 import pytest
 
+from layercalc.constants import KNOT
 from layercalc.errors import LayercalcError, MessageError
 from layercalc.formats import temp_code as code
 from layercalc.formats.bulletin import Group
-from layercalc.formats.decoded import KNOT
 from layercalc.source import Source, Span
 
 

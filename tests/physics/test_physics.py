@@ -219,6 +219,33 @@ def test_constants_table_is_read_only_and_consistent():
         CONSTANTS["g0"] = constants.Constant(9.81, "m s^-2", "rounded")
 
 
+def test_knot_is_a_nautical_mile_per_hour():
+    # Expected: 1 kn = 1852 m / 3600 s = 0.514444... m/s, exact by definition (SI Brochure,
+    # 9th ed., table 8; from memory), and the unit table's 'kt' says the same (NIST SP 811).
+    assert constants.KNOT == 1852.0 / 3600.0
+    assert constants.KNOT == pytest.approx(0.5144444, abs=5e-8)
+    from layercalc.language import units
+    assert units.UNIT_TABLE["kt"].scale == constants.KNOT
+
+
+def test_standard_atmosphere_base_pressures_against_the_published_table():
+    from layercalc.physics.sounding_profile import (
+        standard_atmosphere_base_pressures, standard_atmosphere_height)
+    bases = standard_atmosphere_base_pressures()
+    # Expected: U.S. Standard Atmosphere 1976, table 4 base pressures (from memory):
+    # 101325 (adopted), 22632.06, 5474.889, 868.0187 Pa; within half the last digit given.
+    published = [101325.0, 22632.06, 5474.889, 868.0187]
+    half_last_digit = [0.0, 0.005, 0.0005, 0.00005]
+    assert np.all(np.abs(np.array(bases) - published) <= half_last_digit), bases
+    # Expected: ambiance 1.3.1 (ICAO 1993 = USSA 1976 below 32 km; its R 287.05287 differs
+    # from ours in the 7th digit): the bases lie at 0, 11, 20, 32 km geopotential, 5 cm.
+    assert_allclose(ambiance.Atmosphere.from_pressure(np.array(bases)).H,
+                    [base for base, _, _ in constants.USSA_LAYERS], atol=0.05)
+    # Expected: the layer table itself; the height function inverts the base pressures.
+    assert_allclose(standard_atmosphere_height(np.array(bases)),
+                    [base for base, _, _ in constants.USSA_LAYERS], atol=1e-6)
+
+
 # --------------------------------------------------------------------------------------
 # Hypsometric equation
 # --------------------------------------------------------------------------------------
