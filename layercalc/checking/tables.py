@@ -63,13 +63,14 @@ class TableChecker:
         if len(table.rows) > MAX_LAYERS:
             self.fail(DefinitionError(f"more than {MAX_LAYERS} layers", table.span))
             return {}, 0, False
-        for row, span in zip(table.rows, table.row_spans):
-            if len(row) != width:
-                self.fail(DefinitionError(
-                    f"this row has {len(row)} values but the header names {width} columns",
-                    span, hint="give one number per column, separated by spaces"))
-                return {}, 0, False
-        data = np.array(table.rows, dtype=float).reshape(len(table.rows), width)
+        ragged = table.first_ragged_row()
+        if ragged is not None:
+            self.fail(DefinitionError(
+                f"this row has {len(table.rows[ragged])} values but the header names "
+                f"{width} columns",
+                table.row_spans[ragged], hint="give one number per column, separated by spaces"))
+            return {}, 0, False
+        data = table.grid()
         for j, heading in enumerate(table.headings):
             if heading.name in columns:
                 self.fail(DefinitionError(f"column '{heading.name}' appears twice in the header",
@@ -125,7 +126,7 @@ class TableChecker:
                 return False
         j_pb = [h.name for h in table.headings].index("p_bottom")
         j_pt = [h.name for h in table.headings].index("p_top")
-        for i in range(len(pb)):
+        for i in map(int, np.flatnonzero((pb <= 0) | (pt <= 0) | (pt >= pb))[:1]):
             if pb[i] <= 0 or pt[i] <= 0:
                 j = j_pb if pb[i] <= 0 else j_pt
                 self.fail(DefinitionError("pressures must be above zero",
@@ -180,12 +181,12 @@ class TableChecker:
             col = columns.get(name)
             if col is None or not U.same_dimension(col.unit.dimension, U.lookup("K").dimension):
                 continue
-            for k, value in enumerate(col.values):
-                if value <= 0:
-                    self.fail(DefinitionError(
-                        f"{name} is below absolute zero ({value:.2f} K)", span(name, k),
-                        hint="check the unit in the header ([degC] or [K])"))
-                    return
+            for k in map(int, np.flatnonzero(col.values <= 0)[:1]):  # whole column at once
+                value = col.values[k]
+                self.fail(DefinitionError(
+                    f"{name} is below absolute zero ({value:.2f} K)", span(name, k),
+                    hint="check the unit in the header ([degC] or [K])"))
+                return
         failed = set()
         for name, col in columns.items():
             found = plausibility.check_values(name, col.values, col.unit)

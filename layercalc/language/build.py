@@ -2,10 +2,9 @@
 
 from __future__ import annotations
 
-import math
-import re
 
 from layercalc.errors import LayercalcSyntaxError
+from layercalc.language.table_body import read_body, read_numbers
 from layercalc.language.nodes import (
     Binary, Call, Change, Definition, Document, Heading, Literal, Name, Note, Option,
     Scenario, Selection, Station, Table, Title, Unary, UnitName, UnitNumber, UnitOp,
@@ -13,8 +12,6 @@ from layercalc.language.nodes import (
 )
 from layercalc.source import Source, Span
 
-_ENTRY = re.compile(r"[^ \t]+")
-_NUMBER = re.compile(r"[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?")
 
 MAX_DEPTH = 250  # operations nested in one formula; keeps every later (recursive) stage safe
 
@@ -112,33 +109,21 @@ class _Builder:
                           self.expr(c[-1]))
 
     def table(self, tree) -> Table:
+        from lark import Token
+
         kind_token, header, *rows = tree.children
         headings = tuple(
             Heading(self.span(h), str(h.children[0]),
                     self.unit(h.children[1]) if len(h.children) > 1 else None)
             for h in header.children)
-        values, spans = [], []
-        for row in rows:
-            token = row.children[0]
-            values.append(self.row_values(token))
-            start = token.start_pos
-            spans.append(Span(self.source, start, start + len(str(token).rstrip())))
-        return Table(self.span(tree), str(kind_token), headings, tuple(values), tuple(spans))
-
-    def row_values(self, token) -> tuple[float, ...]:
-        out = []
-        for match in _ENTRY.finditer(str(token)):
-            text = match.group()
-            if text == "-":
-                out.append(math.nan)
-                continue
-            if not _NUMBER.fullmatch(text):
-                start = token.start_pos + match.start()
-                raise LayercalcSyntaxError(
-                    f"'{text}' is not a number", Span(self.source, start, start + len(text)),
-                    hint="write numbers like 850, -12.5 or 1.2e-5, and '-' for a missing value")
-            out.append(float(text))
-        return tuple(out)
+        if len(rows) == 1 and isinstance(rows[0], Token):  # the whole body (parser.parse)
+            numbers = read_body(self.source, rows[0].start_pos,
+                                rows[0].start_pos + len(rows[0]))
+        else:
+            tokens = [row.children[0] for row in rows]
+            numbers = read_numbers(self.source, [str(t).rstrip() for t in tokens],
+                                   [t.start_pos for t in tokens])
+        return Table(self.span(tree), str(kind_token), headings, numbers)
 
     def scenario(self, tree) -> Scenario:
         from lark import Token

@@ -2,9 +2,13 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Optional, Union
 
+import numpy as np
+
+from layercalc.language.table_body import TableNumbers
 from layercalc.source import Source, Span
 
 
@@ -119,13 +123,69 @@ class Heading:
     unit: Optional[UnitNode]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Table:
+    """A table as written. Its numbers stay in one array (table_body.TableNumbers): `rows`
+    and `row_spans` read them row by row, `grid()` as one (rows, columns) array."""
+
     span: Span
     kind: str  # "layers" or "levels"
     headings: tuple[Heading, ...]
-    rows: tuple[tuple[float, ...], ...]  # NaN where the file says "-"
-    row_spans: tuple[Span, ...]
+    numbers: TableNumbers
+
+    @property
+    def row_count(self) -> int:
+        return len(self.numbers.counts)
+
+    @property
+    def rows(self) -> "_Rows":
+        """Each row's numbers as a tuple (NaN where the file says "-")."""
+        return _Rows(self.numbers)
+
+    @property
+    def row_spans(self) -> "_RowSpans":
+        return _RowSpans(self.span.source, self.numbers)
+
+    def first_ragged_row(self) -> int | None:
+        """The first row whose count of numbers differs from the header's, or None."""
+        wrong = np.flatnonzero(self.numbers.counts != len(self.headings))
+        return int(wrong[0]) if wrong.size else None
+
+    def grid(self) -> np.ndarray:
+        """The numbers as a (rows, columns) array; every row must have one per heading."""
+        return self.numbers.values.reshape(self.row_count, len(self.headings))
+
+
+class _Rows(Sequence):
+    def __init__(self, numbers: TableNumbers) -> None:
+        self._numbers = numbers
+        self._offsets = np.concatenate(([0], np.cumsum(numbers.counts)))
+
+    def __len__(self) -> int:
+        return len(self._numbers.counts)
+
+    def __getitem__(self, index):
+        if isinstance(index, slice):
+            return [self[i] for i in range(*index.indices(len(self)))]
+        index = range(len(self))[index]
+        return tuple(self._numbers.values[self._offsets[index]:self._offsets[index + 1]]
+                     .tolist())
+
+
+class _RowSpans(Sequence):
+    def __init__(self, source: Source, numbers: TableNumbers) -> None:
+        self._source = source
+        self._numbers = numbers
+
+    def __len__(self) -> int:
+        return len(self._numbers.counts)
+
+    def __getitem__(self, index):
+        if isinstance(index, slice):
+            return [self[i] for i in range(*index.indices(len(self)))]
+        index = range(len(self))[index]
+        return Span(self._source, int(self._numbers.starts[index]),
+                    int(self._numbers.ends[index]))
 
 
 @dataclass(frozen=True)

@@ -86,9 +86,32 @@ def _parser():
 
 
 def parse(source: Source):
-    """Parse a whole `.layers` text into a lark tree, or raise LayercalcSyntaxError."""
+    """Parse a whole `.layers` text into a lark tree, or raise LayercalcSyntaxError.
+
+    Table bodies that are plain rows of numbers are not tokenised row by row: lark parses
+    the text with them blanked, and each such table gets its body as one BODY token for
+    the builder (table_body.py explains why and when)."""
+    from layercalc.language.table_body import blank_bodies, table_bodies
+
     _check_nesting(source)
-    return _parse(source, "start", source.text + "\n")
+    text = source.text + "\n"
+    bodies = table_bodies(text)
+    tree = _parse(source, "start", blank_bodies(text, bodies), text)
+    if bodies:
+        _attach_bodies(tree, text, bodies)
+    return tree
+
+
+def _attach_bodies(tree, text: str, bodies: dict[int, int]) -> None:
+    from lark import Token
+
+    for statement in tree.children:
+        table = statement.children[-1] if statement.data == "station" else statement
+        if table.data != "table":
+            continue
+        start = text.find("\n", table.children[1].meta.end_pos) + 1
+        if start in bodies:
+            table.children.append(Token("BODY", text[start:bodies[start]], start_pos=start))
 
 
 def parse_unit_text(source: Source):
@@ -97,7 +120,8 @@ def parse_unit_text(source: Source):
     return _parse(source, "unit_text", source.text)
 
 
-def _parse(source: Source, start: str, text: str):
+def _parse(source: Source, start: str, text: str, written: str | None = None):
+    """`written`: the text as written when `text` has table bodies blanked."""
     from lark.exceptions import UnexpectedCharacters, UnexpectedInput, UnexpectedToken
 
     parser = _parser()
@@ -107,7 +131,8 @@ def _parse(source: Source, start: str, text: str):
         raise _token_error(source, exc, parser) from None
     except UnexpectedCharacters as exc:
         offset = min(exc.pos_in_stream, len(source.text))
-        char = text[exc.pos_in_stream] if exc.pos_in_stream < len(text) else ""
+        written = text if written is None else written
+        char = written[exc.pos_in_stream] if exc.pos_in_stream < len(written) else ""
         span = Span(source, offset, offset + 1)
         expected = _describe_expected(exc.allowed or set(), parser)
         raise LayercalcSyntaxError(
