@@ -19,7 +19,7 @@ LAYERS = {
     "cli": 9, "__main__": 9, "api": 8, "report": 7, "plots": 7, "formats": 6, "evaluation": 5,
     "checking": 4, "soundings": 3, "language": 2, "physics": 1,
     "errors": 0, "source": 0, "files": 0, "constants": 0, "caution": 0, "version": 0,
-    "names": 0,
+    "names": 0, "limits": 0,
     "": 10,  # layercalc/__init__.py names the public API (lazily)
 }
 MAX_FLAT_MODULES = 12

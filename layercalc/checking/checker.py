@@ -13,7 +13,7 @@ import math
 from layercalc.names import close_names
 from layercalc.checking.checked import CheckedSheet, first_with_all
 from layercalc.checking.expressions import (
-    ExpressionChecker, Poisoned, constant_si, constant_value, is_constant, referenced_names,
+    POISONED, ExpressionChecker, Poisoned, constant_si, constant_value, is_constant, referenced_names,
 )
 from layercalc.checking.tables import TableChecker
 from layercalc.constants import CONSTANTS
@@ -238,9 +238,33 @@ class Checker(TableChecker, ExpressionChecker):
         self.formula_keys = set(formulas_in)
         self.formula_defs = formulas_in
         in_defaults: list[LayercalcError] = []
-        for key, (d, is_default) in formulas_in.items():
+        # Type the formulas in dependency order (found from the untyped expressions), so
+        # that each reads only formulas already typed: a chain of any length needs no
+        # recursion, and a circle is reported before any typing.
+        needs = {key: {r for r in self.formula_references(d.expr, d.kind == COLUMN)
+                       if r in formulas_in}
+                 for key, (d, _) in formulas_in.items()}
+        try:
+            typing_order = list(graphlib.TopologicalSorter(needs).static_order())
+        except graphlib.CycleError as exc:
+            self.fail(self.cycle_error(exc, formulas_in))
+            return []
+        outcomes: dict = {}
+        for key in typing_order:
+            d, is_default = formulas_in[key]
             try:
-                formula = self.compile_definition(d, is_default)
+                outcomes[key] = self.compile_definition(d, is_default)
+            except (Poisoned, LayercalcError) as exc:
+                outcomes[key] = exc
+            if d.unit is None:
+                done = outcomes[key]
+                self.dim_cache[key] = (done.expr.meta.dimension
+                                       if isinstance(done, Formula) else POISONED)
+        for key, (d, is_default) in formulas_in.items():  # problems in the order written
+            try:
+                formula = outcomes[key]
+                if not isinstance(formula, Formula):
+                    raise formula
             except Poisoned:
                 failed.add(key)
                 continue
@@ -257,16 +281,22 @@ class Checker(TableChecker, ExpressionChecker):
         try:
             order = list(sorter.static_order())
         except graphlib.CycleError as exc:
-            cycle = [name for _, name in exc.args[1]]
-            first = formulas_in[exc.args[1][0]][0]
-            self.fail(CycleError("formulas depend on each other in a circle: "
-                                 + " -> ".join(cycle), first.name_span, cycle,
-                                 hint="one of them must be computed from other values"))
+            self.fail(self.cycle_error(exc, formulas_in))
             return []
         ordered = [compiled[k] for k in order if k in compiled]
         if in_defaults and not self.problems:
             self.blame_user_definitions(in_defaults, formulas_in)
         return ordered
+
+    @staticmethod
+    def cycle_error(exc: graphlib.CycleError, formulas_in) -> CycleError:
+        cycle = [name for _, name in exc.args[1]]
+        first = formulas_in[exc.args[1][0]][0]
+        shown = cycle if len(cycle) <= 9 else [
+            *cycle[:4], f"... ({len(cycle) - 1} formulas in all)", *cycle[-2:]]
+        return CycleError("formulas depend on each other in a circle: " + " -> ".join(shown),
+                          first.name_span, cycle,
+                          hint="one of them must be computed from other values")
 
     def blame_user_definitions(self, errors, formulas_in) -> None:
         """A built-in formula fails only because of something the user defined under a

@@ -9,6 +9,7 @@ from layercalc.names import close_names
 from layercalc.language import units as U
 from layercalc.language.unit_text import parse_unit_string, written_unit
 from layercalc.constants import CONSTANTS
+from layercalc.limits import LARGEST_VALUE
 from layercalc.errors import CycleError, DefinitionError, LayercalcError, UnitError, UnknownNameError
 from layercalc.language.functions import AGGREGATE, SCAN, lookup as lookup_function, names as function_names
 from layercalc.language.nodes import Binary, Call, Literal, Name, Unary
@@ -34,12 +35,14 @@ class ExpressionChecker:
 
     def literal(self, node: Literal, affine_as_difference: bool):
         if node.unit is None:
+            in_range(node.value, node)
             return TNumber(Meta(node.span, U.DIMENSIONLESS, CELL), node.value, _text(node))
         unit = written_unit(node.unit)
         if unit.affine and affine_as_difference:
             value = node.value * unit.scale
         else:
             value = unit.to_si(node.value)
+        in_range(value, node)
         meta = Meta(node.span, unit.dimension, CELL)
         return TNumber(meta, value, _text(node), affine=unit.affine and not affine_as_difference)
 
@@ -69,6 +72,36 @@ class ExpressionChecker:
                     f"e.g. 10 [m/{name}]")
         raise UnknownNameError(f"unknown name '{name}'", node.span, close, hint=hint)
 
+    def formula_references(self, expr, prefer_columns: bool) -> list[tuple[str, str]]:
+        """The formulas (kind, name) an expression reads, resolved as `name` resolves them,
+        without typing anything: the checker compiles formulas in this dependency order, so
+        that a chain of any length needs no recursion and a circle is found before typing."""
+        sheet = self.sheet
+        found: list[tuple[str, str]] = []
+        stack = [(expr, prefer_columns)]
+        while stack:
+            node, prefer = stack.pop()
+            if isinstance(node, Name):
+                name = node.name
+                is_column = name in sheet.input_columns or (COLUMN, name) in self.formula_keys
+                is_cell = name in sheet.input_cells or (CELL, name) in self.formula_keys
+                if is_column and (prefer or not is_cell):
+                    if name not in sheet.input_columns:
+                        found.append((COLUMN, name))
+                elif is_cell and name not in sheet.input_cells:
+                    found.append((CELL, name))
+            elif isinstance(node, Unary):
+                stack.append((node.operand, prefer))
+            elif isinstance(node, Binary):
+                stack.extend(((node.right, prefer), (node.left, prefer)))
+            elif isinstance(node, Call):
+                function = lookup_function(node.function, len(node.args))
+                if function is None:
+                    continue  # an unknown function: reported when typed, its arguments unread
+                inner = prefer or function.layer_rule in (AGGREGATE, SCAN)
+                stack.extend((a, inner) for a in reversed(node.args))
+        return found
+
     def dimension_of(self, kind: str, name: str, node) -> object:
         sheet = self.sheet
         if kind == COLUMN and name in sheet.input_columns:
@@ -80,27 +113,31 @@ class ExpressionChecker:
         if key in cache:
             if cache[key] is None:
                 raise _CycleSignal(key)
+            if cache[key] is POISONED:
+                raise Poisoned()
             return cache[key]
         d, _ = self.formula_defs[key]
         if d.unit is not None:
             dim = written_unit(d.unit).dimension
             cache[key] = dim
             return dim
+        # Formulas are typed in dependency order (checker.compile_all), so this is reached
+        # only for a formula read before its own turn: typed here once, remembered.
         cache[key] = None  # in progress
         try:
             expr = self.expr(d.expr, prefer_columns=d.kind == COLUMN)
         except _CycleSignal as signal:
-            del cache[key]
             raise CycleError(
                 f"formulas depend on each other in a circle through '{name}' "
                 f"(and '{signal.key[1]}')", d.name_span, [name, signal.key[1]],
                 hint="one of them must be computed from other values") from None
-        except CycleError:
-            del cache[key]
+        except (CycleError, Poisoned):
             raise
         except LayercalcError:
-            del cache[key]
             raise Poisoned() from None
+        finally:
+            if cache.get(key, 0) is None:  # whatever happened, no longer in progress
+                del cache[key]
         cache[key] = expr.meta.dimension
         return expr.meta.dimension
 
@@ -151,6 +188,11 @@ class ExpressionChecker:
                 f"a {U.dimension_name(left.meta.dimension)} can only be raised to a fixed "
                 f"number", right.meta.span,
                 hint="write the exponent as a number, e.g. x^2 or x^0.5")
+        if not abs(exponent) <= U.MAX_UNIT_EXPONENT:  # also NaN
+            raise UnitError(
+                f"a {U.dimension_name(left.meta.dimension)} can only be raised to a power "
+                f"from -{U.MAX_UNIT_EXPONENT} to {U.MAX_UNIT_EXPONENT}, not {exponent:g}",
+                right.meta.span, hint="divide by a reference value first, e.g. (p/p0)^0.286")
         frac = Fraction(exponent).limit_denominator(1000)
         dim = left.meta.dimension ** U.rational(frac)
         return TBinary(Meta(node.span, dim, shape), op, left, right)
@@ -273,6 +315,9 @@ class Poisoned(Exception):
     """A formula reads another that has its own (already reported) error."""
 
 
+POISONED = object()  # dim_cache value of a formula that failed to type
+
+
 class _CycleSignal(Exception):
     def __init__(self, key):
         self.key = key
@@ -310,7 +355,17 @@ def constant_value(expr):
 
 def constant_si(expr) -> float:
     value, unit = constant_value(expr)
-    return float(unit.to_si(value))
+    return in_range(float(unit.to_si(value)), expr)
+
+
+def in_range(value_si: float, node) -> float:
+    """A number as written, once in SI, must lie within +-LARGEST_VALUE (limits.py)."""
+    if not abs(value_si) <= LARGEST_VALUE:  # also inf and NaN
+        raise DefinitionError(
+            f"the number {_text(node)} is out of range: numbers must lie between "
+            f"-{LARGEST_VALUE:g} and {LARGEST_VALUE:g} (in SI units)", node.span,
+            hint="check the exponent of the number and its unit")
+    return value_si
 
 
 def _constant_number(expr) -> float | None:

@@ -13,6 +13,7 @@ from layercalc.language.inputs import InputColumn, entry_span
 from layercalc.language.unit_text import parse_unit_string, written_unit
 from layercalc.language.defaults import INPUT_UNITS
 from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError
+from layercalc.limits import LARGEST_VALUE
 from layercalc.language.nodes import Station, Table
 from layercalc.physics import humidity
 from layercalc.source import Span
@@ -82,10 +83,13 @@ class TableChecker:
                 self.fail(exc)
                 continue
             values = data[:, j]
-            bad = np.flatnonzero(~np.isfinite(values))
+            with np.errstate(all="ignore"):
+                bad = np.flatnonzero(~(np.abs(unit.to_si(values)) <= LARGEST_VALUE))
             if bad.size:
                 i = int(bad[0])
-                what = "missing ('-')" if math.isnan(values[i]) else "too large to be a number"
+                what = "missing ('-')" if math.isnan(values[i]) else (
+                    "too large to be a number" if math.isinf(values[i]) else
+                    f"out of range (beyond {LARGEST_VALUE:g} in SI units)")
                 self.fail(DefinitionError(
                     f"value in column '{heading.name}' is {what}",
                     entry_span(table, i, j),

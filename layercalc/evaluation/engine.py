@@ -14,6 +14,7 @@ import numpy as np
 
 from layercalc.constants import CONSTANTS
 from layercalc.errors import EvaluationError
+from layercalc.limits import LARGEST_VALUE
 from layercalc.language.typed import COLUMN, TBinary, TCall, TNumber, TRef, TUnary
 
 BINARY = {
@@ -102,17 +103,18 @@ class Environment:
 
 
 def _check_finite(formula, value: np.ndarray, sheet) -> None:
-    # One reduction first (no temporary array): a finite sum means every value is finite;
-    # only a non-finite sum (or an overflow of a huge but finite sum) needs the full look.
-    if np.isfinite(np.add.reduce(value, axis=None)):
+    # Two reductions first (no temporary array; NaN propagates through both): only values
+    # beyond +-LARGEST_VALUE (limits.py), inf or NaN need the full look.
+    if value.size == 0 or (-LARGEST_VALUE <= np.min(value) and np.max(value) <= LARGEST_VALUE):
         return
-    finite = np.isfinite(value)
-    if finite.all():
-        return
-    scenario, index = (int(i[0]) for i in np.nonzero(~finite))
+    scenario, index = (int(i[0]) for i in np.nonzero(~(np.abs(value) <= LARGEST_VALUE)))
     bad = value[scenario, index]
-    what = "infinite (a division by zero?)" if np.isinf(bad) else \
-        "not a number (a division 0/0, or ln, sqrt or a power of a negative value?)"
+    if np.isinf(bad):
+        what = "infinite (a division by zero?)"
+    elif np.isnan(bad):
+        what = "not a number (a division 0/0, or ln, sqrt or a power of a negative value?)"
+    else:
+        what = f"out of range ({bad:.3g}; values must lie within {LARGEST_VALUE:g} in SI units)"
     where = ""
     layer = None
     if formula.kind == COLUMN:

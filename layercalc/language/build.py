@@ -201,7 +201,7 @@ class _Builder:
             span = self.span(tree)
             symbol, _, exponent = str(tree).partition("^")
             name = UnitName(Span(span.source, span.start, span.start + len(symbol)), symbol)
-            return UnitPower(span, name, int(exponent)) if exponent else name
+            return UnitPower(span, name, _exponent(exponent)) if exponent else name
         kind = tree.data
         c = tree.children
         span = self.span(tree)
@@ -216,5 +216,19 @@ class _Builder:
         if kind == "unit_divide":
             return UnitOp(span, "/", self.unit(c[0]), self.unit(c[1]))
         if kind == "unit_raise":
-            return UnitPower(span, self.unit(c[0]), int(c[1]))
+            return UnitPower(span, self.unit(c[0]), _exponent(str(c[1])))
         raise AssertionError(f"unit rule without a builder: {kind}")
+
+
+# A unit exponent longer than this many digits is kept as a stand-in of that size: far
+# beyond what units.power accepts, and Python's int() refuses strings of over 4,300 digits.
+_EXPONENT_DIGITS = 9
+
+
+def _exponent(text: str) -> int:
+    """A unit exponent as written (`-2`, `+3`), without converting thousands of digits."""
+    sign = -1 if text.startswith("-") else 1
+    digits = text.lstrip("+-").lstrip("0") or "0"
+    if len(digits) > _EXPONENT_DIGITS:
+        return sign * 10 ** _EXPONENT_DIGITS
+    return sign * int(digits)

@@ -4,6 +4,7 @@ command-line option, turned into `Unit` objects (factor checked)."""
 from __future__ import annotations
 
 import math
+import sys
 
 from layercalc.errors import UnitError
 from layercalc.language import units as U
@@ -12,12 +13,23 @@ from layercalc.language.nodes import UnitName, UnitNumber, UnitOp, UnitPower
 from layercalc.language.parser import parse_unit_text
 from layercalc.source import Source
 
+MAX_NUMBER = sys.float_info.max  # 1.797e308, the largest float64
+MIN_NUMBER = sys.float_info.min * sys.float_info.epsilon  # 4.9e-324, the smallest above 0
+
+
+def _written(node) -> str:
+    return node.span.source.text[node.span.start:node.span.end].strip()
+
 
 def resolve_unit(node) -> U.Unit:
     """The Unit of a unit node (name, number, power, product or quotient)."""
     if isinstance(node, UnitName):
         return U.lookup(node.symbol, node.span)
     if isinstance(node, UnitNumber):
+        if not (math.isfinite(node.value) and node.value > 0):
+            raise UnitError(f"the number {_written(node)} in a unit must be positive and below "
+                            f"{MAX_NUMBER:.4g}", node.span,
+                            hint="write a scaled unit like [1e-5 s^-1] or [10 m]")
         return U.number(node.value)
     if isinstance(node, UnitPower):
         return U.power(resolve_unit(node.base), node.exponent, node.span)
@@ -34,8 +46,9 @@ def written_unit(node) -> U.Unit:
     unit = resolve_unit(node)
     text = node.span.source.text[node.span.start:node.span.end].strip().strip("[]").strip()
     if not (math.isfinite(unit.scale) and unit.scale > 0):
-        raise UnitError(f"the unit [{text}] has the factor {unit.scale:g}; a unit's factor "
-                        "must be a positive number", node.span,
+        size = "too large" if unit.scale > 0 else "too small"
+        raise UnitError(f"the unit [{text}] has a factor {size} for a number (factors must "
+                        f"lie between {MIN_NUMBER:.4g} and {MAX_NUMBER:.4g})", node.span,
                         hint="write a scaled unit like [1e-5 s^-1] or [10 m]")
     return U.Unit(unit.dimension, unit.scale, unit.offset, text or unit.text)
 

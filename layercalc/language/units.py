@@ -304,23 +304,44 @@ def _refuse_affine(unit: Unit, span) -> None:
             span, hint="degC is an offset scale; for a difference or a rate use K (e.g. K/km)")
 
 
+# Powers of units stop here: no unit of the trade needs more than a cube, and a bound keeps
+# the exact dimension arithmetic (and the float factors) small.
+MAX_UNIT_EXPONENT = 12
+
+
+def _factor(compute) -> float:
+    """A unit factor from float arithmetic; an overflow or a division by a factor that
+    underflowed to zero gives inf (written_unit refuses it with the unit's position)."""
+    try:
+        return float(compute())
+    except (OverflowError, ZeroDivisionError):
+        return math.inf
+
+
 def multiply(a: Unit, b: Unit, span=None) -> Unit:
     _refuse_affine(a, span)
     _refuse_affine(b, span)
-    return Unit(a.dimension * b.dimension, a.scale * b.scale, 0.0, f"{a.text} {b.text}")
+    return Unit(a.dimension * b.dimension, _factor(lambda: a.scale * b.scale), 0.0,
+                f"{a.text} {b.text}")
 
 
 def divide(a: Unit, b: Unit, span=None) -> Unit:
     _refuse_affine(a, span)
     _refuse_affine(b, span)
-    return Unit(a.dimension / b.dimension, a.scale / b.scale, 0.0, f"{a.text}/{b.text}")
+    return Unit(a.dimension / b.dimension, _factor(lambda: a.scale / b.scale), 0.0,
+                f"{a.text}/{b.text}")
 
 
 def power(a: Unit, exponent: Fraction | int, span=None) -> Unit:
     _refuse_affine(a, span)
     exponent = Fraction(exponent)
-    return Unit(a.dimension ** rational(exponent), a.scale ** float(exponent), 0.0,
-                f"{a.text}^{exponent}")
+    if abs(exponent) > MAX_UNIT_EXPONENT:
+        shown = f"{exponent}" if abs(exponent) < 10 ** 6 else "of a million or more"
+        raise UnitError(f"the unit power {shown} is out of range: powers of units go from "
+                        f"-{MAX_UNIT_EXPONENT} to {MAX_UNIT_EXPONENT}", span,
+                        hint="write the unit as the quantity has it, e.g. [m/s^2] or [kg/m^3]")
+    return Unit(a.dimension ** rational(exponent), _factor(lambda: a.scale ** float(exponent)),
+                0.0, f"{a.text}^{exponent}")
 
 
 def rational(value: Fraction):

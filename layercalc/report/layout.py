@@ -92,7 +92,14 @@ def table_lines(label_heading: str, label_unit: str, labels: list[str],
     return [line.rstrip() for line in lines]
 
 
+# The narrowest a wrapped text may get: longer labels or indents (a long name) move the
+# text to lines of its own instead of squeezing it to nothing.
+MIN_TEXT_WIDTH = 30
+
+
 def wrap(text: str, indent: str = "", width: int = WIDTH) -> list[str]:
+    if len(indent) + 2 > width - 1 - MIN_TEXT_WIDTH:
+        indent = ""
     return textwrap.wrap(text, width=width - 1, initial_indent=indent,
                          subsequent_indent=indent + "  ", break_on_hyphens=False) or [indent]
 
@@ -113,6 +120,12 @@ def unit_words(text: str) -> str:
 
 def wrap_pair(label: str, text: str, label_width: int) -> list[str]:
     first = "  " + label.ljust(label_width)
+    if len(first) > WIDTH - 1 - MIN_TEXT_WIDTH:  # a long label: the text below it
+        label_width = min(label_width, WIDTH - 1 - MIN_TEXT_WIDTH - 2)
+        if len(label) > label_width:
+            return ["  " + label.rstrip(), *("      " + line for line in
+                                              textwrap.wrap(text, width=WIDTH - 7) or [""])]
+        first = "  " + label.ljust(label_width)
     lines = textwrap.wrap(text, width=WIDTH - 1 - len(first)) or [""]
     return [first + lines[0], *(" " * len(first) + rest for rest in lines[1:])]
 
