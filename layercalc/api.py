@@ -17,11 +17,28 @@ if TYPE_CHECKING:  # pragma: no cover
 from layercalc.caution import CAUTION  # noqa: F401  (the API names it too)
 
 
+def _quiet(function):
+    """Run `function` with numpy's floating-point warnings off: values beyond the range
+    layercalc accepts are our errors (limits.py), and absurd values inside it may still
+    overflow in an intermediate step whose result is checked; the warning would be noise, as
+    on the command line."""
+    import functools
+
+    @functools.wraps(function)
+    def quiet(*args, **kwargs):
+        with np.errstate(all="ignore"):
+            return function(*args, **kwargs)
+
+    return quiet
+
+
+@_quiet
 def loads(text: str, name: str = "<string>") -> "Sheet":
     """A sheet from `.layers` text. Raises LayercalcError (with position) if it is invalid."""
     return Sheet(_compile(Source(name, text)))
 
 
+@_quiet
 def load(path: str | Path, *, reuse_checks: bool = False) -> "Sheet":
     """A sheet from a `.layers` file or an `.xlsx` workbook.
 
@@ -76,6 +93,7 @@ def soundings_text(decoded) -> str:
     return soundings_layers_text(decoded)
 
 
+@_quiet
 def problems(path_or_text: str | Path, *, is_text: bool = False) -> list[LayercalcError]:
     """Every problem found in a file (or text), without raising: for `layercalc check`.
 
@@ -123,6 +141,7 @@ class Sheet:
         """Warnings found while checking (errors raise when the sheet is loaded)."""
         return list(self.checked.notices)
 
+    @_quiet
     def evaluate(self, scenario: str | None = None) -> "Result":
         """Results for the base sheet or one named scenario."""
         from layercalc.evaluation.engine import evaluate
@@ -139,6 +158,7 @@ class Sheet:
             raise EvaluationError(f"scenario '{scenario}': {exc.message}", exc.span,
                                   layer=exc.layer, hint=exc.hint) from None
 
+    @_quiet
     def evaluate_many(self, cell_values: Mapping[str, np.ndarray],
                       scenario: str | None = None):
         """One vectorised pass over many variants: each entry of `cell_values` is an array of
@@ -147,12 +167,14 @@ class Sheet:
 
         return sweep_evaluation(self.checked, dict(cell_values), scenario)
 
+    @_quiet
     def compare(self, scenarios: Iterable[str] | None = None) -> "pandas.DataFrame":
         """A tidy table of key results per scenario with the difference from the base."""
         from layercalc.evaluation.compare import compare
 
         return compare(self, list(scenarios) if scenarios is not None else None)
 
+    @_quiet
     def to_xlsx(self, path: str | Path) -> None:
         from layercalc.formats.xlsx.export import write_workbook
 
@@ -209,6 +231,7 @@ class Result:
             self._frames["si"] = self._frame(si=True)
         return self._frames["si"]
 
+    @_quiet
     def _frame(self, si: bool):
         import pandas as pd
 
@@ -223,12 +246,14 @@ class Result:
         return frame
 
     @property
+    @_quiet
     def cells(self) -> dict[str, float]:
         sheet = self.sheet
         return {name: float(sheet.unit_of(name, "cell").from_si(value))
                 for name, value in self.si_cells.items()}
 
     @property
+    @_quiet
     def summary(self) -> dict:
         """Diagnostics that are not single formulas: levels of non-divergence, standard
         thicknesses and heights (SI)."""

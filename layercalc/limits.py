@@ -10,6 +10,10 @@ its position, never a traceback, an endless read or an output carrying inf or Na
 # products of two values, conversions to hPa/h or 1e-5 s^-1) stay finite.
 LARGEST_VALUE = 1e100
 
+# A unit's factor to SI ([1e-5 s^-1] has 1e-5) lies within [1/LARGEST_UNIT_FACTOR,
+# LARGEST_UNIT_FACTOR], so that a value in range stays finite in any unit it is shown in.
+LARGEST_UNIT_FACTOR = 1e30
+
 # Text inputs (.layers files), read whole: a regular file of at most this many bytes. A
 # million-layer table (checking/tables.MAX_LAYERS) takes about 40 MB.
 MAX_TEXT_BYTES = 64_000_000

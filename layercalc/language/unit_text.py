@@ -7,6 +7,7 @@ import math
 import sys
 
 from layercalc.errors import UnitError
+from layercalc.limits import LARGEST_UNIT_FACTOR
 from layercalc.language import units as U
 from layercalc.language.build import build_unit
 from layercalc.language.nodes import UnitName, UnitNumber, UnitOp, UnitPower
@@ -14,7 +15,6 @@ from layercalc.language.parser import parse_unit_text
 from layercalc.source import Source
 
 MAX_NUMBER = sys.float_info.max  # 1.797e308, the largest float64
-MIN_NUMBER = sys.float_info.min * sys.float_info.epsilon  # 4.9e-324, the smallest above 0
 
 
 def _written(node) -> str:
@@ -45,11 +45,11 @@ def written_unit(node) -> U.Unit:
     """The Unit of a bracketed unit as written, keeping its text; its factor must be positive."""
     unit = resolve_unit(node)
     text = node.span.source.text[node.span.start:node.span.end].strip().strip("[]").strip()
-    if not (math.isfinite(unit.scale) and unit.scale > 0):
-        size = "too large" if unit.scale > 0 else "too small"
-        raise UnitError(f"the unit [{text}] has a factor {size} for a number (factors must "
-                        f"lie between {MIN_NUMBER:.4g} and {MAX_NUMBER:.4g})", node.span,
-                        hint="write a scaled unit like [1e-5 s^-1] or [10 m]")
+    if not 1 / LARGEST_UNIT_FACTOR <= unit.scale <= LARGEST_UNIT_FACTOR:
+        size = "too large" if unit.scale > 1 else "too small"
+        raise UnitError(f"the unit [{text}] has a factor {size} (a unit's factor to SI must "
+                        f"lie between {1 / LARGEST_UNIT_FACTOR:g} and {LARGEST_UNIT_FACTOR:g})",
+                        node.span, hint="write a scaled unit like [1e-5 s^-1] or [10 m]")
     return U.Unit(unit.dimension, unit.scale, unit.offset, text or unit.text)
 
 

@@ -59,6 +59,10 @@ def steps(values: np.ndarray, p_bottom: np.ndarray, p_top: np.ndarray):
     return np.repeat(values, 2), np.column_stack([p_bottom, p_top]).ravel()
 
 
+MOST_HEIGHT_TICKS = 60  # a tick every 1 or 2 km up to here; an automatic choice beyond
+HIGHEST_AXIS_KM = 10_000.0  # heights beyond +-10,000 km get no height axis
+
+
 def _height_axis(ax, p_hpa: np.ndarray, z_km: np.ndarray) -> None:
     """Heights on the right, from the interface heights (linear in ln p between them,
     extended at the ends with the end layers' slopes)."""
@@ -66,6 +70,9 @@ def _height_axis(ax, p_hpa: np.ndarray, z_km: np.ndarray) -> None:
     z = z_km[::-1]
     slope_low = (z[1] - z[0]) / (log_p[1] - log_p[0])
     slope_high = (z[-1] - z[-2]) / (log_p[-1] - log_p[-2])
+    if not (np.all(np.diff(z) < 0) and np.all(np.abs(z) <= HIGHEST_AXIS_KM)
+            and slope_low < 0 and slope_high < 0):
+        return  # absurd but accepted inputs: heights no axis can show, so none is drawn
 
     def to_height(p):
         x = np.log(np.clip(np.asarray(p, dtype=float), 1e-6, None))
@@ -81,12 +88,15 @@ def _height_axis(ax, p_hpa: np.ndarray, z_km: np.ndarray) -> None:
         return np.where(height < z[-1],
                         np.exp(log_p[-1] + (height - z[-1]) / slope_high), out)
 
-    from matplotlib.ticker import FixedLocator, FormatStrFormatter, NullLocator
+    from matplotlib.ticker import FixedLocator, FormatStrFormatter, MaxNLocator, NullLocator
 
     right = ax.secondary_yaxis("right", functions=(to_height, to_pressure))
     top_km = float(np.max(z))
     step = 1.0 if top_km <= 12 else 2.0
-    right.yaxis.set_major_locator(FixedLocator(np.arange(0.0, top_km + step, step)))
+    if 0.0 <= float(np.min(z)) and top_km <= MOST_HEIGHT_TICKS * step:
+        right.yaxis.set_major_locator(FixedLocator(np.arange(0.0, top_km + step, step)))
+    else:  # heights far from the troposphere's (absurd but accepted inputs)
+        right.yaxis.set_major_locator(MaxNLocator(nbins=8))
     right.yaxis.set_major_formatter(FormatStrFormatter("%g"))
     right.yaxis.set_minor_locator(NullLocator())
     right.set_ylabel("height (km)")

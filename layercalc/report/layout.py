@@ -20,9 +20,16 @@ def _clean(value: float, decimals: int) -> float:
     return round(float(value), decimals) + 0.0  # no "-0.00"
 
 
+# Beyond this magnitude a number is printed with a power of ten, whatever its decimals:
+# a value near the limit of what layercalc accepts (limits.py) would be 100 digits long.
+FIXED_LIMIT = 1e9
+
+
 def fixed(value: float, decimals: int) -> str:
     if not math.isfinite(value):
         return "-"
+    if abs(value) >= FIXED_LIMIT:
+        return f"{float(value):.3e}"
     return f"{_clean(value, decimals):.{decimals}f}"
 
 

@@ -1,0 +1,208 @@
+"""Issue 12, second round of hardening: short inputs that used to end in a traceback, values
+so large that derived numbers overflowed, outputs over the input, inputs that are not
+regular files, the grammar cache folder, usage errors and length limits.
+
+Every reproducer is refused as our error: exit status 1 (2 for usage errors), a message with
+its position, no traceback, nothing written and the input unchanged.
+"""
+
+from __future__ import annotations
+
+import re
+import warnings
+
+import numpy as np
+import pytest
+
+import layercalc
+from layercalc.cli.main import main
+from tests.cli.test_cli_hardening import SMALL_TABLE, assert_our_error, cli, snapshot
+
+TABLE_LINES = SMALL_TABLE.count("\n")
+HUGE_EXPONENT = "9" * 4301  # one digit beyond Python's limit for int("...")
+
+
+def case(tmp_path, *lines: str, name: str = "case.layers"):
+    path = tmp_path / name
+    path.write_text(SMALL_TABLE + "".join(line + "\n" for line in lines), encoding="utf-8")
+    return path
+
+
+def refused_everywhere(capsys, tmp_path, path, *needles) -> str:
+    """check, run (also with -o and --json), export and plot all refuse `path` with our error
+    at the position given in `needles`, write nothing and leave the input as it was."""
+    held = snapshot(tmp_path)
+    texts = []
+    for args in (["check"], ["run"], ["run", "--json"], ["run", "-o", tmp_path / "r.txt"],
+                 ["run", "--csv", tmp_path / "t.csv"],
+                 ["export", "-o", tmp_path / "b.xlsx"], ["plot", "-o", tmp_path / "p.png"]):
+        code, out, err = cli(capsys, args[0], path, *args[1:])
+        assert_our_error(code, out, err, *needles)
+        texts.append(out + err)
+    assert snapshot(tmp_path) == held  # nothing written, the input unchanged
+    return texts[0]
+
+
+# ---------------------------------------------------------------- 1. short inputs
+SHORT_INPUTS = {  # name -> (the line after the table, column of the message, words in it)
+    "unit_power_overflow": ("cell x = 1 [km^400]", 13, "unit power 400 is out of range"),
+    "unit_power_underflow": ("cell x = 1 [%^-400]", 13, "unit power -400 is out of range"),
+    "unit_divided_by_zero": ("cell x = 1 [K/0]", 15, "the number 0 in a unit must be positive"),
+    "unit_exponent_of_4301_digits": (f"cell x = 1 [m^{HUGE_EXPONENT}]", 13,
+                                     "unit power of a million or more is out of range"),
+    "unit_factor_overflow": ("cell x = 1 [1e200 1e200 m]", 13, "factor too large"),
+    "unit_factor_underflow": ("cell x = 1 [m/(1e-200 1e-200)]", 13, "factor too large"),
+    "infinite_exponent": ("column y = T ^ 1e309", 16, "the number 1e309 is out of range"),
+    "infinite_exponent_dimensionless": ("column y = (T/T) ^ 1e309", 20,
+                                        "the number 1e309 is out of range"),
+    "dimensional_power_too_large": ("column y = T ^ 1e99", 16,
+                                    "can only be raised to a power from -12 to 12"),
+    "literal_beyond_the_range": ("column y [K] = T / 1e400", 20,
+                                 "the number 1e400 is out of range"),
+    "cell_beyond_the_range": ("cell y = 1e101 [K]", 10, "the number 1e101 [K] is out of range"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(SHORT_INPUTS))
+def test_a_short_input_is_refused_with_its_position(name, capsys, tmp_path):
+    line, column, words = SHORT_INPUTS[name]
+    path = case(tmp_path, line)
+    refused_everywhere(capsys, tmp_path, path, f"{path}:{TABLE_LINES + 1}:{column}: ", words)
+
+
+def test_a_table_value_beyond_the_range_is_refused(capsys, tmp_path):
+    path = tmp_path / "case.layers"
+    path.write_text(SMALL_TABLE.replace("-1.0", "1e106"), encoding="utf-8")  # 1e101 s^-1
+    refused_everywhere(capsys, tmp_path, path, f"{path}:3:", "out of range")
+
+
+def test_a_chain_of_four_ending_in_an_unknown_name(capsys, tmp_path):
+    # the cycle detector's internal signal used to escape here
+    path = case(tmp_path, "cell a = b", "cell b = c", "cell c = d", "cell d = nosuch")
+    refused_everywhere(capsys, tmp_path, path, f"{path}:{TABLE_LINES + 4}:10: name error",
+                       "unknown name 'nosuch'")
+
+
+def _chain(length: int, closed: bool = False) -> list[str]:
+    """cell c{n} = c{n-1} + 1, written last first (each line reads one not yet defined)."""
+    lines = [f"cell c{i} = c{i - 1} + 1" for i in range(length - 1, 0, -1)]
+    return lines + [f"cell c0 = {'c' + str(length - 1) if closed else '1'}"]
+
+
+@pytest.mark.parametrize("length", [300, 500, 3000])
+def test_a_long_chain_of_definitions_runs(length, capsys, tmp_path):
+    path = case(tmp_path, *_chain(length))
+    code, out, err = cli(capsys, "run", path, "--json")
+    assert code == 0, err
+    # each link adds 1 to the one before: c{n} = n + 1 (exact in floating point)
+    assert f'"c{length - 1}": {float(length)}' in out
+
+
+def test_a_long_circle_of_definitions_is_one_short_message(capsys, tmp_path):
+    path = case(tmp_path, *_chain(500, closed=True))
+    text = refused_everywhere(capsys, tmp_path, path, f"{path}:{TABLE_LINES + 1}:6: cycle",
+                              "c499 -> c0 -> c1 -> c2 -> ... (500 formulas in all)")
+    assert max(len(line) for line in text.splitlines()) < 200
+
+
+def test_a_chain_of_200_through_the_api():
+    sheet = layercalc.loads(SMALL_TABLE + "\n".join(_chain(200)) + "\n", name="chain.layers")
+    assert float(sheet.evaluate().cells["c199"]) == 200.0  # c{n} = n + 1, exact
+
+
+def test_a_long_cell_name_fits_the_report(capsys, tmp_path):
+    name = "x" * 80
+    path = case(tmp_path, f"cell {name} = 1", "cell short = 2")
+    code, out, _ = cli(capsys, "check", path)
+    assert code == 0
+    code, out, err = cli(capsys, "run", path)
+    assert code == 0 and "Traceback" not in err
+    assert name in out and "short" in out
+
+
+def test_a_workbook_header_with_an_exponent_of_4301_digits(capsys, tmp_path):
+    from openpyxl import load_workbook
+
+    book = tmp_path / "book.xlsx"
+    assert main(["export", str(case(tmp_path, name="base.layers")), "-o", str(book)]) == 0
+    workbook = load_workbook(book)
+    sheet = workbook["layers"]
+    header = next(c for c in sheet[1] if str(c.value or "").startswith("T "))
+    header.value = f"T [K^{HUGE_EXPONENT}]"
+    workbook.save(book)
+    held = snapshot(tmp_path)
+    for args in (["check", book], ["run", book], ["import", book, "-o", tmp_path / "n.layers"]):
+        code, out, err = cli(capsys, *args)
+        assert_our_error(code, out, err, f"layers!{header.coordinate}",
+                         "unit power of a million or more")
+    assert snapshot(tmp_path) == held
+
+
+def test_units_power_refuses_large_exponents_through_the_api():
+    with pytest.raises(layercalc.LayercalcError) as caught:
+        layercalc.loads(SMALL_TABLE + "column y [m^13] = T\n", name="t.layers")
+    assert "from -12 to 12" in caught.value.message
+    # 12 itself is accepted: a dimension check follows (K is not m^12)
+    with pytest.raises(layercalc.LayercalcError) as caught:
+        layercalc.loads(SMALL_TABLE + "column y [m^12] = T\n", name="t.layers")
+    assert "unit error" in caught.value.format() and "from -12" not in caught.value.message
+
+
+# ---------------------------------------------------------------- 2. values out of range
+OUT_OF_RANGE = {  # name -> (lines after the table, position "line:column", words)
+    "omega_top_1e307": (["cell omega_top = 1e307 [Pa/s]"], "6:18", "out of range"),
+    "surface_height_1e300": (["cell surface_height = 1e300 [m]"], "6:23", "out of range"),
+    "divergence_of_minus_2e307": ([], "3:", "out of range"),  # table value, below
+    "derived_value_beyond_the_range": (["column y [K] = T * 1e90 * 1e90"], "6:1",
+                                       "column 'y' is out of range (2.87e+182"),
+    "unit_factor_too_small_for_display": (["column y [1e-31 K] = T"], "6:11",
+                                          "factor too small"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(OUT_OF_RANGE))
+def test_a_value_out_of_range_is_refused_before_any_output(name, capsys, tmp_path):
+    lines, position, words = OUT_OF_RANGE[name]
+    path = case(tmp_path, *lines)
+    if name == "divergence_of_minus_2e307":
+        path.write_text(SMALL_TABLE.replace("-1.0", "-2e307"), encoding="utf-8")
+    refused_everywhere(capsys, tmp_path, path, f"{path}:{position}", words)
+
+
+HUGE_BUT_IN_RANGE = {  # absurd values the range accepts: every output stays finite
+    "omega_top": ["cell omega_top = 1e99 [Pa/s]"],
+    "surface_height": ["cell surface_height = 1e99 [m]"],
+    "temperature": [],  # the table's temperatures, below
+}
+
+
+@pytest.mark.parametrize("name", sorted(HUGE_BUT_IN_RANGE))
+def test_huge_values_in_range_give_finite_outputs(name, capsys, tmp_path):
+    path = case(tmp_path, *HUGE_BUT_IN_RANGE[name])
+    if name == "temperature":
+        path.write_text(SMALL_TABLE.replace("[degC]", "[K]").replace("14.0", "1e99")
+                        .replace("6.0", "6e98"), encoding="utf-8")
+    code, out, err = cli(capsys, "run", path, "--json")
+    assert code == 0, err
+    assert "Infinity" not in out and "NaN" not in out
+    code, out, err = cli(capsys, "run", path, "--every-column", "--units", "si")
+    assert code == 0, err
+    assert re.findall(r"\d{20,}", out) == []  # powers of ten, not 100 digits
+    for args in (["plot", "-o", tmp_path / "p.png"], ["export", "-o", tmp_path / "b.xlsx"],
+                 ["run", "--csv", tmp_path / "t.csv"]):
+        code, out, err = cli(capsys, args[0], path, *args[1:])
+        assert code == 0 and "Traceback" not in err and "Warning" not in err, err
+    assert "inf" not in (tmp_path / "t.csv").read_text().lower()
+
+
+def test_no_numpy_warning_escapes_the_api():
+    text = SMALL_TABLE.replace("[degC]", "[K]").replace("14.0", "1e99")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        sheet = layercalc.loads(text, name="t.layers")
+        result = sheet.evaluate()
+        assert all(np.isfinite(v) for v in result.cells.values())
+        result.summary, result.layers, sheet.compare()
+        # omega_top = 1e99 Pa/s over air this thin: w is beyond the range (our error)
+        with pytest.raises(layercalc.LayercalcError, match="w_bottom' is out of range"):
+            sheet.evaluate_many({"omega_top": np.array([0.0, 1e99])})
