@@ -196,7 +196,7 @@ def test_huge_values_in_range_give_finite_outputs(name, capsys, tmp_path):
 
 
 def test_no_numpy_warning_escapes_the_api():
-    text = SMALL_TABLE.replace("[degC]", "[K]").replace("14.0", "1e99")
+    text = SMALL_TABLE.replace("[degC]", "[K]").replace("14.0", "1e99").replace("6.0", "6e98")
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         sheet = layercalc.loads(text, name="t.layers")
