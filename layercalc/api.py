@@ -138,8 +138,38 @@ class Sheet:
         return dict(self.checked.options)
 
     def check(self) -> list[Notice]:
-        """Warnings found while checking (errors raise when the sheet is loaded)."""
-        return list(self.checked.notices)
+        """Every warning of the sheet (errors raise when the sheet is loaded): those found
+        while checking, each scenario's (a range that selects no layer), and results beyond
+        what the atmosphere does in the base sheet or any scenario (evaluation/outcomes.py)."""
+        found = list(self.checked.notices)
+        base: set[str] = set()
+        for name in ("base", *self.scenarios):
+            scenario = self.checked.scenarios.get(name)
+            if scenario is not None:
+                found += scenario.notices
+            for notice in self._result_notices(self.evaluate(name)):
+                text = notice.message.split(": ", 1)[1] if scenario else notice.message
+                if scenario is None:
+                    base.add(text)
+                if scenario is None or text not in base:  # a scenario's own, not the base's
+                    found.append(notice)
+        return found
+
+    def warnings(self, result: "Result") -> list[Notice]:
+        """The warnings that belong with one result: the sheet's, its scenario's, and
+        results beyond what the atmosphere does."""
+        found = list(self.checked.notices)
+        scenario = self.checked.scenarios.get(result.scenario)
+        if scenario is not None:
+            found += scenario.notices
+        return found + self._result_notices(result)
+
+    @staticmethod
+    def _result_notices(result: "Result") -> list[Notice]:
+        from layercalc.evaluation.outcomes import result_notices
+
+        prefix = "" if result.scenario == "base" else f"scenario {result.scenario}: "
+        return result_notices(result.sheet, result.si_cells, result.si_columns, prefix)
 
     @_quiet
     def evaluate(self, scenario: str | None = None) -> "Result":

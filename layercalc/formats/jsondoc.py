@@ -187,8 +187,8 @@ def result_document(sheet, result) -> dict:
         if key in summary_extra:
             summary[key] = {k: float(v) for k, v in summary_extra[key].items()}
             units[key] = "m"
-    description, scenario_notices = _scenario_info(sheet, result.scenario)
-    notices = [*sheet.check(), *scenario_notices]
+    description, _ = _scenario_info(sheet, result.scenario)
+    notices = sheet.warnings(result)
     document = {
         "title": sheet.title,
         "scenario": result.scenario,

@@ -331,10 +331,7 @@ class _Report:
                     for name in self.checked.replaced_defaults]
         if self.checked.rows_given_top_first:
             remarks.append("the layers were given top first; they are computed surface first")
-        notices = list(self.sheet.check())
-        scenario = self.sheet.checked.scenarios.get(self.result.scenario)
-        if scenario is not None:
-            notices += scenario.notices
+        notices = self.sheet.warnings(self.result)
         if remarks:
             self.add("", "Remarks")
             for text in remarks:
