@@ -219,12 +219,18 @@ def _subset(eccodes, handle, template, subset, where, name, notices) -> DecodedS
                        "the message; layercalc places every level at the station")
         columns.pop("latitudeDisplacement")
         columns.pop("longitudeDisplacement", None)
-    keep = np.isfinite(pressure)
+    keep = np.isfinite(pressure) & (pressure > 0.0)
     if not keep.any():
-        raise MessageError("no level has a pressure", location=where_subset)
-    dropped = int((~keep).sum())
-    if dropped:
-        remarks.append(f"{dropped} levels without a pressure are left out")
+        raise MessageError("no level has a pressure above 0 Pa", location=where_subset)
+    missing = int((~np.isfinite(pressure)).sum())
+    if missing:
+        remarks.append(f"left out: {missing} level{'s' * (missing > 1)} without a pressure")
+    not_positive = pressure[np.isfinite(pressure) & ~keep]
+    if not_positive.size:
+        # real messages carry them (ecCodes' sample temp.bufr ends with a level at 0 Pa)
+        remarks.append(f"left out: {not_positive.size} level{'s' * (not_positive.size > 1)} "
+                       "at " + ", ".join(f"{p:g}" for p in not_positive)
+                       + " Pa (not a pressure in the atmosphere)")
     # several entries at one pressure (e.g. a standard level also flagged significant):
     # keep the first, fill its gaps from the others
     pressure, columns, _ = sort_levels(pressure[keep], {k: v[keep] for k, v in columns.items()})

@@ -23,6 +23,7 @@ from layercalc.formats.soundings_input import (  # noqa: E402
 DATA = Path(__file__).parent.parent / "data"
 NETWORK = DATA / "temp_network_309007.bufr"
 HIRES = DATA / "temp_hires_309057.bufr"
+SAMPLE = DATA / "temp_eccodes_309007.bufr"   # ecCodes' own 3-report sample
 VERSION = eccodes.codes_get_api_version()
 
 
@@ -48,15 +49,20 @@ def eccodes_levels(path, index):
 
 
 @pytest.mark.parametrize("path, index, template", [(NETWORK, 0, "3 09 007"), (NETWORK, 2, "3 09 007"),
-                                                    (HIRES, 0, "3 09 057")])
+                                                    (HIRES, 0, "3 09 057"), (SAMPLE, 0, "3 09 007"),
+                                                    (SAMPLE, 1, "3 09 007"), (SAMPLE, 2, "3 09 007")])
 def test_levels_equal_what_eccodes_prints(path, index, template):
     sounding = bufr.read_bufr(path).soundings[index]
     want = eccodes_levels(path, index)
     assert f"BUFR template {template}" in sounding.remarks
+    # every pressure ecCodes gives above 0 Pa is a level of ours, and no other
+    assert sorted(set(sounding.pressure)) == sorted(set(want["pressure"][want["pressure"] > 0]))
     for ours, theirs in (("temperature", "airTemperature"), ("dewpoint", "dewpointTemperature"),
                          ("wind_direction", "windDirection"), ("wind_speed", "windSpeed"),
                          ("height", "height")):
         for p, value in zip(want["pressure"], want[theirs]):
+            if p <= 0:
+                continue   # not a level of the atmosphere: left out (test below)
             k = np.flatnonzero(sounding.pressure == p)
             assert k.size == 1
             got = getattr(sounding, ours)[k[0]]
@@ -72,6 +78,44 @@ def test_station_position_elevation_and_time_from_the_message():
     assert (s.latitude, s.longitude, s.elevation) == (pytest.approx(47.8341), pytest.approx(10.8667), 760.0)
     assert s.time == "2025-02-23 10:45 UTC" and s.position_source == "the BUFR message"
     assert any("balloon drift" in r for r in s.remarks)
+
+
+def test_eccodes_sample_reports_identified_as_eccodes_reads_them():
+    decoded = bufr.read_bufr(SAMPLE)
+    assert decoded.problems == () and len(decoded.soundings) == 3
+    with open(SAMPLE, "rb") as stream:
+        for sounding in decoded.soundings:
+            handle = eccodes.codes_bufr_new_from_file(stream)
+            eccodes.codes_set(handle, "unpack", 1)
+            get = lambda key: eccodes.codes_get(handle, key)  # noqa: E731
+            # Expected: what ecCodes (version in VERSION) reads from the same message
+            assert sounding.station == f"{get('blockNumber'):02d}{get('stationNumber'):03d}"
+            assert sounding.latitude == get("#1#latitude")
+            assert sounding.longitude == get("#1#longitude")
+            assert sounding.elevation == get("#1#heightOfStation")
+            assert sounding.time == (f"{get('#1#year'):04d}-{get('#1#month'):02d}-{get('#1#day'):02d} "
+                                     f"{get('#1#hour'):02d}:{get('#1#minute'):02d} UTC")
+            eccodes.codes_release(handle)
+    # Expected: written down from ecCodes 2.50 (stations 06060, 71836, 94998; 2014, 2016, 1979)
+    assert [s.station for s in decoded.soundings] == ["06060", "71836", "94998"]
+    assert [s.time[:4] for s in decoded.soundings] == ["2014", "2016", "1979"]
+
+
+def test_a_level_at_0_pa_is_left_out_and_said():
+    sounding = bufr.read_bufr(SAMPLE).soundings[2]
+    # Expected: ecCodes 2.50 reads 36 pressures for the third report, the last 0 Pa and
+    # 23900 Pa twice; 34 levels remain (0 Pa left out, the twins merged)
+    assert sounding.level_count == 34 and sounding.pressure.min() == 2000.0
+    assert "left out: 1 level at 0 Pa (not a pressure in the atmosphere)" in sounding.remarks
+
+
+def test_one_sample_report_becomes_a_sheet_that_evaluates():
+    decoded = read_soundings(SAMPLE, stations=["71836"])
+    text = soundings_layers_text(decoded)
+    assert "\nlevels\n" in text
+    result = layercalc.loads(text).evaluate()
+    # Expected: the layers run from the report's lowest level (1015 hPa, ecCodes 2.50)
+    assert result.si_layers["p_bottom"].iloc[0] == pytest.approx(101500.0)
 
 
 def test_geopotential_of_the_old_template_is_divided_by_g0():
