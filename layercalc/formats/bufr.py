@@ -13,7 +13,8 @@ Per level: pressure (0 07 004), geopotential height (0 10 009, gpm) or geopotent
 wind direction and speed (0 11 001, 0 11 002), vertical sounding significance (0 08 042
 or 0 08 001) and, where present, the balloon drift (0 05 015, 0 06 015). Per message:
 station index (block and station number), ship or mobile identifier, position,
-elevation (0 07 030, else 0 07 001) and time. Units are read from ecCodes for every
+elevation (0 07 030, else 0 07 001, else the release height 0 07 007 except for a
+dropsonde, 3 09 056, whose release height is the aircraft's) and time. Units are read from ecCodes for every
 quantity and converted; an unknown unit is an error, not a guess. Each message must
 hold one subset or several uncompressed ones; compressed multi-subset messages are
 refused with a message saying so.
@@ -256,8 +257,18 @@ def _subset(eccodes, handle, template, subset, where, name, notices) -> DecodedS
     # section's rounded copy)
     latitude = _scalar(eccodes, handle, subset, "#1#latitude", "latitude")
     longitude = _scalar(eccodes, handle, subset, "#1#longitude", "longitude")
-    elevation = _scalar(eccodes, handle, subset, "#1#heightOfStationGroundAboveMeanSeaLevel",
-                        "#1#heightOfStation", "#1#height")
+    if template == "3 09 056":
+        # a dropsonde's 0 07 007 height is where the aircraft released it, not the ground
+        elevation = _scalar(eccodes, handle, subset, "#1#heightOfStationGroundAboveMeanSeaLevel")
+        release = _scalar(eccodes, handle, subset, "#1#height")
+        if release is not None:
+            remarks.append(f"released at {float(release):g} m above mean sea level (0 07 007); "
+                           "not taken as a ground elevation")
+        if kind == "ship or mobile":
+            kind = "drop"
+    else:
+        elevation = _scalar(eccodes, handle, subset, "#1#heightOfStationGroundAboveMeanSeaLevel",
+                            "#1#heightOfStation", "#1#height")
     parts = [int(_scalar(eccodes, handle, subset, f"#1#{k}", k) or 0)
              for k in ("year", "month", "day", "hour", "minute")]
     time = f"{parts[0]:04d}-{parts[1]:02d}-{parts[2]:02d} {parts[3]:02d}:{parts[4]:02d} UTC"

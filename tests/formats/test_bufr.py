@@ -1,4 +1,6 @@
-"""BUFR radiosonde messages (real sample data, tests/data/README.md) through ecCodes.
+"""BUFR radiosonde messages through ecCodes: real sample data (tests/data/README.md) for
+templates 3 09 007 and 3 09 057, small made-up messages encoded by ecCodes in the test
+(tests/formats/bufr_encoder.py) for 3 09 052 and 3 09 056.
 
 Expected values are what ecCodes itself returns for the same keys (the independent
 reference, version printed in the assertion messages); the network test runs three real
@@ -9,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from numpy.testing import assert_allclose
 
 eccodes = pytest.importorskip("eccodes")
 
@@ -153,3 +156,68 @@ def test_a_cut_off_message_is_an_error_with_its_byte():
     data = NETWORK.read_bytes()[:3000]
     with pytest.raises(MessageError, match="byte"):
         bufr.parse_bufr(data, "cut.bufr")
+
+
+# --------------------------------------------------------------------------------------
+# Templates 3 09 052 and 3 09 056: small made-up messages encoded by ecCodes in the test
+# (tests/formats/bufr_encoder.py), decoded by the reader; expected = the values encoded.
+# --------------------------------------------------------------------------------------
+
+# Made-up levels, each value at the element's resolution (10 Pa, 1 gpm, 0.01 K, 1 degree,
+# 0.1 m/s) so that encoding is exact to float rounding.
+SYNTHETIC = {
+    "pressure": [100800.0, 100000.0, 92500.0, 85000.0, 70000.0, 50000.0],
+    "height": [35.0, 102.0, 751.0, 1444.0, 2996.0, 5570.0],
+    "temperature": [287.35, 286.75, 282.15, 277.75, 269.05, 253.65],
+    "dewpoint": [283.35, 282.15, 279.15, 271.75, 258.05, 240.65],
+    "wind_direction": [195.0, 200.0, 205.0, 210.0, 215.0, 220.0],
+    "wind_speed": [4.1, 5.1, 7.7, 10.3, 12.9, 15.4],
+}
+
+
+def _assert_levels_as_encoded(sounding, levels, order):
+    for name, values in levels.items():
+        want = np.asarray(values)[order]
+        # Expected: the values encoded above; the element scales make them exact up to
+        # the float rounding of value * 10**scale (1e-9 relative is far below resolution)
+        assert_allclose(getattr(sounding, name), want, rtol=1e-9, atol=1e-9, err_msg=name)
+
+
+@pytest.mark.parametrize("template, name, top_first", [(309052, "3 09 052", False),
+                                                       (309056, "3 09 056", True)])
+def test_synthetic_template_levels_decode_as_encoded(template, name, top_first):
+    from .bufr_encoder import encode_sounding
+    order = slice(None, None, -1) if top_first else slice(None)
+    # 3 09 056 is a descent: its loop runs from the release down, and the reader sorts
+    levels = {k: list(np.asarray(v)[order]) for k, v in SYNTHETIC.items()}
+    if template == 309052:
+        data = encode_sounding(template, levels, block=99, station=901, elevation=35.0)
+    else:
+        data = encode_sounding(template, levels, identifier="DROP07", release_height=9000.0)
+    assert len(data) < 400   # tiny: a few hundred bytes
+    decoded = bufr.parse_bufr(data, "made_up.bufr")
+    assert decoded.problems == () and len(decoded.soundings) == 1
+    sounding = decoded.soundings[0]
+    assert f"BUFR template {name}" in sounding.remarks
+    _assert_levels_as_encoded(sounding, SYNTHETIC, slice(None))
+    # Expected: the identification encoded above (made up)
+    assert sounding.time == "2026-03-14 11:30 UTC"
+    assert (sounding.latitude, sounding.longitude) == (pytest.approx(46.5), pytest.approx(-31.25))
+    if template == 309052:
+        assert (sounding.station, sounding.kind, sounding.elevation) == ("99901", "land", 35.0)
+    else:
+        # the release height (aircraft) is said, never taken as the ground's elevation
+        assert (sounding.station, sounding.kind, sounding.elevation) == ("DROP07", "drop", None)
+        assert any("released at 9000 m" in r for r in sounding.remarks)
+
+
+def test_synthetic_message_reads_back_the_same_through_eccodes_itself(tmp_path):
+    # the encoder's own check: ecCodes (VERSION) reads back what was set, independent of
+    # the reader under test
+    from .bufr_encoder import encode_sounding
+    path = tmp_path / "made_up.bufr"
+    path.write_bytes(encode_sounding(309052, SYNTHETIC, block=99, station=901))
+    want = eccodes_levels(path, 0)
+    assert_allclose(want["pressure"], SYNTHETIC["pressure"], rtol=1e-12)
+    assert_allclose(want["airTemperature"], SYNTHETIC["temperature"], rtol=1e-9)
+    assert_allclose(want["height"], SYNTHETIC["height"], rtol=1e-12)
