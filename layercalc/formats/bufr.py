@@ -33,7 +33,7 @@ from layercalc.errors import InputError, LayercalcError, MessageError, Notice
 from . import hydrostatic
 from .decoded import Decoded, DecodedSounding, sort_levels
 
-__all__ = ["parse_bufr", "read_bufr", "split_messages"]
+__all__ = ["iter_messages", "parse_bufr", "read_bufr", "split_messages"]
 
 TEMPLATES = {309052: "3 09 052", 309056: "3 09 056", 309057: "3 09 057", 309007: "3 09 007"}
 
@@ -68,7 +68,12 @@ def read_bufr(path) -> Decoded:
 def split_messages(data: bytes, name: str) -> list[tuple[int, bytes]]:
     """(byte offset, message) of each BUFR message: 'BUFR', total length in bytes 4-6,
     ending '7777' (editions 2-4, from memory of the Manual on Codes Vol. I.2)."""
-    messages = []
+    return list(iter_messages(data, name))
+
+
+def iter_messages(data: bytes, name: str):
+    """The messages of `split_messages` one by one, so that a reader keeps those before a
+    message that is cut off (MessageError at that message)."""
     offset = data.find(b"BUFR")
     if offset < 0:
         raise InputError(f"{name} holds no BUFR message (no 'BUFR' marker)")
@@ -86,16 +91,23 @@ def split_messages(data: bytes, name: str) -> list[tuple[int, bytes]]:
         if not message.endswith(b"7777"):
             raise MessageError(f"the BUFR message at byte {offset} does not end with '7777'",
                                location=f"{name}:byte {offset}")
-        messages.append((offset, message))
+        yield offset, message
         offset = data.find(b"BUFR", offset + length)
-    return messages
 
 
 def parse_bufr(data: bytes, name: str = "<bytes>") -> Decoded:
     """Decode every radiosonde message in `data`; each subset becomes a sounding."""
     eccodes = _eccodes()
-    soundings, notices, problems = [], [], []
-    for number, (offset, message) in enumerate(split_messages(data, name), start=1):
+    soundings, notices, problems, messages = [], [], [], []
+    cut = None
+    try:
+        for offset_and_message in iter_messages(data, name):
+            messages.append(offset_and_message)
+    except MessageError as error:
+        if not messages:
+            raise
+        cut = error   # a file cut off after whole messages: those are read
+    for number, (offset, message) in enumerate(messages, start=1):
         where = f"{name}:message {number} (byte {offset})"
         try:
             soundings.extend(_decode_message(eccodes, message, where, name, notices))
@@ -105,6 +117,8 @@ def parse_bufr(data: bytes, name: str = "<bytes>") -> Decoded:
             raise
         except Exception as exc:  # ecCodes' own errors (GribInternalError and kin)
             problems.append(MessageError(f"ecCodes cannot decode it: {exc}", location=where))
+    if cut is not None:
+        problems.append(cut)
     return Decoded(tuple(soundings), tuple(notices), tuple(problems), name, "BUFR")
 
 

@@ -73,9 +73,10 @@ def read_soundings(path, format: str | None = None, stations=None, near=None,
     Returns
     -------
     Decoded
-        The soundings chosen, with warnings; a report that could not be decoded raises its
-        MessageError when it belongs to a chosen station (or when none is chosen), and is a
-        warning otherwise.
+        The soundings chosen, with warnings. A report that could not be decoded raises its
+        MessageError when it names a station chosen in `stations`, or when no report of
+        the file decodes; otherwise it is left out with a warning naming the report, its
+        line and group (with no choice made, the other reports are used).
     """
     path = Path(path)
     try:
@@ -145,12 +146,41 @@ def select(decoded: Decoded, stations=None, near=None) -> Decoded:
             raise InputError(f"{decoded.source}: no sounding within {radius:g} km of "
                              f"{latitude:g}, {longitude:g}")
     problems = list(decoded.problems)
-    if problems and (not stations and near is None):
-        raise problems[0]
+    if problems and not chosen:
+        raise problems[0]        # nothing decoded: the first problem is the answer
     for problem in problems:
-        notices.append(Notice(f"a report that is not used could not be decoded: {problem.message}",
-                              problem.span, location=problem.location if problem.span is None else None))
+        if stations and _concerns(problem, stations):
+            raise problem        # a station asked for by name must decode whole
+        notices.append(Notice(_skipped(problem, chosen=bool(stations) or near is not None),
+                              problem.span,
+                              location=problem.location if problem.span is None else None))
     return Decoded(tuple(chosen), tuple(notices), (), decoded.source, decoded.format)
+
+
+def _concerns(problem, stations) -> bool:
+    """Whether a broken report names one of the stations (its label holds the identifier)."""
+    words = (getattr(problem, "report", None) or "").split()
+    return any(ident in words for ident in stations)
+
+
+def _skipped(problem, chosen: bool) -> str:
+    """The warning for a report left out: which report, at which line and group, and why."""
+    report = getattr(problem, "report", None)
+    detail = problem.message
+    if report and detail.startswith(report + ": "):
+        detail = detail[len(report) + 2:]
+    where = []
+    line, group = getattr(problem, "line", None), getattr(problem, "group", None)
+    if line is not None:
+        where.append(f"line {line}")
+    if group:
+        where.append(f"group '{group}'")
+    name = f"report {report}" if report else "a report"
+    if where:
+        name += f" ({', '.join(where)})"
+    if chosen:
+        return f"{name} is not among those chosen and cannot be decoded: {detail}"
+    return f"{name} is skipped, it cannot be decoded: {detail}; the other reports are used"
 
 
 def read_station_table(path) -> dict:

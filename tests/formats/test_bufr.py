@@ -153,9 +153,26 @@ def test_format_is_recognised_by_content():
 
 
 def test_a_cut_off_message_is_an_error_with_its_byte():
-    data = NETWORK.read_bytes()[:3000]
-    with pytest.raises(MessageError, match="byte"):
-        bufr.parse_bufr(data, "cut.bufr")
+    # Expected: the first message's length field says 1750 bytes (bytes 4-6, read by hand)
+    with pytest.raises(MessageError, match=r"at byte 0 \(edition 3\) claims 1750 bytes, but 1000 remain"):
+        bufr.parse_bufr(NETWORK.read_bytes()[:1000], "cut.bufr")
+
+
+def test_messages_before_a_cut_off_one_are_read_and_the_cut_one_said(tmp_path):
+    path = tmp_path / "cut.bufr"
+    # message 1 is bytes 0-1749, message 2 claims 1988 bytes from 1750 (length fields,
+    # read by hand): 3000 bytes keep message 1 whole and cut message 2
+    path.write_bytes(NETWORK.read_bytes()[:3000])
+    decoded = bufr.read_bufr(path)
+    assert len(decoded.soundings) == 1 and len(decoded.problems) == 1
+    assert "at byte 1750" in decoded.problems[0].message
+    # no station chosen: the whole message is used, the cut one skipped with a warning
+    chosen = read_soundings(path)
+    assert [s.station for s in chosen.soundings] == [decoded.soundings[0].station]
+    warning = [n.format() for n in chosen.all_notices if "skipped" in n.message]
+    assert warning == [f"{path}:byte 1750: warning: a report is skipped, it cannot be decoded: "
+                       "the BUFR message at byte 1750 (edition 3) claims 1988 bytes, but 1250 "
+                       "remain; the other reports are used"]
 
 
 # --------------------------------------------------------------------------------------

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 import layercalc
-from layercalc.errors import InputError, LayercalcError
+from layercalc.errors import InputError, LayercalcError, MessageError
 from layercalc.formats.soundings_input import detect_format, read_soundings, soundings_layers_text
 from layercalc.formats.text_table import parse_text_table
 
@@ -137,3 +137,48 @@ def test_cli_import_of_a_bulletin(tmp_path):
                          capture_output=True, text=True)
     assert bad.returncode == 1 and "Traceback" not in bad.stderr
     assert not (tmp_path / "x.layers").exists()
+
+
+def _bulletin_with_a_broken_report(tmp_path):
+    """Stations 99901 and 99902; the TTBB of 99902 has a letter O for a zero."""
+    path = _write_bulletin(tmp_path, ["99901", "99902"])
+    text = path.read_text()
+    good = "TTBB 5812/ 99902 00008 142// 11950 106//"
+    assert text.count(good) == 1
+    path.write_text(text.replace(good, "TTBB 5812/ 99902 00008 142// 11950 1O6//"))
+    line = text[:text.index(good)].count("\n") + 1
+    return path, line
+
+
+def test_with_no_station_chosen_a_broken_report_is_skipped_and_named(tmp_path):
+    path, line = _bulletin_with_a_broken_report(tmp_path)
+    decoded = read_soundings(path)
+    # both stations stay: 99902 keeps its Part A, its broken Part B is left out
+    assert [s.station for s in decoded.soundings] == ["99901", "99902"]
+    assert [p.split()[0] for p in decoded.soundings[1].parts] == ["TTAA"]
+    skipped = [n.format() for n in decoded.all_notices if "skipped" in n.message]
+    column = len("TTBB 5812/ 99902 00008 142// 11950 ") + 1
+    assert skipped == [
+        f"{path}:{line}:{column}: warning: report TTBB 99902 day 08 12 UTC (line {line}, "
+        "group '1O6//') is skipped, it cannot be decoded: found '1O6//' where a temperature "
+        "group TTTaDD was expected (a group of five digits or '/'); the other reports are used"]
+
+
+def test_a_broken_report_of_a_station_chosen_by_name_stops_the_import(tmp_path):
+    path, line = _bulletin_with_a_broken_report(tmp_path)
+    with pytest.raises(MessageError) as caught:
+        read_soundings(path, stations=["99902"])
+    assert (caught.value.line, caught.value.group) == (line, "1O6//")
+    # another station chosen: the broken report is only said
+    other = read_soundings(path, stations=["99901"])
+    assert [s.station for s in other.soundings] == ["99901"]
+    assert any("TTBB 99902" in n.message and "not among those chosen" in n.message
+               for n in other.all_notices)
+
+
+def test_when_no_report_decodes_the_first_problem_is_the_error(tmp_path):
+    path = tmp_path / "broken.txt"
+    path.write_text("TTAA 58121 99901 99OO8 142// 19508=\nTTAA 58121 99902 990x8 142// 19508=\n")
+    with pytest.raises(MessageError) as caught:
+        read_soundings(path)
+    assert caught.value.line == 1 and caught.value.group == "99OO8"
