@@ -62,11 +62,18 @@ CANONICAL = {c.name: c for c in (
               meaning="resolution of the reported wind speeds"),
     Canonical("div_error", "cell", expected_unit="s^-1",
               meaning="error of a hand-entered layer divergence"),
+    Canonical("T_error", "cell", expected_unit="K",
+              meaning="random error of each reported temperature (a difference, in K)"),
+    Canonical("Td_error", "cell", expected_unit="K",
+              meaning="random error of each reported dewpoint (a difference, in K)"),
+    Canonical("z_error", "cell", expected_unit="m",
+              meaning="random error of each reported height"),
     Canonical("members", "cell", expected_unit="1", meaning="size of the error ensemble"),
     Canonical("seed", "cell", expected_unit="1", meaning="seed of the error ensemble"),
 )}
 ERROR_MODEL_CELLS = ("wind_error", "wind_error_growth", "level_correlation", "direction_step",
-                     "speed_step", "div_error", "members", "seed")
+                     "speed_step", "div_error", "T_error", "Td_error", "z_error", "members",
+                     "seed")
 
 PRESSURE_BOUNDS = ("p_bottom", "p_top")          # a layer's bounds; scenarios cannot change them
 LAYER_INPUTS = ("p_bottom", "p_top", "T", "Td", "RH", "r", "div")

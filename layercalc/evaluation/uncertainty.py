@@ -40,12 +40,20 @@ MODEL_CELLS = {
     "direction_step": ("deg", np.deg2rad(err.DIRECTION_STEP_DEG)),  # reporting resolution
     "speed_step": ("kt", err.SPEED_STEP_KT * err.KNOT),
     "div_error": ("1e-5 s^-1", None),         # hand-entered layer divergence error
+    "T_error": ("K", None),                   # each reported temperature (a difference)
+    "Td_error": ("K", None),                  # each reported dewpoint
+    "z_error": ("m", None),                   # each reported height
     "members": ("1", 10000.0),
     "seed": ("1", 1.0),
 }
 # Ensembles below this size give percentiles too rough to print (own choice, no source:
 # the 5 % point of 200 members rests on 10 of them).
 MINIMUM_MEMBERS = 200
+# A temperature error above this is refused as a likely degC slip (a degC value is an
+# absolute temperature: 0.5 degC is 273.65 K). Own choice, no source.
+LARGEST_TEMPERATURE_ERROR = 50.0
+# Thermodynamic errors: cell -> the input column it perturbs.
+THERMAL_COLUMNS = {"T_error": "T", "Td_error": "Td"}
 MAXIMUM_MEMBERS = 1_000_000
 # Cells and columns that are linear in the divergence (exact sigma by propagation).
 LINEAR_CELLS = ("surface_pressure_tendency", "omega_surface", "net_mass_divergence",
@@ -65,12 +73,17 @@ class ErrorModel:
     members: int
     seed: int
     declared: tuple = ()
+    T_error: float | None = None
+    Td_error: float | None = None
+    z_error: float | None = None
 
     def as_dict(self) -> dict:
         return {"wind_error": self.wind_error, "wind_error_growth": self.wind_error_growth,
                 "level_correlation": self.level_correlation,
                 "direction_step": self.direction_step, "speed_step": self.speed_step,
-                "div_error": self.div_error, "declared": list(self.declared)}
+                "div_error": self.div_error, "T_error": self.T_error,
+                "Td_error": self.Td_error, "z_error": self.z_error,
+                "declared": list(self.declared)}
 
 
 @dataclass
@@ -102,6 +115,7 @@ class Assessment:
     linear: dict = field(default_factory=dict)           # name -> exact sigma
     ranges: dict = field(default_factory=dict)           # column -> (p05, p95) per layer
     method: str = ""
+    hydrostatic: list = field(default_factory=list)      # (sounding, sigma per layer, table)
 
 
 def error_model(checked, cells: dict | None = None) -> ErrorModel:
@@ -119,7 +133,8 @@ def error_model(checked, cells: dict | None = None) -> ErrorModel:
     return ErrorModel(values["wind_error"], values["wind_error_growth"],
                       values["level_correlation"], values["direction_step"],
                       values["speed_step"], values["div_error"], int(values["members"]),
-                      int(values["seed"]), tuple(declared))
+                      int(values["seed"]), tuple(declared), values["T_error"],
+                      values["Td_error"], values["z_error"])
 
 
 def _check_ranges(checked, values) -> None:
@@ -128,10 +143,22 @@ def _check_ranges(checked, values) -> None:
         raise DefinitionError(f"{name} {text}", cell.span if cell else None, hint=hint)
 
     for name in ("wind_error", "wind_error_growth", "direction_step", "speed_step",
-                 "div_error"):
+                 "div_error", "T_error", "Td_error", "z_error"):
         if values[name] is not None and values[name] < 0:
             fail(name, "must not be negative", "an error is a standard deviation or a "
                  "step, 0 or more")
+    for name, column in THERMAL_COLUMNS.items():
+        cell = checked.input_cells.get(name)
+        if cell is not None and cell.given and getattr(cell.unit, "offset", 0):
+            fail(name, f"is a temperature difference, given in [{cell.unit.text}], an "
+                 "absolute scale", f"give it in K, e.g. 'cell {name} = 0.5 K'")
+        if values[name] is not None and values[name] > LARGEST_TEMPERATURE_ERROR:
+            fail(name, f"is {values[name]:g} K, more than {LARGEST_TEMPERATURE_ERROR:g} K",
+                 "an error is a difference: give it in K, e.g. 0.5 K (a degC value is an "
+                 "absolute temperature)")
+        if values[name] and column not in checked.input_columns:
+            fail(name, f"is given but the sheet has no {column} column",
+                 f"remove {name}, or give {column} (errors of RH and r are not modelled)")
     if not -1.0 < values["level_correlation"] < 1.0:
         fail("level_correlation", "must lie strictly between -1 and 1",
              "0 for independent levels, e.g. 0.3 for weakly correlated ones")
@@ -167,34 +194,49 @@ def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) ->
     """
     from layercalc.evaluation.engine import evaluate
 
-    if "div" not in checked.input_columns or "p_bottom" not in checked.input_columns:
+    if "p_bottom" not in checked.input_columns:
         return None
     model = error_model(checked, cells)
-    network = network_of(checked)
+    has_div = "div" in checked.input_columns
+    network = network_of(checked) if has_div else None
+    thermal = _thermal_matrices(checked, model)
+    hydrostatic = _hydrostatic(checked, model)
+    if not (has_div and (network is not None or model.div_error is not None)) \
+            and not thermal and not hydrostatic:
+        return None
     dp = base_columns["p_bottom"] - base_columns["p_top"]
     layer_count = dp.size
     integrate = compiled.options.get("integrate", "from_top")
     adjust = compiled.options.get("adjust", "none") if integrate == "from_surface" else "none"
     rng = np.random.default_rng(model.seed)
     members = model.members
+    chain, layer_cov, inputs, linear = None, None, dict(columns), {}
     if network is not None:
         chain = _network_chain(network, model)
         layer_cov = chain["to_layers"] @ chain["covariance"] @ chain["to_layers"].T
         perturbation = _network_members(network, model, chain, rng, members)
-    elif model.div_error is not None:
+    elif has_div and model.div_error is not None:
         layer_cov = err.layer_divergence_covariance(np.full(layer_count, model.div_error),
                                                     model.level_correlation)
         perturbation = ens.draw_correlated_gaussian(
             rng, members, np.full(layer_count, model.div_error), model.level_correlation)
-        chain = None
-    else:
-        return None
-    omega = unc.omega_matrix(dp, integrate, adjust)
-    adjusted = unc.adjustment_matrix(dp, adjust)
-    linear = _linear_sigmas(base_columns, dp, omega, adjusted, layer_cov, integrate)
-
-    base_div = np.atleast_2d(columns.get("div", checked.input_columns["div"].values))
-    ensemble = evaluate(compiled, {**columns, "div": base_div + perturbation}, cells)
+    if layer_cov is not None:
+        omega = unc.omega_matrix(dp, integrate, adjust)
+        adjusted = unc.adjustment_matrix(dp, adjust)
+        linear = _linear_sigmas(base_columns, dp, omega, adjusted, layer_cov, integrate)
+        base_div = np.atleast_2d(columns.get("div", checked.input_columns["div"].values))
+        inputs["div"] = base_div + perturbation
+    # thermodynamic errors after the wind draws, so that they leave those draws unchanged
+    for name, (sigma, matrix) in thermal.items():
+        draws = rng.standard_normal((members, matrix.shape[1]))
+        base = np.atleast_2d(columns.get(name, checked.input_columns[name].values))
+        inputs[name] = base + sigma * (draws @ matrix.T)
+    if thermal:  # w reads Tv, and the terrain term lowest_layer(Tv): no longer linear
+        for name in ("w_bottom", "w_top", "surface_pressure_tendency"):
+            linear.pop(name, None)
+    ensemble = evaluate(compiled, inputs, cells)
+    if thermal and "terrain_term" not in ensemble.cells and "omega_surface" in linear:
+        linear["surface_pressure_tendency"] = linear["omega_surface"]
     summaries = {}
     for name, values in ensemble.cells.items():
         if values.shape[0] == members:
@@ -213,8 +255,9 @@ def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) ->
         float(ens.probability_below(tendency[:, 0]))
     assessment = Assessment(model, summaries, falling, layers, None, linear=linear,
                             ranges=ranges, method=f"{members} members, seed {model.seed}")
-    if "div_adjusted" in ensemble.columns:
+    if ensemble.columns.get("div_adjusted", np.empty((1, 0))).shape[0] == members:
         assessment.nondivergence = _nondivergence(base_columns, ensemble.columns["div_adjusted"])
+    assessment.hydrostatic = hydrostatic
     if chain is not None:
         assessment.levels = {"divergence": chain["level_sigma"][0],
                              "vorticity": chain["level_sigma"][1]}
@@ -224,6 +267,36 @@ def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) ->
             assessment.residual_sigma, assessment.residual_tendency_sigma = \
                 _residual(network, chain, row)
     return assessment
+
+
+def _thermal_matrices(checked, model: ErrorModel) -> dict:
+    """Input column -> (sigma, B): its layer errors are sigma B z, z standard normal per
+    level of the soundings (``error_models.level_mean_error_matrix``) or per layer of a
+    layers table (B = I); only for errors above 0."""
+    details = checked.soundings
+    out = {}
+    for cell, column in THERMAL_COLUMNS.items():
+        sigma = getattr(model, cell)
+        if not sigma or column not in checked.input_columns:
+            continue
+        if details is None:
+            out[column] = (sigma, np.eye(checked.layer_count))
+        elif column in details.level_counts:
+            out[column] = (sigma, err.level_mean_error_matrix(
+                details.column_levels["pressure"], details.level_counts[column]))
+    return out
+
+
+def _hydrostatic(checked, model: ErrorModel) -> list:
+    """Per hydrostatic table: one sigma of its difference (observed minus hypsometric
+    thickness) from the declared T, Td and z errors; [] when none is declared."""
+    errors = [model.T_error or 0.0, model.Td_error or 0.0, model.z_error or 0.0]
+    details = checked.soundings
+    if details is None or not any(errors):
+        return []
+    return [(table.sounding, err.hydrostatic_difference_sigma(
+        table.p_bottom, table.p_top, table.tv_per_temperature, table.tv_per_dewpoint,
+        *errors), table) for table in details.hydrostatic]
 
 
 def _network_chain(network: Network, model: ErrorModel) -> dict:

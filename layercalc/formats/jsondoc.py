@@ -22,6 +22,7 @@ A documented key the sheet cannot compute (no `div` column: no omega) is present
     "uncertainty": {
       "model": {"wind_error": ..|null, "wind_error_growth": .., "level_correlation": ..,
                 "direction_step": .., "speed_step": .., "div_error": ..|null,
+                "T_error": ..|null, "Td_error": ..|null, "z_error": ..|null,
                 "declared": [names the file gave]},
       "members": int, "seed": int,
       "cells": {name: {"sigma": .., "p05": .., "p50": .., "p95": ..}},
@@ -29,8 +30,11 @@ A documented key the sheet cannot compute (no `div` column: no omega) is present
                 # ensemble's; percentiles always from the ensemble
       "probability_falling": ..,                    # share of members with a falling p_s
       "layers": {column: [sigma per layer, surface first]},
-      "levels": {"divergence": [..], "vorticity": [..]}}   # station networks only, in
+      "levels": {"divergence": [..], "vorticity": [..]},   # station networks only, in
                 # the order of soundings.network.levels.pressure
+      "hydrostatic": [{"sounding": str, "difference_sigma": [..]}]}
+                # with T_error, Td_error or z_error and heights only: one sigma of each
+                # layer's observed minus hypsometric thickness, as soundings.hydrostatic
 
 A sheet built from soundings (`levels` tables or `station` blocks, soundings.py) has one
 more key, "soundings", after "summary" (sheets with a layers table have none): what the
@@ -232,6 +236,9 @@ def uncertainty_document(sheet, scenario: str) -> dict | None:
         **({"levels": {name: [_number(x) for x in sigma]
                        for name, sigma in found.levels.items()}}
            if found.levels is not None else {}),
+        **({"hydrostatic": [{"sounding": sounding, "difference_sigma": jsonable(sigma)}
+                            for sounding, sigma, _ in found.hydrostatic]}
+           if found.hydrostatic else {}),
     }
 
 

@@ -25,15 +25,16 @@ from typing import NamedTuple
 
 import numpy as np
 
-from layercalc.constants import KNOT  # m/s per knot; in __all__ because the models speak knots
+from layercalc.constants import G0, KNOT, RD  # KNOT in __all__: the models speak knots
 
-from .uncertainty import plane_fit_matrix
+from .uncertainty import gap_fill_matrix, layer_mean_matrix, plane_fit_matrix
 
 __all__ = [
     "KNOT", "DIRECTION_STEP_DEG", "SPEED_STEP_KT", "Sensitivity", "level_correlation",
     "wind_error_sigma", "wind_error_covariance", "layer_divergence_covariance",
     "rounding_sigma", "wind_component_jacobian", "rounding_component_covariance",
-    "residual_wind_sigma", "rank_sensitivity",
+    "residual_wind_sigma", "rank_sensitivity", "level_mean_error_matrix",
+    "hydrostatic_difference_sigma",
 ]
 
 # Resolution of a reported upper wind: direction to 5 degrees and speed to whole knots in
@@ -171,6 +172,74 @@ def rounding_component_covariance(direction_from, speed, direction_step=DIRECTIO
     variances = np.stack(np.broadcast_arrays(
         rounding_sigma(np.deg2rad(direction_step)) ** 2, rounding_sigma(speed_step) ** 2), -1)
     return (jacobian * variances[..., None, :]) @ np.swapaxes(jacobian, -1, -2)
+def level_mean_error_matrix(pressure, counts):
+    """Layer errors per unit error of each reported value of a sounding quantity (T, Td).
+
+    A level's value is the mean of the ``count_k`` soundings that report it, so with
+    independent errors of sigma per reported value its error is sigma / sqrt(count_k);
+    a level no sounding reports is interpolated linearly in ln p from the nearest reported
+    ones (``uncertainty.gap_fill_matrix``); a layer's value is the mean of its two levels
+    (``uncertainty.layer_mean_matrix``). So the layer errors are sigma B z with z standard
+    normal per level and
+
+        B = (layer means) (gap fill) diag(1 / sqrt(count)),   Cov = sigma^2 B B^T.
+
+    Parameters
+    ----------
+    pressure : array_like, shape (levels,)
+        Level pressures, surface first. [Pa]
+    counts : array_like of int, shape (levels,)
+        Soundings reporting the quantity at each level (0: interpolated).
+
+    Returns
+    -------
+    numpy.ndarray, shape (levels - 1, levels)  [1]
+    """
+    counts = np.asarray(counts, dtype=float)
+    reported = counts > 0
+    scale = np.where(reported, 1.0 / np.sqrt(np.maximum(counts, 1.0)), 0.0)
+    fill = np.nan_to_num(gap_fill_matrix(pressure, reported))
+    return layer_mean_matrix(counts.size) @ (fill * scale[None, :])
+
+
+def hydrostatic_difference_sigma(pressure_bottom, pressure_top, tv_per_temperature,
+                                 tv_per_dewpoint, temperature_error=0.0, dewpoint_error=0.0,
+                                 height_error=0.0):
+    """One sigma of a hydrostatic check's difference, observed minus hypsometric thickness.
+
+    d = (z_top - z_bottom) - Rd / g0 * (Tv_b + Tv_t) / 2 * ln(p_b / p_t), linearised:
+
+        Var(d) = 2 sigma_z^2 + (Rd / g0 * ln(p_b / p_t) / 2)^2 * (a_b^2 + a_t^2),
+        a_k^2 = (dTv/dT)_k^2 sigma_T^2 + (dTv/dTd)_k^2 sigma_Td^2,
+
+    for independent errors of each reported height, temperature and dewpoint (the two
+    heights of a layer independent). Adjacent layers share a level, so their differences
+    are correlated; this is the sigma of each layer alone.
+
+    Parameters
+    ----------
+    pressure_bottom, pressure_top : array_like, shape (L,)  [Pa]
+    tv_per_temperature, tv_per_dewpoint : array_like, shape (L + 1,)
+        dTv/dT and dTv/dTd at the levels (0 where there is no dewpoint). [1]
+    temperature_error, dewpoint_error : float, optional  [K]
+    height_error : float, optional  [m]
+
+    Returns
+    -------
+    numpy.ndarray, shape (L,)  [m]
+
+    References
+    ----------
+    Hypsometric equation (``levels.hydrostatic_consistency``); linear propagation of
+    independent errors, common practice.
+    """
+    a2 = (np.asarray(tv_per_temperature, float) * temperature_error) ** 2 \
+        + (np.asarray(tv_per_dewpoint, float) * dewpoint_error) ** 2
+    factor = RD / G0 * np.log(np.asarray(pressure_bottom, float)
+                              / np.asarray(pressure_top, float)) / 2.0
+    return np.sqrt(2.0 * height_error**2 + factor**2 * (a2[:-1] + a2[1:]))
+
+
 def residual_wind_sigma(x, y, u, v):
     """Wind component error estimated from the misfit of the linear fit (n > 3 stations).
 

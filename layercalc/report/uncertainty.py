@@ -37,6 +37,11 @@ def model_words(model, network) -> str:
         if model.level_correlation:
             text += f", correlated {model.level_correlation:g} between adjacent layers"
         parts.append(text)
+    thermal = [f"{what} {value:g} {unit}" for what, value, unit in (
+        ("temperature", model.T_error, "K"), ("dewpoint", model.Td_error, "K"),
+        ("height", model.z_error, "m")) if value]
+    if thermal:
+        parts.append("an error of each reported " + ", ".join(thermal) + " (independent)")
     return "; plus ".join(parts) if parts else "none declared"
 
 
@@ -85,6 +90,8 @@ def lines(report) -> list[str]:
         for label, text in rows:
             out += wrap_pair(label, text, width)
     out += _layer_table(report, assessment)
+    out += _thermal_table(report, assessment)
+    out += _hydrostatic_lines(assessment)
     if assessment.levels is not None and network is not None:
         out += _level_table(report, assessment, network)
     out += _sensitivity(report, assessment)
@@ -97,7 +104,10 @@ def lines(report) -> list[str]:
                     indent="  ")
     out += wrap(f"method: sigma by exact linear propagation through the fit, layer means, "
                 f"adjustment and integration (w at the layer's own Tv); ranges, chances and "
-                f"the non-linear results from an ensemble of {assessment.method}",
+                f"the non-linear results from an ensemble of {assessment.method}"
+                + ("; temperature and dewpoint errors (Tv, heights, w) from the ensemble "
+                   "only, the hydrostatic check's sigma by linear propagation"
+                   if "z_top" in assessment.layers or assessment.hydrostatic else ""),
                 indent="  ")
     return out
 
@@ -121,6 +131,50 @@ def _layer_table(report, assessment) -> list[str]:
         columns.append(TableColumn(heading, unit, [f"{v * scale:.2f}" for v in values[order]]))
     return ["", "  divergence and omega (at each layer's top) +- 1 sigma, top first"] + [
         "  " + line for line in table_lines("layer", "hPa", labels, columns, width=78)]
+
+
+def _thermal_table(report, assessment) -> list[str]:
+    """Heights (and w) +- sigma when temperature or dewpoint errors are declared."""
+    from layercalc.report.layout import TableColumn, table_lines
+
+    layers, cols = assessment.layers, report.columns
+    if "z_top" not in layers:
+        return []
+    order = slice(None, None, -1)
+    columns = []
+    for name, heading, unit, scale, digits in (("z_top", "z top", "m", 1.0, 0),
+                                               ("thickness", "thickness", "m", 1.0, 1),
+                                               ("Tv", "Tv", "K", 1.0, 2),
+                                               ("w_top", "w top", "cm/s", 100.0, 3)):
+        if name not in layers:
+            continue
+        if name != "Tv":
+            columns.append(TableColumn(heading, unit, [f"{v * scale:.{digits}f}"
+                                                       for v in cols[name][order]]))
+        columns.append(TableColumn("Tv +-" if name == "Tv" else "+-", unit,
+                                   [f"{v * scale:.{digits}f}"
+                                    for v in layers[name][order]]))
+    return ["", "  heights, virtual temperature and w (at each layer's top) +- 1 sigma, "
+                "top first"] + ["  " + line for line in table_lines(
+                    "layer", "hPa", report.layer_labels(), columns, width=78)]
+
+
+def _hydrostatic_lines(assessment) -> list[str]:
+    """Each hydrostatic check's difference against what the declared errors explain."""
+    out = []
+    for sounding, sigma, table in assessment.hydrostatic:
+        ratio = np.abs(table.difference) / np.where(sigma > 0, sigma, np.nan)
+        text = (f"hydrostatic check, {sounding}: the declared errors allow observed minus "
+                f"hypsometric thickness of +- {np.nanmin(sigma):.1f} to "
+                f"{np.nanmax(sigma):.1f} m (1 sigma)")
+        if np.isfinite(ratio).any():
+            k = int(np.nanargmax(ratio))
+            text += (f"; largest departure {table.difference[k]:+.1f} m = {ratio[k]:.1f} "
+                     f"sigma ({table.p_bottom[k] / 100:g}-{table.p_top[k] / 100:g} hPa)")
+            if ratio[k] > 3.0:
+                text += ", more than the declared errors explain"
+        out += wrap(text, indent="  ")
+    return ["", *out] if out else []
 
 
 def _level_table(report, assessment, network) -> list[str]:

@@ -66,10 +66,12 @@ class SoundingLayers:
     details: SoundingDetails | None = None
 
 
-def _column_levels(main, network, notices) -> tuple[dict, dict, str]:
-    """The column's quantities at its levels (SI), their units, and where they came from."""
+def _column_levels(main, network, notices, counts) -> tuple[dict, dict, str]:
+    """The column's quantities at its levels (SI), their units, and where they came from;
+    ``counts`` receives, per quantity, how many soundings report it at each level."""
     if main is not None:
         names = [n for n in main.values if n not in LEVEL_ONLY]
+        counts.update({n: np.isfinite(main.values[n]).astype(int) for n in names})
         levels = {n: fill_gaps(main.pressure, main.values[n], n, main.name,
                                lambda k, n=n: main.entry_span(n, k), notices) for n in names}
         return levels, {n: main.units[n] for n in names}, "the levels table"
@@ -84,6 +86,7 @@ def _column_levels(main, network, notices) -> tuple[dict, dict, str]:
                                       f"mean of the {len(having)} stations that do",
                                       s.table.span))
         stack = np.array([s.values[name] for s in having])
+        counts[name] = np.isfinite(stack).sum(axis=0)
         for s in having:
             for k in np.flatnonzero(~np.isfinite(s.values[name])):
                 if np.isfinite(stack[:, k]).any():
@@ -260,7 +263,8 @@ def layers_from_soundings(checker, level_tables: list[Table],
     soundings = ([main] if main else []) + (network.soundings if network else [])
     for s in soundings:
         level_notices(s, notices)
-    levels, units, source = _column_levels(main, network, notices)
+    counts: dict = {}
+    levels, units, source = _column_levels(main, network, notices, counts)
     pressure = main.pressure if main is not None else network.pressure
     span_of = {}
     for s in reversed(soundings):
@@ -304,7 +308,7 @@ def layers_from_soundings(checker, level_tables: list[Table],
                            tolerance, notices)
     columns = _columns(pressure, levels, units, span_of)
     details = SoundingDetails(source, tolerance, column_levels, network_details, layer_wind,
-                              hydrostatic)
+                              hydrostatic, counts)
     return SoundingLayers(columns, pressure.size - 1, notices, details)
 
 

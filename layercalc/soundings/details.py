@@ -8,7 +8,7 @@ changes act on the layers, not on the soundings.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -84,6 +84,8 @@ class HydrostaticTable:
     implied_virtual_temperature: np.ndarray  # [K]
     flags: tuple[HydrostaticFlag, ...]     # the likely causes, structured
     messages: tuple[str, ...]              # the same in words, one per flag
+    tv_per_temperature: np.ndarray | None = None  # [1] dTv/dT at the levels
+    tv_per_dewpoint: np.ndarray | None = None     # [1] dTv/dTd at the levels (0: no Td)
 
 
 @dataclass(frozen=True)
@@ -97,3 +99,5 @@ class SoundingDetails:
     network: Network | None
     layer_wind: LayerWind | None
     hydrostatic: tuple[HydrostaticTable, ...]
+    level_counts: dict = field(default_factory=dict)  # name -> soundings reporting it at
+                                                      # each level (0: interpolated)

@@ -276,11 +276,19 @@ def length_cell(checker, name: str, quiet: bool = False) -> tuple[float, Span] |
     return sign * float(unit.to_si(expr.value)), st.expr.span
 
 
-def _level_virtual_temperature(s: Sounding) -> np.ndarray:
-    """Tv at the levels; where no humidity is given the air counts as dry (r = 0)."""
-    temperature, p = s.values["T"], s.pressure
+# Step of the central differences dTv/dT, dTv/dTd [K] (own choice, no source: Tv is
+# smooth, so the truncation error ~ step^2 is far below the errors it is used for).
+TV_DIFFERENCE_STEP_K = 0.01
+
+
+def _level_virtual_temperature(s: Sounding, temperature_shift: float = 0.0,
+                               dewpoint_shift: float = 0.0) -> np.ndarray:
+    """Tv at the levels; where no humidity is given the air counts as dry (r = 0).
+    The shifts [K] are added to T and Td (for derivatives)."""
+    temperature, p = s.values["T"] + temperature_shift, s.pressure
     if "Td" in s.values:
-        r = humidity.mixing_ratio(humidity.vapour_pressure_from_dewpoint(s.values["Td"]), p)
+        r = humidity.mixing_ratio(humidity.vapour_pressure_from_dewpoint(
+            s.values["Td"] + dewpoint_shift), p)
     elif "RH" in s.values:
         vapour = humidity.vapour_pressure_from_relative_humidity(s.values["RH"], temperature)
         r = humidity.mixing_ratio(vapour, p)
@@ -341,6 +349,12 @@ def hydrostatic_check(s: Sounding, tolerance: float,
     """
     p_bottom, p_top, tv = level_physics.layers_from_levels(s.pressure,
                                                            _level_virtual_temperature(s))
+    # dTv/dT and dTv/dTd at the levels, central differences of the same Tv (for the
+    # uncertainty of the difference, evaluation/uncertainty.py)
+    step = TV_DIFFERENCE_STEP_K
+    per_t, per_td = ((_level_virtual_temperature(s, **{name: step})
+                      - _level_virtual_temperature(s, **{name: -step})) / (2.0 * step)
+                     for name in ("temperature_shift", "dewpoint_shift"))
     observed = np.diff(s.values["z"])
     check = level_physics.hydrostatic_consistency(p_bottom, p_top, observed, tv, tolerance)
     flags = level_physics.diagnose_hydrostatic_flags(p_bottom, p_top, check.difference,
@@ -350,4 +364,5 @@ def hydrostatic_check(s: Sounding, tolerance: float,
         notices.append(Notice(f"hydrostatic check, {s.name}: {message}", _flag_span(s, flag)))
     return HydrostaticTable(s.name, tolerance, p_bottom, p_top, observed,
                             check.hypsometric_thickness, check.difference, check.flagged,
-                            check.implied_virtual_temperature, tuple(flags), tuple(messages))
+                            check.implied_virtual_temperature, tuple(flags), tuple(messages),
+                            per_t, per_td)
