@@ -19,6 +19,9 @@ from layercalc.physics import humidity
 from layercalc.source import Span
 
 MAX_LAYERS = 1_000_000
+# surface_pressure and the lowest p_bottom may differ by rounding; more is a warning: 1 hPa,
+# our choice (station pressures are reported to 0.1 hPa, layer tables often to 1 hPa).
+SURFACE_PRESSURE_TOLERANCE = 100.0  # Pa
 
 
 class TableChecker:
@@ -219,6 +222,22 @@ class TableChecker:
             for k in over[:3]:
                 self.notices.append(Notice("dewpoint above temperature (supersaturated)",
                                            table.row_spans[int(order[k])]))
+
+    def surface_pressure_notice(self, columns: dict[str, InputColumn], cells) -> None:
+        """A warning, with both values, when surface_pressure and the lowest layer's p_bottom
+        differ by more than SURFACE_PRESSURE_TOLERANCE (the terrain term uses the one, the
+        column starts at the other)."""
+        cell = cells.get("surface_pressure")
+        if cell is None or "p_bottom" not in columns or not len(columns["p_bottom"].values):
+            return
+        bottom = float(columns["p_bottom"].values[0])
+        if abs(cell.value - bottom) > SURFACE_PRESSURE_TOLERANCE:
+            where = "is below the column's bottom" if cell.value > bottom else \
+                "is above the column's bottom"
+            self.notices.append(Notice(
+                f"surface_pressure {cell.value / 100.0:g} hPa differs from the lowest layer's "
+                f"p_bottom {bottom / 100.0:g} hPa (the ground {where}): the terrain term "
+                "uses surface_pressure, the column starts at p_bottom", cell.span))
 
     @staticmethod
     def vapour_pressure(columns: dict[str, InputColumn]) -> tuple[np.ndarray, str] | None:

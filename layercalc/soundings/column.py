@@ -45,8 +45,8 @@ from layercalc.soundings.details import (
     LayerWind, Network, NetworkLevels, NetworkStation, SoundingDetails,
 )
 from layercalc.soundings.levels import (
-    LEVEL_ONLY, WIND_NAMES, Sounding, cell_definition, fill_gaps, hpa, hydrostatic_check,
-    length_cell, level_notices, mean_over_soundings, read_sounding,
+    LEVEL_ONLY, WIND_NAMES, Sounding, cell_definition, constant_cell, fill_gaps, hpa,
+    hydrostatic_check, length_cell, level_notices, mean_over_soundings, read_sounding,
 )
 from layercalc.language.nodes import Station, Table
 from layercalc.physics import levels as level_physics, stations as station_physics
@@ -306,10 +306,54 @@ def layers_from_soundings(checker, level_tables: list[Table],
                         if "z" in s.values and "T" in s.values)
     _surface_height_notice(checker, main if main is not None else network.soundings,
                            tolerance, notices)
+    pressure, levels, column_levels = _cut_at_surface(checker, pressure, levels,
+                                                      column_levels, notices)
     columns = _columns(pressure, levels, units, span_of)
     details = SoundingDetails(source, tolerance, column_levels, network_details, layer_wind,
                               hydrostatic, counts)
     return SoundingLayers(columns, pressure.size - 1, notices, details)
+
+
+def _cut_at_surface(checker, pressure, levels, column_levels, notices):
+    """Levels below a `surface_pressure` higher up than the lowest levels are dropped, and
+    the layer that straddles the surface is cut at it: a level at surface_pressure with
+    every quantity interpolated linearly in ln p between its neighbours (as between any
+    two levels, physics.levels). Returns pressure, levels and column_levels, cut."""
+    given = constant_cell(checker, "surface_pressure", "pressure", "960 hPa", quiet=True)
+    if given is None or not given[0] < pressure[0]:
+        return pressure, levels, column_levels
+    surface, span = given
+    if not surface > pressure[-1]:
+        raise DefinitionError(f"surface_pressure {hpa(surface)} is at or above the highest "
+                              f"level, {hpa(pressure[-1])}: no layer is left above the "
+                              "ground", span, hint="check surface_pressure and its unit")
+    below = int(np.count_nonzero(pressure > surface))  # levels under the ground
+    exact = pressure[below] == surface
+    s = -np.log(pressure)
+
+    def cut(values):
+        values = np.asarray(values, dtype=float)
+        if values.size != pressure.size:
+            return values
+        kept = values[below:]
+        if exact:
+            return kept
+        at_surface = np.interp(-np.log(surface), s[below - 1:below + 1],
+                               values[below - 1:below + 1])
+        return np.concatenate(([at_surface], kept))
+
+    new_pressure = pressure[below:] if exact else np.concatenate(([surface], pressure[below:]))
+    dropped = ", ".join(hpa(p) for p in pressure[:below])
+    text = (f"surface_pressure is {hpa(surface)}: the level{'s' if below > 1 else ''} "
+            f"{dropped} below the surface {'are' if below > 1 else 'is'} dropped")
+    if not exact:
+        text += (f", and the layer {hpa(pressure[below - 1])} to {hpa(pressure[below])} is "
+                 f"cut at {hpa(surface)} (values there interpolated linearly in ln p)")
+    notices.append(Notice(text, span))
+    new_levels = {name: cut(values) for name, values in levels.items()}
+    new_column_levels = {name: (new_pressure if name == "pressure" else cut(values))
+                         for name, values in column_levels.items()}
+    return new_pressure, new_levels, new_column_levels
 
 
 def _surface_height_notice(checker, soundings, tolerance, notices) -> None:

@@ -249,6 +249,14 @@ def length_cell(checker, name: str, quiet: bool = False) -> tuple[float, Span] |
     None when the sheet has no such cell. A cell that is not a constant length raises our
     error, or, with `quiet`, gives None (for cells the checker itself checks).
     """
+    return constant_cell(checker, name, "length", "15 m", quiet)
+
+
+def constant_cell(checker, name: str, quantity: str, example: str,
+                  quiet: bool = False) -> tuple[float, Span] | None:
+    """A constant `cell NAME = <number> <unit>` of the dimension of `example` ("15 m",
+    "960 hPa"): (value in SI, its span); None when the sheet has no such cell. A cell that
+    is not such a constant raises our error, or, with `quiet`, gives None."""
     st = cell_definition(checker, name)
     if st is None:
         return None
@@ -261,18 +269,18 @@ def length_cell(checker, name: str, quiet: bool = False) -> tuple[float, Span] |
         if quiet:
             return None
         raise
-    length = unit is not None and U.same_dimension(unit.dimension,
-                                                   parse_unit_string("m").dimension)
-    if quiet and not length:
+    fits = unit is not None and U.same_dimension(
+        unit.dimension, parse_unit_string(example.split(" ", 1)[1]).dimension)
+    if quiet and not fits:
         return None
     if unit is None:
-        raise DefinitionError(f"{name} must be a number with a length unit", st.expr.span,
-                              hint=f"e.g. cell {name} = 15 m")
-    if not length:
-        raise UnitError(f"{name} must be a length, not "
+        raise DefinitionError(f"{name} must be a number with a {quantity} unit", st.expr.span,
+                              hint=f"e.g. cell {name} = {example}")
+    if not fits:
+        raise UnitError(f"{name} must be {U.with_article(quantity)}, not "
                         f"{U.with_article(U.dimension_name(unit.dimension))}",
                         st.expr.span, found=U.dimension_name(unit.dimension),
-                        expected="length", hint=f"e.g. cell {name} = 15 m")
+                        expected=quantity, hint=f"e.g. cell {name} = {example}")
     return sign * float(unit.to_si(expr.value)), st.expr.span
 
 
