@@ -21,6 +21,7 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
 
 import layercalc  # noqa: E402
 from layercalc.constants import EPSILON, G0, RD  # noqa: E402
@@ -266,6 +267,14 @@ def main() -> int:
     lines.append("|---|---|---|---|---|---|")
     lines.append(f"| {t_ens:.3f} | {t_hand:.3f} | {t_ens / t_hand:.1f} | {t_run:.2f} | "
                  f"{worst_ens:.1e} | {sigma_exact:.4g} / {sigma_mc:.4g} Pa/s |")
+    lines.append("")
+    from export_scaling import measure, table
+
+    lines.append("Workbook export (`layercalc export`, `benchmarks/export_scaling.py`): a "
+                 "made-up column of N layers with two scenarios; time of `write_workbook` "
+                 "(evaluation, layout, file), one run each (targets: 1,000 layers under 4 s, "
+                 "5,000 under 15 s):\n")
+    lines.append(table(measure()))
     lines.append("")
     lines.append("Times are the best of five runs (sweeps) or medians (cold start); the loop "
                  "times a sample of scenarios one at a time through `Sheet.evaluate_many` "

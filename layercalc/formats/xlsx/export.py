@@ -11,11 +11,14 @@ Sheets, in order:
     formulas          user formulas and scenario blocks in the layers language (re-imported)
     notes             title, notes, boundary condition, formulas, references, version, caution
 A scatter chart of omega and divergence against pressure (axis reversed) sits on each
-results sheet. The file is written to a temporary file beside the target, then renamed.
+results sheet. The cells of the results, values and compare sheets are written as XML
+(sheetxml.py), in time linear in the number of cells; the rest goes through openpyxl. The
+file is written to a temporary file beside the target, then renamed.
 """
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 import numpy as np
@@ -63,8 +66,9 @@ def variants(sheet) -> list[Variant]:
     return out
 
 
-def build_workbook(sheet):
-    """The openpyxl Workbook for `sheet` (see the module docstring for its layout)."""
+def build_workbook(sheet) -> "Built":
+    """The workbook for `sheet` (see the module docstring for its layout): the openpyxl
+    Workbook with the large sheets' cells kept aside as XML (Built)."""
     from openpyxl import Workbook
 
     from layercalc.version import __version__
@@ -84,19 +88,42 @@ def build_workbook(sheet):
     grids = [ResultsLayout(v, links, checked.title, CAUTION).build() for v in found]
     if len(found) > 1:
         grids.append(compare_grid(grids[0], found, grids[:len(found)], CAUTION))
-    for grid in grids:
-        _write_grid(workbook.create_sheet(grid.name), grid, live=True)
-    for grid in grids:
-        _write_grid(workbook.create_sheet(grid.values_name), grid, live=False,
-                    note=f"Plain numbers computed by layercalc {__version__}, cell for cell "
-                         f"as on the sheet '{grid.name}', for viewers that do not "
-                         "recalculate. " + CAUTION)
+    from layercalc.formats.xlsx.sheetxml import StyleIndex
+
+    styles = StyleIndex(workbook)
+    cells = {}
+    live_sheets = [workbook.create_sheet(grid.name) for grid in grids]
+    value_sheets = [workbook.create_sheet(grid.values_name) for grid in grids]
+    for grid, live, values in zip(grids, live_sheets, value_sheets):
+        note = (f"Plain numbers computed by layercalc {__version__}, cell for cell as on "
+                f"the sheet '{grid.name}', for viewers that do not recalculate. " + CAUTION)
+        cells[live.title], cells[values.title] = _write_grid(live, values, grid, styles, note)
     _formulas_sheet(workbook.create_sheet("formulas"), checked, set(settings_rows))
     from layercalc.formats.xlsx.notes import notes_sheet
 
     notes_sheet(workbook.create_sheet("notes"), checked, found, __version__, CAUTION)
     workbook.active = workbook.sheetnames.index("results")
-    return workbook
+    return Built(workbook, cells)
+
+
+class Built:
+    """The openpyxl workbook and the cells of its large sheets, written as XML on save
+    (sheet title -> (sheetData xml, dimension))."""
+
+    def __init__(self, workbook, cells: dict[str, tuple[str, str]]) -> None:
+        self.workbook = workbook
+        self.cells = cells
+
+    def to_bytes(self) -> bytes:
+        import io
+
+        from layercalc.formats.xlsx.sheetxml import fill_saved
+
+        buffer = io.BytesIO()
+        self.workbook.save(buffer)
+        parts = {self.workbook[title].path.lstrip("/"): xml
+                 for title, xml in self.cells.items()}
+        return fill_saved(buffer.getvalue(), parts)
 
 
 # ---------------------------------------------------------------- input sheets
@@ -212,38 +239,75 @@ def _unique(name: str, taken: set[str]) -> str:
 
 
 # ---------------------------------------------------------------- writing grids
-def _write_grid(ws, grid: Grid, live: bool, note: str | None = None) -> None:
+def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
+    """Lay out the live sheet and its plain-number twin for `grid` (widths, panes, chart,
+    comments) and return the cells of each as (sheetData xml, dimension), put into the
+    saved file by sheetxml.fill_saved: one pass over the entries, no openpyxl object per
+    cell. The twin has the note in A3 instead of the sheet's explanation, values instead
+    of formulas, and no cell comments."""
     from openpyxl.comments import Comment
 
+    from layercalc.formats.xlsx import sheetxml as X
+
+    live_rows: dict[int, list] = {}
+    value_rows: dict[int, list] = {}
+    letters: dict[int, str] = {}
     widths: dict[int, int] = {}
+    numbers: dict[int, tuple[float, int]] = {}  # column -> (largest magnitude, decimals)
+    known = styles.known
+    last_row = last_column = 1
     for (row, column), entry in grid.entries.items():
-        cell = ws.cell(row, column)
-        text = note if (note and (row, column) == (3, 1)) else entry.value
-        if live and entry.formula is not None:
-            cell.value = "=" + entry.formula
-        elif isinstance(text, str):
-            put_text(cell, text)
+        column_letter = letters.get(column) or letters.setdefault(column, letter(column))
+        reference = f"{column_letter}{row}"
+        text = entry.value
+        is_text = isinstance(text, str)
+        key = (entry.style, None, text[:1] in ("=", "+", "-", "@")) if is_text else \
+            (entry.style, entry.number_format, False)
+        style_id = known.get(key)
+        if style_id is None:
+            style_id = styles(*key)
+        if is_text:
+            value_xml = X.text_cell(reference, text, style_id)
+        elif text is None:
+            value_xml = X.empty_cell(reference, style_id)
         else:
-            cell.value = text
-        style(cell, entry.style)
-        if entry.number_format and not isinstance(text, str):
-            cell.number_format = entry.number_format
+            value_xml = X.number_cell(reference, float(text), style_id)
+        live_xml = value_xml if entry.formula is None else \
+            X.formula_cell(reference, entry.formula, text, style_id)
+        if (row, column) == (3, 1):
+            value_xml = X.text_cell(reference, note, styles(entry.style, None, False))
+        live_rows.setdefault(row, []).append((column, live_xml))
+        value_rows.setdefault(row, []).append((column, value_xml))
+        if row > last_row:
+            last_row = row
+        if column > last_column:
+            last_column = column
         if entry.comment:
-            cell.comment = Comment(entry.comment, "layercalc", width=320, height=120)
-        if row >= HEADER_ROW:
+            live_ws.cell(row, column).comment = Comment(entry.comment, "layercalc",
+                                                        width=320, height=120)
+        if row < HEADER_ROW:
+            continue
+        if is_text or text is None or not math.isfinite(text):
             widths[column] = max(widths.get(column, 8), _shown_width(text, entry))
-    size_columns(ws, {j: min(w + 2, 48) for j, w in widths.items()})
-    ws.freeze_panes = grid.freeze
-    if live and grid.chart is not None:
-        _chart(ws, grid.chart)
+        else:
+            decimals = (entry.number_format or "0.00").partition(".")[2].count("0")
+            magnitude, most = numbers.get(column, (0.0, 0))
+            numbers[column] = (max(magnitude, abs(float(text)) * (1 if text >= 0 else 10)),
+                               max(most, decimals))
+    for column, (magnitude, decimals) in numbers.items():
+        widths[column] = max(widths.get(column, 8), len(f"{magnitude:.{decimals}f}"))
+    dimension = f"A1:{letter(last_column)}{last_row}"
+    for ws in (live_ws, values_ws):
+        size_columns(ws, {j: min(w + 2, 48) for j, w in widths.items()})
+        ws.freeze_panes = grid.freeze
+    if grid.chart is not None:
+        _chart(live_ws, grid.chart)
+    return (X.sheet_data(live_rows), dimension), (X.sheet_data(value_rows), dimension)
 
 
 def _shown_width(value, entry) -> int:
     if isinstance(value, str):
         return min(len(value), 60 if entry.style == "note" else 40)
-    if isinstance(value, float) and np.isfinite(value):
-        decimals = (entry.number_format or "0.00").partition(".")[2].count("0")
-        return len(f"{value:.{decimals}f}")
     return 10
 
 
@@ -272,16 +336,13 @@ def _chart(ws, spec) -> None:
 
 
 # ---------------------------------------------------------------- atomic write
-def save_atomic(workbook, path: Path) -> None:
-    """Save the workbook whole into memory, then write it atomically (layercalc.files)."""
-    import io
-
+def save_atomic(built: Built, path: Path) -> None:
+    """Build the file whole in memory, then write it atomically (layercalc.files)."""
     from layercalc.files import write_atomic
 
-    buffer = io.BytesIO()
     try:
-        workbook.save(buffer)
+        data = built.to_bytes()
     except OSError as exc:
         raise OutputError(f"cannot write {path}: {exc.strerror or exc}",
                           location=str(path)) from None
-    write_atomic(path, buffer.getvalue())
+    write_atomic(path, data)

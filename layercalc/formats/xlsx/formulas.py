@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import math
 from fractions import Fraction
+from functools import lru_cache
 from typing import Callable, Protocol
 
 import numpy as np
@@ -54,6 +55,13 @@ class Layout(Protocol):
 
 
 def number_text(value: float) -> str:
+    """A float as formula text that gives back the same double (see _number_text); the
+    same few constants and unit factors recur in every row, so the text is cached."""
+    return _number_text(float(value))
+
+
+@lru_cache(maxsize=4096)
+def _number_text(value: float) -> str:
     """A float as formula text that gives back the same double; negatives bracketed. A long
     decimal that is exactly a small ratio (1/36 for hPa/h in Pa/s) is written as the ratio:
     the spreadsheet's division is correctly rounded, like Python's."""
@@ -77,6 +85,19 @@ def display_input(unit, si: float) -> float:
     bit-identical inputs. Typed inputs always have one; an input layercalc computed (from
     level tables or stations) may need 17 digits and is then stored rounded to 16 (a
     relative change below 1e-15)."""
+    key = (unit.scale, unit.offset, float(si))
+    found = _DISPLAYED.get(key)
+    if found is None:
+        if len(_DISPLAYED) > 100_000:
+            _DISPLAYED.clear()
+        found = _DISPLAYED[key] = _display_input(unit, si)
+    return found
+
+
+_DISPLAYED: dict[tuple, float] = {}  # (scale, offset, si) -> display number; inputs recur
+
+
+def _display_input(unit, si: float) -> float:
     raw = float(unit.from_si(si))
     for digits in range(1, STORED_DIGITS + 1):
         candidate = float(f"{raw:.{digits}g}")

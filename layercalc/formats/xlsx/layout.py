@@ -119,9 +119,12 @@ class ResultsLayout:
         self.columns: dict[str, tuple[str, object]] = {}
         self.cells: dict[str, tuple[str, object]] = {}
         self.helpers: dict[tuple, str] = {}
+        self.helper_nodes: dict[int, tuple] = {}  # id(node) -> (node, column letter)
         self.title = title
         self.caution = caution
         self._environment = None
+        self._broadcast: dict[str, np.ndarray] = {}
+        self._formats: dict[tuple, str] = {}
 
     # -- the Layout protocol --------------------------------------------------------
     def column_place(self, name: str):
@@ -131,13 +134,20 @@ class ResultsLayout:
         return self.cells[name]
 
     def helper(self, node, translator: Translator) -> str:
+        # A running sum asks for its helper once per row: the same node object gets the
+        # same column without translating every row again (that made export quadratic).
+        known = self.helper_nodes.get(id(node))
+        if known is not None and known[0] is node:
+            return known[1]
         rows = range(self.first_row, self.last_row + 1)
         texts = tuple(translator.expr(node, row) for row in rows)
         if texts in self.helpers:
+            self.helper_nodes[id(node)] = (node, self.helpers[texts])
             return self.helpers[texts]
         column = self.next_helper
         self.next_helper += 1
         self.helpers[texts] = letter(column)
+        self.helper_nodes[id(node)] = (node, letter(column))
         values = self._evaluate(node)
         self.grid.put(HEADER_ROW, column, Entry(
             f"helper: {source_text(node)} [{U.si_unit_text(node.meta.dimension)}]", style="header",
@@ -354,13 +364,22 @@ class ResultsLayout:
                                 math.ceil(bottom / 100.0) * 100.0),
                                f"H{self.last_row + 2}")
 
+    def _column_si(self, name: str) -> np.ndarray:
+        found = self._broadcast.get(name)
+        if found is None:
+            found = self._broadcast[name] = np.broadcast_to(self.variant.columns[name],
+                                                            (self.layers,))
+        return found
+
     def _link(self, row: int, column: int, name: str, source_row: int, unit) -> None:
         source_letter, source_unit = self.columns[name]
-        si = float(np.broadcast_to(self.variant.columns[name], (self.layers,))[
-            source_row - FIRST_ROW])
+        column_si = self._column_si(name)
+        fmt = self._formats.get((name, unit.text))
+        if fmt is None:  # one format for the chart column, from all of its values
+            fmt = self._formats[(name, unit.text)] = number_format(unit.from_si(column_si))
+        si = float(column_si[source_row - FIRST_ROW])
         text = from_si(to_si(f"{source_letter}{source_row}", source_unit), unit)
-        self.grid.put(row, column, Entry(float(unit.from_si(si)), text, "derived",
-                                         number_format([unit.from_si(si)])))
+        self.grid.put(row, column, Entry(float(unit.from_si(si)), text, "derived", fmt))
 
 
 def static_rows(summary: dict) -> list[tuple[str, float, str]]:
