@@ -124,6 +124,14 @@ class OutputError(LayercalcError):
     kind = "output error"
 
 
+class UsageError(LayercalcError):
+    """A command line that cannot work as given (an option's value, an output over the
+    input): exit status 2, like argparse's usage errors."""
+
+    kind = "usage error"
+    exit_code = 2
+
+
 class MessageError(LayercalcError):
     """A coded message (TEMP, PILOT, BUFR) that cannot be decoded.
 

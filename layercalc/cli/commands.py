@@ -7,23 +7,21 @@ from pathlib import Path
 
 from layercalc.names import close_names, did_you_mean
 from layercalc.cli.common import (
-    PLOT_SUFFIXES, case_summary, emit, load_case, need_suffix, refuse_overwrite,
+    PLOT_SUFFIXES, case_summary, emit, load_case, need_scenario, need_suffix, refuse_overwrite,
     worked_cases, worked_cases_folder, write_files,
 )
-from layercalc.errors import InputError, OutputError
+from layercalc.errors import InputError, OutputError, UsageError
 
 
 def command_run(args) -> int:
     from layercalc.formats import jsondoc as jsonout
     from layercalc.report import text as report
 
-    if args.csv and args.output and Path(args.csv).resolve() == Path(args.output).resolve():
-        raise OutputError(f"--csv and -o both name {args.csv}; nothing was written",
-                          hint="give the table and the report different files")
     if args.all_scenarios and args.csv:
-        raise OutputError("--csv writes one variant's layer table; with --all-scenarios "
+        raise UsageError("--csv writes one variant's layer table; with --all-scenarios "
                           "there are several", hint="use --scenario NAME with --csv")
     sheet = load_case(args.case)
+    need_scenario(sheet, args.scenario)
     if args.all_scenarios:
         names = ["base", *sheet.scenarios]
         if args.json:
@@ -122,13 +120,14 @@ def command_demo(args) -> int:
 def command_plot(args) -> int:
     suffix = Path(args.output).suffix.lower()
     if suffix not in PLOT_SUFFIXES:
-        raise OutputError(f"cannot draw to '{args.output}': the picture must end in .png or "
-                          ".svg", hint=f"e.g. -o {Path(args.output).stem or 'profile'}.png")
+        raise UsageError(f"cannot draw to '{args.output}': the picture must end in .png or "
+                         ".svg", hint=f"e.g. -o {Path(args.output).stem or 'profile'}.png")
     if args.dpi < 20 or args.dpi > 1200:
-        raise OutputError(f"--dpi {args.dpi} is out of range", hint="use 20 to 1200")
+        raise UsageError(f"--dpi {args.dpi} is out of range", hint="use 20 to 1200")
     from layercalc.plots.profile import save_profile
 
     sheet = load_case(args.case)
+    need_scenario(sheet, args.scenario)
     save_profile(sheet, args.output, scenario=args.scenario, dpi=args.dpi,
                  station_level=args.station_level)
     print(f"wrote {args.output}", file=sys.stderr)
@@ -181,7 +180,7 @@ def _soundings_text(args) -> str:
         except ValueError:
             near = ()
         if len(near) != 3:
-            raise InputError(f"--near {args.near}: expected LAT,LON,RADIUS_KM, e.g. 45.0,-30.0,400")
+            raise UsageError(f"--near {args.near}: expected LAT,LON,RADIUS_KM, e.g. 45.0,-30.0,400")
     decoded = read_soundings(args.workbook, format=args.format, stations=stations, near=near,
                              station_table=args.station_table)
     for notice in decoded.all_notices:

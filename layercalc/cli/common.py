@@ -3,13 +3,56 @@ existing file unless asked), output names that fit their format, and the worked 
 
 from __future__ import annotations
 
+import os
 import sys
+from itertools import combinations
 from pathlib import Path
 
-from layercalc.errors import InputError, OutputError
+from layercalc.errors import InputError, OutputError, UsageError
 
 DEMO_CASE = "midlevel_warming"
 PLOT_SUFFIXES = (".png", ".svg")
+
+
+# Every command's file arguments, by argparse destination: what it reads and what it writes
+# (with the option's name for messages). A new command or option that names a file is one
+# entry here, and refuse_clashing_paths then covers it.
+INPUT_DESTS = ("case", "cases", "workbook", "file", "sheet", "station_table")
+OUTPUT_DESTS = {"output": "-o", "csv": "--csv", "xlsx": "--xlsx", "plot": "--plot",
+                "json": "--json", "tendency_map": "--tendency-map", "omega_map": "--omega-map"}
+
+
+def same_file(a: str, b: str) -> bool:
+    """True when two paths name one file: the same inode when both exist (symlinks, hard
+    links, another spelling), else the same absolute path with links resolved."""
+    try:
+        return os.path.samefile(a, b)
+    except OSError:
+        return os.path.realpath(a) == os.path.realpath(b)
+
+
+def refuse_clashing_paths(args) -> None:
+    """Before any work: an output that is one of the inputs (it would replace the input), or
+    two outputs on one path (one would be lost), is a usage error."""
+    inputs: list[str] = []
+    for dest in INPUT_DESTS:
+        value = getattr(args, dest, None)
+        inputs.extend([value] if isinstance(value, str) else
+                      [v for v in value or () if isinstance(v, str)]
+                      if isinstance(value, list) else [])
+    outputs = [(flag, value) for dest, flag in OUTPUT_DESTS.items()
+               if isinstance(value := getattr(args, dest, None), str)]
+    for flag, path in outputs:
+        for source in inputs:
+            if same_file(path, source):
+                raise UsageError(f"{flag} {path} is the input {source}: writing it would "
+                                 "replace the input; nothing was written",
+                                 hint="give the output another name")
+    for (flag_a, a), (flag_b, b) in combinations(outputs, 2):
+        if same_file(a, b):
+            raise UsageError(f"{flag_a} and {flag_b} both name {a}: one output would be "
+                             "lost; nothing was written",
+                             hint="give each output its own file")
 
 
 def load_case(path: str):
@@ -72,8 +115,20 @@ def case_summary(path: Path) -> str:
 
 
 
+def need_scenario(sheet, name: str | None) -> None:
+    """--scenario NAME must name one of the sheet's scenarios (or base): a usage error."""
+    if name in (None, "base") or name in sheet.scenarios:
+        return
+    from layercalc.names import close_names, did_you_mean
+
+    close = close_names(name, sheet.scenarios, 3)
+    raise UsageError(f"--scenario {name}: this sheet has no scenario named '{name}'",
+                     hint=did_you_mean(close) or "scenarios in this sheet: "
+                     + (", ".join(sheet.scenarios) or "none"))
+
+
 def need_suffix(path: str, suffixes: tuple[str, ...], what: str) -> None:
     if Path(path).suffix.lower() not in suffixes:
-        raise OutputError(f"cannot write {what} to '{path}': the name must end in "
+        raise UsageError(f"cannot write {what} to '{path}': the name must end in "
                           + " or ".join(suffixes),
                           hint=f"e.g. -o {Path(path).stem or 'out'}{suffixes[0]}")

@@ -16,7 +16,7 @@ import os
 import sys
 from pathlib import Path
 
-from layercalc.errors import InputError, OutputError
+from layercalc.errors import InputError, OutputError, UsageError
 
 SCHEDULER_VARIABLE = "LAYERCALC_SCHEDULER"
 DEFAULT_CHUNKS = {"y": 256, "x": 256, "time": 1}
@@ -94,13 +94,13 @@ def parse_point(text: str, index: int) -> tuple[str, float, float]:
     try:
         latitude, longitude = float(parts[0]), float(parts[1])
     except (ValueError, IndexError):
-        raise InputError(f"--point '{text}': expected LAT,LON or LAT,LON,NAME in degrees",
+        raise UsageError(f"--point '{text}': expected LAT,LON or LAT,LON,NAME in degrees",
                          hint="e.g. --point 40.5,-98.25,\"Station A\"") from None
     if not -90.0 <= latitude <= 90.0:
-        raise InputError(f"--point '{text}': latitude {latitude:g} outside -90..90")
+        raise UsageError(f"--point '{text}': latitude {latitude:g} outside -90..90")
     name = parts[2] if len(parts) == 3 and parts[2] else f"Point {index + 1}"
     if '"' in name:
-        raise InputError(f"--point '{text}': a name may not contain '\"'")
+        raise UsageError(f"--point '{text}': a name may not contain '\"'")
     return name, latitude, longitude
 
 
@@ -112,14 +112,14 @@ def parse_chunks(text: str | None) -> dict:
         name, _, size = item.partition("=")
         name = name.strip()
         if name not in ("y", "x", "time"):
-            raise InputError(f"--chunks '{text}': '{name}' is not y, x or time",
+            raise UsageError(f"--chunks '{text}': '{name}' is not y, x or time",
                              hint="e.g. --chunks y=200,x=200 (levels stay in one chunk)")
         try:
             chunks[name] = int(size)
         except ValueError:
-            raise InputError(f"--chunks '{text}': '{size}' is not a whole number") from None
+            raise UsageError(f"--chunks '{text}': '{size}' is not a whole number") from None
         if chunks[name] < 3:
-            raise InputError(f"--chunks '{text}': {name} needs at least 3 points per chunk")
+            raise UsageError(f"--chunks '{text}': {name} needs at least 3 points per chunk")
     return chunks
 
 

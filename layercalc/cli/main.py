@@ -17,7 +17,7 @@ from layercalc.cli.commands import (
     command_check, command_demo, command_export, command_import, command_new, command_plot,
     command_run,
 )
-from layercalc.cli.common import DEMO_CASE
+from layercalc.cli.common import DEMO_CASE, refuse_clashing_paths
 from layercalc.cli.sweep import sweep_command as command_sweep
 from layercalc.errors import LayercalcError
 
@@ -27,9 +27,11 @@ class _Formatter(argparse.RawDescriptionHelpFormatter):
 
 
 def _command(subparsers, name: str, summary: str, example: str, description: str = ""):
-    return subparsers.add_parser(
+    command = subparsers.add_parser(
         name, help=summary, description=(description or summary),
         epilog="example:\n  " + example.replace("\n", "\n  "), formatter_class=_Formatter)
+    command.set_defaults(command_parser=command)  # its usage line, for our usage errors
+    return command
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -181,8 +183,11 @@ def main(argv: list[str] | None = None) -> int:
         # absurd but accepted values (1e308 Pa/s) overflow in unit conversions: the report
         # shows them as '-', and numpy's warnings would only add noise on stderr
         with np.errstate(all="ignore"):
+            refuse_clashing_paths(args)
             return args.handler(args)
     except LayercalcError as err:
+        if err.exit_code == 2 and getattr(args, "command_parser", None) is not None:
+            args.command_parser.print_usage(sys.stderr)  # as argparse does for its own
         print(err.format(), file=sys.stderr)
         return err.exit_code
     except BrokenPipeError:  # the reader (e.g. `| head`) stopped reading: not an error of ours

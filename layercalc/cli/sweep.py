@@ -6,8 +6,10 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-from layercalc.cli.common import PLOT_SUFFIXES, load_case, need_suffix, write_files
-from layercalc.errors import OutputError
+from layercalc.cli.common import (
+    PLOT_SUFFIXES, load_case, need_scenario, need_suffix, write_files,
+)
+from layercalc.errors import UsageError
 
 
 def _sweep_workbook(frame, units: dict, title: str) -> bytes:
@@ -46,11 +48,12 @@ def sweep_command(args) -> int:
               "twice)", file=sys.stderr)
         return 2  # a usage error
     if args.plot and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
-        raise OutputError(f"cannot draw to '{args.plot}': the picture must end in .png or "
+        raise UsageError(f"cannot draw to '{args.plot}': the picture must end in .png or "
                           ".svg")
     if args.xlsx:
         need_suffix(args.xlsx, (".xlsx",), "the sweep table")
     sheet = load_case(args.case)
+    need_scenario(sheet, args.scenario)
     ranges = [parse_range(text, sheet) for text in args.vary]
     frame = run_sweep(sheet, ranges, scenario=args.scenario, outputs=args.show)
     units = frame.attrs.get("units", {})

@@ -11,8 +11,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from layercalc.names import close_names
-from layercalc.errors import DefinitionError, UnknownNameError
+from layercalc.names import close_names, did_you_mean
+from layercalc.errors import UsageError
+from layercalc.limits import LARGEST_VALUE
 
 MAX_POINTS = 2_000_000  # grid points in one sweep
 DEFAULT_OUTPUTS = ("surface_pressure_tendency", "omega_surface", "max_ascent",
@@ -35,41 +36,43 @@ def parse_range(text: str, sheet) -> Range:
     match = _VARY.match(text)
     where = f"--vary {text!r}"
     if not match:
-        raise DefinitionError(f"{where}: expected NAME=START:STOP:STEP, e.g. warming=0:5:0.5")
+        raise UsageError(f"{where}: expected NAME=START:STOP:STEP, e.g. warming=0:5:0.5")
     name, *numbers = match.groups()
     try:
         start, stop, step = (float(n) for n in numbers)
     except ValueError:
-        raise DefinitionError(f"{where}: START, STOP and STEP must be numbers") from None
+        raise UsageError(f"{where}: START, STOP and STEP must be numbers") from None
     cells = sheet.checked.input_cells
     if name not in cells:
         close = close_names(name, cells, 3)
-        raise UnknownNameError(f"{where}: '{name}' is not an input cell of this sheet", None,
-                               close, hint=None if close else
-                               "input cells: " + ", ".join(cells))
+        raise UsageError(f"{where}: '{name}' is not an input cell of this sheet",
+                         hint=did_you_mean(close) or "input cells: " + ", ".join(cells))
     if not np.isfinite([start, stop, step]).all():
-        raise DefinitionError(f"{where}: START, STOP and STEP must be finite numbers")
+        raise UsageError(f"{where}: START, STOP and STEP must be finite numbers")
     if step == 0 or (stop - start) / step < 0:
-        raise DefinitionError(f"{where}: STEP must be non-zero and lead from START to STOP")
+        raise UsageError(f"{where}: STEP must be non-zero and lead from START to STOP")
     count = int(np.floor((stop - start) / step + 1e-9)) + 1
     if count > MAX_POINTS:
-        raise DefinitionError(f"{where}: {count} values is more than {MAX_POINTS}")
+        raise UsageError(f"{where}: {count} values is more than {MAX_POINTS}")
     values = start + step * np.arange(count)
     unit = cells[name].unit  # a degC cell varies as an absolute temperature
-    return Range(name, values, np.asarray(unit.to_si(values), dtype=float), unit.text)
+    si_values = np.asarray(unit.to_si(values), dtype=float)
+    if not np.all(np.abs(si_values) <= LARGEST_VALUE):
+        raise UsageError(f"{where}: the values must lie within {LARGEST_VALUE:g} in SI units")
+    return Range(name, values, si_values, unit.text)
 
 
 def grid(ranges: list[Range]) -> dict[str, np.ndarray]:
     """The full grid of one or two ranges, flattened (first range varies slowest)."""
     if not 1 <= len(ranges) <= 2:
-        raise DefinitionError("a sweep varies one or two cells")
+        raise UsageError("a sweep varies one or two cells")
     if len({r.name for r in ranges}) != len(ranges):
-        raise DefinitionError(f"the cell '{ranges[0].name}' is varied twice",
+        raise UsageError(f"the cell '{ranges[0].name}' is varied twice",
                               hint="vary two different cells, or one")
     mesh = np.meshgrid(*[r.si_values for r in ranges], indexing="ij")
     total = mesh[0].size
     if total > MAX_POINTS:
-        raise DefinitionError(f"the grid has {total} points; the limit is {MAX_POINTS}")
+        raise UsageError(f"the grid has {total} points; the limit is {MAX_POINTS}")
     return {r.name: m.ravel() for r, m in zip(ranges, mesh)}
 
 
@@ -93,7 +96,8 @@ def run_sweep(sheet, ranges: list[Range], scenario: str | None = None,
     for name in outputs:
         if name not in evaluation.cells:
             close = close_names(name, evaluation.cells, 3)
-            raise UnknownNameError(f"'{name}' is not a cell of this sheet", None, close)
+            raise UsageError(f"--show {name}: '{name}' is not a cell of this sheet",
+                             hint=did_you_mean(close) or None)
         unit = checked.unit_of(name, "cell")
         values = np.broadcast_to(evaluation.cells[name], (n, 1))[:, 0]
         data[name] = unit.from_si(values)

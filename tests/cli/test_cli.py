@@ -153,7 +153,7 @@ def test_run_one_scenario_and_all_scenarios(capsys):
 
 def test_an_unknown_scenario_is_our_error(capsys):
     code, out, err = cli(capsys, "run", str(WARMING), "--scenario", "warmd")
-    assert code == 1 and out == ""
+    assert code == 2 and out == ""  # a usage error
     assert "no scenario named 'warmd'" in err and "warmed" in err
 
 
@@ -240,7 +240,7 @@ def test_demo_list_and_unknown(capsys):
 
 def test_plot_refuses_other_formats(capsys, tmp_path):
     code, _, err = cli(capsys, "plot", str(WARMING), "-o", str(tmp_path / "p.jpg"))
-    assert code == 1 and ".png or .svg" in err
+    assert code == 2 and ".png or .svg" in err
     assert list(tmp_path.iterdir()) == []
 
 
@@ -251,7 +251,7 @@ def test_sweep(capsys, tmp_path):
     rows = list(csv.reader((tmp_path / "s.csv").open(encoding="utf-8")))
     assert rows[0][0] == "omega_top" and len(rows) == 2 + 3
     code, _, err = cli(capsys, "sweep", str(WARMING), "--vary", "nothing=0:1:1")
-    assert code == 1 and "nothing" in err
+    assert code == 2 and "nothing" in err
 
 
 def test_sweep_workbook_has_caution_and_units_and_three_ranges_are_a_usage_error(
@@ -417,13 +417,13 @@ def test_json_soundings_of_a_levels_table_with_winds(capsys, tmp_path):
 
 def test_output_names_must_fit_their_format(capsys, tmp_path):
     code, _, err = cli(capsys, "export", str(WARMING), "-o", str(tmp_path / "book.csv"))
-    assert code == 1 and "must end in .xlsx" in err
+    assert code == 2 and "must end in .xlsx" in err
     code, _, err = cli(capsys, "sweep", str(WARMING), "--vary", "warming=0:1:1",
                        "--xlsx", str(tmp_path / "s.csv"))
-    assert code == 1 and "must end in .xlsx" in err
+    assert code == 2 and "must end in .xlsx" in err
     same = tmp_path / "same.txt"
     code, _, err = cli(capsys, "run", str(WARMING), "--csv", str(same), "-o", str(same))
-    assert code == 1 and "both name" in err
+    assert code == 2 and "both name" in err
     assert list(tmp_path.iterdir()) == []
 
 

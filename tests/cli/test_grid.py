@@ -90,9 +90,9 @@ def test_run_writes_cf_netcdf_and_the_comparison(tmp_path, capsys):
 
 def test_run_refuses_bad_options_and_writes_nothing(tmp_path, capsys):
     out = tmp_path / "out.nc"
-    assert main(["grid", "run", str(GFS), "-o", str(out), "--chunks", "z=4"]) == 1
+    assert main(["grid", "run", str(GFS), "-o", str(out), "--chunks", "z=4"]) == 2  # usage
     assert "'z' is not y, x or time" in capsys.readouterr().err
-    assert main(["grid", "run", str(GFS), "-o", str(tmp_path / "out.txt")]) == 1
+    assert main(["grid", "run", str(GFS), "-o", str(tmp_path / "out.txt")]) == 2
     sheet = tmp_path / "bad.layers"
     sheet.write_text("column bad [K] = T + p_bottom\n")
     assert main(["grid", "run", str(GFS), "-o", str(out), "--sheet", str(sheet)]) == 1

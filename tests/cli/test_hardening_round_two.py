@@ -206,3 +206,107 @@ def test_no_numpy_warning_escapes_the_api():
         # omega_top = 1e99 Pa/s over air this thin: w is beyond the range (our error)
         with pytest.raises(layercalc.LayercalcError, match="w_bottom' is out of range"):
             sheet.evaluate_many({"omega_top": np.array([0.0, 1e99])})
+
+
+# ---------------------------------------------------------------- 3. outputs over the input
+def _usage_error(code, out, err, *needles) -> None:
+    assert code == 2, out + err
+    assert "usage: layercalc" in err and "usage error: " in err and "Traceback" not in err
+    for needle in needles:
+        assert needle in err, (needle, err)
+
+
+@pytest.fixture()
+def inputs(tmp_path):
+    """A .layers case and a workbook exported from it, in a folder of their own."""
+    folder = tmp_path / "in"
+    folder.mkdir()
+    layers = folder / "c.layers"
+    layers.write_text(SMALL_TABLE + "cell warming = 1 [K]\n", encoding="utf-8")
+    book = folder / "book.xlsx"
+    assert main(["export", str(layers), "-o", str(book)]) == 0
+    return layers, book
+
+
+CLASHES = {  # name -> arguments, with {c} the .layers case and {b} the workbook
+    "run_output": ["run", "{c}", "-o", "{c}"],
+    "run_csv": ["run", "{c}", "--csv", "{c}"],
+    "run_json_output": ["run", "{c}", "--json", "-o", "{c}"],
+    "run_another_spelling": ["run", "{c}", "-o", "{dir}/../in/./c.layers"],
+    "run_symlink": ["run", "{c}", "-o", "{link}"],
+    "run_hard_link": ["run", "{c}", "-o", "{hard}"],
+    "run_symlink_as_input": ["run", "{link}", "-o", "{c}"],
+    "sweep_csv": ["sweep", "{c}", "--vary", "warming=0:1:1", "--csv", "{c}"],
+    "run_workbook": ["run", "{b}", "-o", "{b}"],
+    "sweep_workbook": ["sweep", "{b}", "--vary", "warming=0:1:1", "--xlsx", "{b}"],
+    "export_over_its_workbook": ["export", "{b}", "-o", "{b}"],
+    "plot_over_the_case": ["plot", "{c}", "-o", "{c}"],
+    "import_over_its_input": ["import", "{b}", "-o", "{b}", "--force"],
+}
+
+
+@pytest.mark.parametrize("name", sorted(CLASHES))
+def test_an_output_over_the_input_is_a_usage_error(name, inputs, capsys, tmp_path):
+    layers, book = inputs
+    folder = layers.parent
+    (folder / "link.layers").symlink_to(layers)
+    (folder / "hard.layers").hardlink_to(layers)
+    held = snapshot(tmp_path)
+    args = [a.format(c=layers, b=book, dir=folder, link=folder / "link.layers",
+                     hard=folder / "hard.layers") for a in CLASHES[name]]
+    code, out, err = cli(capsys, *args)
+    _usage_error(code, out, err, "is the input", "nothing was written")
+    assert out == ""
+    assert snapshot(tmp_path) == held
+
+
+def test_two_outputs_on_one_path_are_a_usage_error(inputs, capsys, tmp_path):
+    layers, _ = inputs
+    held = snapshot(tmp_path)
+    for args in (["sweep", layers, "--vary", "warming=0:1:1", "--csv", tmp_path / "s.xlsx",
+                  "--xlsx", tmp_path / "s.xlsx"],
+                 ["run", layers, "--csv", tmp_path / "x.txt", "-o", tmp_path / "x.txt"],
+                 ["sweep", layers, "--vary", "warming=0:1:1", "--csv", tmp_path / "s.png",
+                  "--plot", tmp_path / "in" / ".." / "s.png"]):
+        code, out, err = cli(capsys, *args)
+        _usage_error(code, out, err, "both name", "one output would be lost")
+    assert snapshot(tmp_path) == held
+
+
+# ---------------------------------------------------------------- 6. option values
+OPTION_VALUES = {  # name -> (arguments after the case, words of the message)
+    "dpi_zero": (["plot", "-o", "p.png", "--dpi", "0"], "--dpi 0 is out of range"),
+    "vary_not_numbers": (["sweep", "--vary", "warming=a:b:c"], "must be numbers"),
+    "vary_backwards": (["sweep", "--vary", "warming=1:0:1"], "STEP must be non-zero"),
+    "vary_zero_step": (["sweep", "--vary", "warming=0:1:0"], "STEP must be non-zero"),
+    "vary_beyond_the_range": (["sweep", "--vary", "warming=0:1e101:1e100"],
+                              "must lie within 1e+100"),
+    "vary_unknown_cell": (["sweep", "--vary", "warmin=0:1:1"], "did you mean 'warming'"),
+    "vary_same_cell_twice": (["sweep", "--vary", "warming=0:1:1", "--vary", "warming=0:2:1"],
+                             "varied twice"),
+    "show_unknown_cell": (["sweep", "--vary", "warming=0:1:1", "--show", "nosuch"],
+                          "--show nosuch"),
+    "plot_jpg": (["plot", "-o", "p.jpg"], "must end in .png or .svg"),
+    "export_txt": (["export", "-o", "b.txt"], "must end in .xlsx"),
+    "run_csv_and_output_on_one_file": (["run", "--csv", "X", "-o", "X"], "both name X"),
+    "run_unknown_scenario": (["run", "--scenario", "nosuch"], "no scenario named 'nosuch'"),
+    "plot_unknown_scenario": (["plot", "-o", "p.png", "--scenario", "nosuch"],
+                              "no scenario named 'nosuch'"),
+    "sweep_unknown_scenario": (["sweep", "--vary", "warming=0:1:1", "--scenario", "nosuch"],
+                               "no scenario named 'nosuch'"),
+    "all_scenarios_with_csv": (["run", "--all-scenarios", "--csv", "t.csv"],
+                               "with --all-scenarios"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(OPTION_VALUES))
+def test_a_bad_option_value_is_a_usage_error(name, inputs, capsys, tmp_path, monkeypatch):
+    layers, _ = inputs
+    work = tmp_path / "work"
+    work.mkdir()
+    monkeypatch.chdir(work)
+    held = snapshot(tmp_path)
+    args, words = OPTION_VALUES[name]
+    code, out, err = cli(capsys, args[0], layers, *args[1:])
+    _usage_error(code, out, err, words)
+    assert snapshot(tmp_path) == held
