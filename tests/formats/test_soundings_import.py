@@ -135,7 +135,7 @@ def test_cli_import_of_a_bulletin(tmp_path):
     bad = subprocess.run([sys.executable, "-m", "layercalc", "import", str(path), "-o",
                           str(tmp_path / "x.layers"), "--near", "45,nope"],
                          capture_output=True, text=True)
-    assert bad.returncode == 1 and "Traceback" not in bad.stderr
+    assert bad.returncode == 2 and "Traceback" not in bad.stderr  # a usage error
     assert not (tmp_path / "x.layers").exists()
 
 
