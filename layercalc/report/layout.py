@@ -12,6 +12,8 @@ import math
 import textwrap
 from dataclasses import dataclass
 
+import numpy as np
+
 WIDTH = 80
 
 
@@ -33,6 +35,18 @@ def fixed(value: float, decimals: int) -> str:
     return f"{_clean(value, decimals):.{decimals}f}"
 
 
+def fixed_all(values, decimals: int) -> list[str]:
+    """fixed() of every value, formatted in one pass: '{:.Nf}' rounds as round() does, so
+    only '-0.00' and the non-finite values need a second look."""
+    array = np.asarray(values, dtype=float).reshape(-1)
+    texts = list(map(f"{{:.{decimals}f}}".format, array.tolist()))
+    zero = f"{0.0:.{decimals}f}"
+    for i in np.flatnonzero(~(array > 0) | np.isinf(array)).tolist():
+        text = texts[i]
+        texts[i] = "-" if text[-1] in "nf" else zero if text == "-" + zero else text
+    return texts
+
+
 def auto_decimals(values) -> int | None:
     """Decimals that show about four significant digits of the largest value; None means
     the values need powers of ten."""
@@ -50,11 +64,11 @@ def auto(values, counts: bool = False) -> list[str]:
     decimals (flags and counts, for dimensionless values)."""
     finite = [float(v) for v in values if math.isfinite(v)]
     if counts and finite and all(v.is_integer() and abs(v) < 1e6 for v in finite):
-        return [fixed(v, 0) for v in values]
+        return fixed_all(values, 0)
     decimals = auto_decimals(values)
     if decimals is None:
         return [f"{float(v):.3e}" if math.isfinite(v) else "-" for v in values]
-    return [fixed(v, decimals) for v in values]
+    return fixed_all(values, decimals)
 
 
 def pressure_text(pascals: float, system: str) -> str:
@@ -73,10 +87,10 @@ def table_lines(label_heading: str, label_unit: str, labels: list[str],
                 columns: list[TableColumn], width: int = WIDTH) -> list[str]:
     """Right-aligned columns after a left-aligned label; split into several tables (each
     repeating the labels) when one would be wider than `width`."""
-    label_width = max(len(label_heading), len(label_unit), *(len(x) for x in labels))
+    label_width = max(len(label_heading), len(label_unit), *map(len, labels))
     blocks, current, used = [], [], label_width
     for col in columns:
-        w = max(len(col.heading), len(col.unit), *(len(c) for c in col.cells)) + 2
+        w = max(len(col.heading), len(col.unit), *map(len, col.cells)) + 2
         if current and used + w > width:
             blocks.append(current)
             current, used = [], label_width
@@ -93,10 +107,11 @@ def table_lines(label_heading: str, label_unit: str, labels: list[str],
         if label_unit or any(c.unit for c, _ in block):
             lines.append(label_unit.ljust(label_width)
                          + "".join(c.unit.rjust(w) for c, w in block))
-        for i, label in enumerate(labels):
-            lines.append(label.ljust(label_width)
-                         + "".join(c.cells[i].rjust(w) for c, w in block))
-    return [line.rstrip() for line in lines]
+        # column by column, then joined row by row (a table can have 100,000 rows)
+        padded = [[label.ljust(label_width) for label in labels],
+                  *([cell.rjust(w) for cell in c.cells] for c, w in block)]
+        lines.extend(map("".join, zip(*padded)))
+    return list(map(str.rstrip, lines))
 
 
 # The narrowest a wrapped text may get: longer labels or indents (a long name) move the

@@ -16,7 +16,7 @@ from layercalc.language.units import si_unit_text
 from layercalc.report.compare import render_comparison
 from layercalc.report.uncertainty import lines as uncertainty_lines
 from layercalc.report.layout import (  # the layout helpers, public here as before
-    WIDTH, TableColumn, auto, auto_decimals, fixed, grid, is_zero, pressure_text,
+    WIDTH, TableColumn, auto, auto_decimals, fixed, fixed_all, grid, is_zero, pressure_text,
     table_lines, unit_words, wrap, wrap_pair,
 )
 
@@ -142,9 +142,10 @@ class _Report:
         self.add(*wrap(text))
 
     def layer_labels(self) -> list[str]:
-        pb, pt = self.columns["p_bottom"], self.columns["p_top"]
-        return [f"{pressure_text(pb[i], self.system)}-{pressure_text(pt[i], self.system)}"
-                for i in reversed(range(len(pb)))]
+        pb, pt = self.columns["p_bottom"][::-1], self.columns["p_top"][::-1]
+        if self.system != "si":  # pressure_text's hPa, for the whole column at once
+            pb, pt = pb / 100, pt / 100
+        return list(map("{:g}-{:g}".format, pb.tolist(), pt.tolist()))
 
     def column_cells(self, name: str, decimals: int | None) -> tuple[str, list[str]]:
         """A column's unit text and its values top first (plus the surface row for
@@ -158,7 +159,7 @@ class _Report:
         if decimals is None or self.system == "si":
             texts = auto(values)
         else:
-            texts = [fixed(v, decimals) for v in values]
+            texts = fixed_all(values, decimals)
         if name not in AT_SURFACE:
             texts[-1] = ""
         return unit.text, texts
