@@ -99,10 +99,18 @@ def problems(path_or_text: str | Path, *, is_text: bool = False) -> list[Layerca
 
     Besides parsing and checking, this evaluates the base sheet and every scenario, so that
     a file `check` passes is one `run` can evaluate (division by zero is found here too)."""
+    return check_sheet(path_or_text, is_text=is_text)[1]
+
+
+def check_sheet(path_or_text: str | Path, *, is_text: bool = False,
+                reuse_checks: bool = False) -> tuple["Sheet | None", list[LayercalcError]]:
+    """The sheet (None when it does not compile) and every problem `problems` finds, from
+    one compilation; `reuse_checks` as in `load` (the command line's `check` sets it)."""
     try:
-        sheet = loads(str(path_or_text)) if is_text else load(path_or_text)
+        sheet = loads(str(path_or_text)) if is_text else load(path_or_text,
+                                                             reuse_checks=reuse_checks)
     except LayercalcError as exc:
-        return list(getattr(exc, "problems", [exc]))
+        return None, list(getattr(exc, "problems", [exc]))
     from layercalc.evaluation.uncertainty import check_error_model
 
     found: list[LayercalcError] = []
@@ -112,7 +120,7 @@ def problems(path_or_text: str | Path, *, is_text: bool = False) -> list[Layerca
             check_error_model(sheet.checked, scenario)
         except LayercalcError as exc:
             found.append(exc)
-    return found
+    return sheet, found
 
 
 class Sheet:

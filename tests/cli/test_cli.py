@@ -437,3 +437,15 @@ def test_a_second_title_and_a_column_without_divergence():
     result = layercalc.loads(calm).evaluate()
     assert result.summary["level_of_nondivergence"] == []  # nothing changes sign
     assert result.cells["dines_ratio"] == 0.0  # the documented convention for no divergence
+
+
+@pytest.mark.parametrize("case", [WARMING, "bad"])
+def test_check_compiles_each_file_once(case, bad_case, monkeypatch, capsys):
+    from layercalc import api
+
+    compiled = []
+    original = api._compile
+    monkeypatch.setattr(api, "_compile", lambda *a, **k: compiled.append(1) or original(*a, **k))
+    code = main(["check", str(bad_case if case == "bad" else case)])
+    assert code == (1 if case == "bad" else 0) and len(compiled) == 1
+    capsys.readouterr()

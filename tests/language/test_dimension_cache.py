@@ -22,14 +22,16 @@ PROBE = ("import sys, io, contextlib\n"
          "from layercalc.cli.main import main\n"
          "out = io.StringIO()\n"
          "with contextlib.redirect_stdout(out):\n"
-         "    code = main(['run', sys.argv[1], '--json'])\n"
+         "    code = main([sys.argv[2], sys.argv[1], *(['--json'] if sys.argv[2] == 'run' "
+         "else [])])\n"
          "import layercalc.language.units as U\n"
          "print(repr((code, U.source(), 'sympy.physics.units' in sys.modules)))\n"
          "print(out.getvalue())\n")
 
 
-def run(case: Path, cache: Path, **env):
-    done = subprocess.run([sys.executable, "-c", PROBE, str(case)], capture_output=True,
+def run(case: Path, cache: Path, command: str = "run", **env):
+    done = subprocess.run([sys.executable, "-c", PROBE, str(case), command],
+                          capture_output=True,
                           text=True, timeout=120, cwd=ROOT,
                           env={**os.environ, "LAYERCALC_CACHE_DIR": str(cache), **env})
     assert done.returncode == 0, done.stderr
@@ -49,6 +51,15 @@ def test_second_run_reuses_the_check_and_gives_identical_output(tmp_path):
     assert state == (0, "cache", False)  # sympy's unit systems were not imported
     assert second == first
     assert json.loads(second)["summary"]["surface_pressure_tendency"] is not None
+
+
+def test_check_checks_with_sympy_once_and_shares_the_record_with_run(tmp_path):
+    state, printed = run(CASE, tmp_path, "check")
+    assert state == (0, "sympy", True) and printed.strip() == "ok"  # the first check: sympy
+    state, printed = run(CASE, tmp_path, "check")
+    assert state == (0, "cache", False) and printed.strip() == "ok"
+    state, _ = run(CASE, tmp_path, "run")
+    assert state == (0, "cache", False)  # run reuses what check recorded
 
 
 def test_changed_text_is_checked_with_sympy_again(tmp_path):
