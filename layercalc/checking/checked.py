@@ -14,6 +14,10 @@ from layercalc.language.typed import CELL, COLUMN, Formula
 from layercalc.source import Source
 
 
+# The remark for a layers table given top first (the report and the JSON say it alike).
+TOP_FIRST_REMARK = "the layers were given top first; they are computed surface first"
+
+
 @dataclass(frozen=True)
 class CheckedSheet:
     source: Source

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from layercalc.evaluation.summary import strongest_ascent
+
 # Cells compared for every scenario, with the unit they are shown in.
 KEY_CELLS = (
     ("surface_pressure_tendency", "hPa/(3 h)"),
@@ -22,9 +24,13 @@ def key_results(result) -> list[tuple[str, float, str]]:
 
     rows = []
     cells = result.si_cells
+    ascent = strongest_ascent(cells)
     for name, unit_text in KEY_CELLS:
         if name in cells:
-            rows.append((name, float(parse_unit_string(unit_text).from_si(cells[name])),
+            value = cells[name]
+            if name == "max_ascent":  # NaN: no ascent (evaluation.summary.strongest_ascent)
+                value = ascent[0] if ascent is not None else np.nan
+            rows.append((name, float(parse_unit_string(unit_text).from_si(value)),
                          unit_text))
     summary = result.summary
     for level, height in summary.get("standard_heights", {}).items():

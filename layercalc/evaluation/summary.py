@@ -13,6 +13,16 @@ STANDARD_THICKNESSES = ((100000.0, 50000.0), (100000.0, 85000.0), (85000.0, 7000
                         (85000.0, 50000.0), (70000.0, 50000.0), (50000.0, 30000.0))
 
 
+def strongest_ascent(cells: dict) -> tuple[float, float] | None:
+    """(omega, pressure) of the strongest ascent, SI, from the max_ascent cells; None when
+    omega is nowhere negative: there is no ascent (the one meaning the report, the JSON and
+    the scenario comparison give "strongest ascent")."""
+    omega = cells.get("max_ascent")
+    if omega is None or not np.isfinite(omega) or omega >= 0:
+        return None
+    return float(omega), float(cells.get("max_ascent_pressure", np.nan))
+
+
 def interfaces(columns: dict) -> tuple[np.ndarray, np.ndarray] | None:
     """Interface pressures and heights of one column, surface first (L + 1 values)."""
     if "z_bottom" not in columns:

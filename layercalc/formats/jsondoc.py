@@ -74,6 +74,8 @@ from pathlib import Path
 
 import numpy as np
 
+from layercalc.checking.checked import TOP_FIRST_REMARK
+from layercalc.evaluation.summary import strongest_ascent
 from layercalc.language import units as U
 
 LAYER_KEYS = ("p_bottom", "p_top", "T", "Tv", "div", "thickness", "z_bottom", "z_top",
@@ -190,10 +192,13 @@ def result_document(sheet, result) -> dict:
             summary[name] = _number(cells[name]) if name in cells else None
             if name in cells:
                 units.setdefault(name, U.si_unit_text(checked.unit_of(name, "cell").dimension))
+    ascent = strongest_ascent(cells)  # null when omega is nowhere negative: no ascent
     for name in checked.cell_names:
         if name in summary or name in HIDDEN_CELLS:
             continue
         summary[name] = _number(cells[name])
+        if name in ("max_ascent", "max_ascent_pressure") and ascent is None:
+            summary[name] = None
         units.setdefault(name, U.si_unit_text(checked.unit_of(name, "cell").dimension))
     for key in ("standard_heights", "standard_thicknesses"):
         if key in summary_extra:
@@ -217,7 +222,8 @@ def result_document(sheet, result) -> dict:
     document.update({
         "options": dict(checked.options),
         "notes": sheet.notes,
-        "remarks": list(checked.remarks),
+        "remarks": [*checked.remarks,
+                    *([TOP_FIRST_REMARK] if checked.rows_given_top_first else [])],
         "replaced_defaults": list(checked.replaced_defaults),
         "notices": [_notice(n) for n in notices],
         "caution": _caution(),
@@ -329,6 +335,15 @@ def dumps(document: dict) -> str:
 
 
 # ---------------------------------------------------------------- CSV
+def _csv_number(value) -> str:
+    """A number to 12 significant digits, never -0, empty when not finite: float64 carries
+    about 16, of which the conversions from SI and the sums leave the last few noise
+    (5.400000000000001, 0.359999999999999 for 0.36); no input is given to more than 12."""
+    value = float(value)
+    if not math.isfinite(value):
+        return ""
+    return f"{value + 0.0:.12g}"  # + 0.0 turns -0.0 into 0.0
+
 def layer_table_csv(result, system: str = "trade", heights: str = "m") -> str:
     """The layer table as CSV text: a row of names, a row of units, one row per layer from
     the surface upward."""
@@ -345,7 +360,7 @@ def layer_table_csv(result, system: str = "trade", heights: str = "m") -> str:
     writer.writerow([u.text for u in units])
     converted = [u.from_si(columns[n]) for n, u in zip(names, units)]
     for i in range(checked.layer_count):
-        writer.writerow([repr(float(values[i])) for values in converted])
+        writer.writerow([_csv_number(values[i]) for values in converted])
     return buffer.getvalue()
 
 

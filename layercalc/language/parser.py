@@ -167,6 +167,8 @@ def _token_error(source: Source, exc, parser) -> LayercalcSyntaxError:
         hint = f"'{token.value}' starts a statement: put it at the start of its own line"
     if token.type == "_NL" and "\"end\"" in str(exc.expected) or "END" in (exc.expected or ()):
         hint = "a table, scenario or station block closes with a line 'end'"
+    if token.value == ",":
+        hint = _comma_hint(source.text, start)
     return LayercalcSyntaxError(f"found {found}; expected {expected}", span, hint=hint)
 
 
@@ -212,11 +214,23 @@ def _literal(parser, terminal_name: str) -> str | None:
     return None
 
 
+def _comma_hint(text: str, offset: int) -> str:
+    """A comma written as a decimal separator (14,5) gets the number as it should be."""
+    before = len(text[:offset]) - len(text[:offset].rstrip("0123456789"))
+    after = len(text[offset + 1:]) - len(text[offset + 1:].lstrip("0123456789"))
+    if before and after:
+        whole, fraction = text[offset - before:offset], text[offset + 1:offset + 1 + after]
+        return f"decimals take a dot: write {whole}.{fraction}, not {whole},{fraction}"
+    return "table entries and a statement's parts are separated by spaces; commas only " \
+        "separate a function's arguments"
+
+
 def _hint_for_character(char: str) -> str | None:
     if char in "'":
         return 'text goes in double quotes: "like this"'
     if char == ",":
-        return "table entries are separated by spaces, and decimals use a point (12.5)"
+        return "table entries are separated by spaces, and decimals take a dot: write 14.5, " \
+            "not 14,5"
     if char == "\t":
         return None
     return None

@@ -67,6 +67,11 @@ def render_comparison(sheet, names: list[str], system: str = "trade") -> str:
 
     columns = [TableColumn(name, "", [cell(q, name) for q in quantities]) for name in names]
     lines += table_lines("quantity", "", labels, columns, width=WIDTH - 1)
+    notices = sheet.check()  # the sheet's, every scenario's, and results beyond air's
+    if notices:
+        lines += ["", "Warnings"]
+        for notice in notices:
+            lines += wrap("- " + notice.format())
     lines += [""] + wrap("caution: " + CAUTION)
     return "\n".join(lines) + "\n"
 

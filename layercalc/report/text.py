@@ -13,6 +13,7 @@ from layercalc.language import units as U
 from layercalc.names import INPUT_CELLS, LAYER_INPUTS
 from layercalc.formats.jsondoc import output_unit
 from layercalc.language.units import si_unit_text
+from layercalc.checking.checked import TOP_FIRST_REMARK
 from layercalc.report.compare import render_comparison
 from layercalc.report.uncertainty import lines as uncertainty_lines
 from layercalc.report.layout import (  # the layout helpers, public here as before
@@ -206,9 +207,12 @@ class _Report:
         if "omega_surface" in c and "omega_top" in cols:
             rows.append(("omega at the surface", self.omega_text(c["omega_surface"])))
         if "max_ascent" in c:
-            if c["max_ascent"] < 0:
-                rows.append(("strongest ascent", f"{self.omega_text(c['max_ascent'])} at "
-                             f"{self.pressure(c['max_ascent_pressure'])}"))
+            from layercalc.evaluation.summary import strongest_ascent
+
+            ascent = strongest_ascent(c)
+            if ascent is not None:
+                rows.append(("strongest ascent", f"{self.omega_text(ascent[0])} at "
+                             f"{self.pressure(ascent[1])}"))
             else:
                 rows.append(("strongest ascent", "none: omega is nowhere negative"))
         if "column_mean_divergence" in c:
@@ -331,7 +335,7 @@ class _Report:
         remarks += [f"your formula for {name} replaces the default"
                     for name in self.checked.replaced_defaults]
         if self.checked.rows_given_top_first:
-            remarks.append("the layers were given top first; they are computed surface first")
+            remarks.append(TOP_FIRST_REMARK)
         notices = self.sheet.warnings(self.result)
         if remarks:
             self.add("", "Remarks")
