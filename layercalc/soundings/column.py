@@ -304,10 +304,14 @@ def layers_from_soundings(checker, level_tables: list[Table],
         layer_wind = LayerWind(p_bottom, p_top, u, v)
     hydrostatic = tuple(hydrostatic_check(s, tolerance, notices) for s in soundings
                         if "z" in s.values and "T" in s.values)
-    _surface_height_notice(checker, main if main is not None else network.soundings,
-                           tolerance, notices)
+    lowest_level = pressure[0]
     pressure, levels, column_levels = _cut_at_surface(checker, pressure, levels,
                                                       column_levels, notices)
+    at_surface = None  # a cut column: the height of its new bottom, interpolated in ln p
+    if pressure[0] != lowest_level and len(column_levels["z"]):
+        at_surface = float(column_levels["z"][0])
+    _surface_height_notice(checker, main if main is not None else network.soundings,
+                           tolerance, notices, at_surface)
     columns = _columns(pressure, levels, units, span_of)
     details = SoundingDetails(source, tolerance, column_levels, network_details, layer_wind,
                               hydrostatic, counts)
@@ -356,14 +360,26 @@ def _cut_at_surface(checker, pressure, levels, column_levels, notices):
     return new_pressure, new_levels, new_column_levels
 
 
-def _surface_height_notice(checker, soundings, tolerance, notices) -> None:
-    """Heights start at surface_height: say so when the lowest observed height differs."""
+def _surface_height_notice(checker, soundings, tolerance, notices,
+                           at_surface: float | None = None) -> None:
+    """Heights start at surface_height: say so when the lowest observed height differs
+    (or, for a column cut at surface_pressure, the observed heights there: `at_surface`)."""
     soundings = soundings if isinstance(soundings, list) else [soundings]
     observed = [s.values["z"][0] for s in soundings if "z" in s.values]
     observed = [z for z in observed if np.isfinite(z)]
     if not observed:
         return
     lowest = float(np.mean(observed))
+    if at_surface is not None and np.isfinite(at_surface):
+        given = length_cell(checker, "surface_height", quiet=True)
+        if given is None or abs(given[0] - at_surface) > tolerance:
+            text = (f"surface_height is {given[0]:.0f} m but" if given is not None else
+                    "surface_height is not given, so computed heights start at 0 m; but")
+            notices.append(Notice(
+                f"{text} the observed heights put surface_pressure at about "
+                f"{at_surface:.0f} m (interpolated linearly in ln p)",
+                given[1] if given is not None else soundings[0].row_span(0)))
+        return
     given = length_cell(checker, "surface_height", quiet=True)
     where = soundings[0].row_span(0)
     if given is None and cell_definition(checker, "surface_height") is None:

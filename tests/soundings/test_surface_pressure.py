@@ -79,3 +79,16 @@ def test_layers_table_mismatch_is_a_warning_with_both_values(given, warned):
     assert bool(found) == warned
     if warned:
         assert f"surface_pressure {given}" in found[0] and "p_bottom 1000 hPa" in found[0]
+
+
+def test_surface_height_is_compared_with_the_heights_at_the_cut():
+    text = LEVELS.replace("Td [degC]", "Td [degC]  z [m]").replace(
+        "9.0\n", "9.0  110\n").replace("6.0\n  850", "6.0  780\n  850").replace(
+        "0.0\n", "0.0  1500\n").replace("-12.0\n", "-12.0  3100\n")
+    # z linear in ln p: 110 + 670 ln(1000/960) / ln(1000/925) = 460.8 m (as above)
+    expected = 110 + 670 * math.log(1000 / 960) / math.log(1000 / 925)
+    far = layercalc.loads(text + "cell surface_pressure = 960 hPa\ncell surface_height = 420 m\n")
+    found = [n.message for n in far.check() if "surface_height is 420 m" in n.message]
+    assert found and f"about {expected:.0f} m" in found[0]
+    near = layercalc.loads(text + "cell surface_pressure = 960 hPa\ncell surface_height = 461 m\n")
+    assert not any("surface_height is" in n.message for n in near.check())
