@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 from openpyxl import load_workbook
+from openpyxl.utils import column_index_from_string
 
 import layercalc
 from layercalc.cli.common import worked_cases_folder
@@ -268,8 +269,10 @@ def test_values_sheet_holds_layercalc_numbers_cell_for_cell(exported):
             for cell in row:
                 twin = values[cell.coordinate]
                 assert twin.data_type != "f", cell.coordinate  # no formulas in the twin
-                if cell.data_type == "f":
-                    assert isinstance(twin.value, (int, float)), cell.coordinate
+                if cell.data_type == "f":  # a number, "none" (no such level), "-" (no
+                    # difference) or the row check's "OK: ..."
+                    assert isinstance(twin.value, (int, float)) or twin.value in (
+                        "none", "-") or twin.value.startswith("OK: "), cell.coordinate
 
 
 def test_text_starting_like_a_formula_stays_text(exported):
@@ -284,32 +287,95 @@ def test_text_starting_like_a_formula_stays_text(exported):
     assert len(notes) == 2 and all(c.data_type == "s" for c in notes)
 
 
-def test_values_that_are_not_formulas_say_so(exported):
-    sheet, path = exported["every_function"]
-    ws = load_workbook(path)["results"]
-    rows = [r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == "height_500hPa"]
-    assert rows, "standard heights are listed"
-    value = ws.cell(rows[0], 2).value
-    assert isinstance(value, float)
-    assert "not a live formula" in ws.cell(rows[0], 4).value
-    # source: layercalc's own summary of the same sheet
-    assert value == pytest.approx(sheet.evaluate().summary["standard_heights"]["500"],
-                                  rel=1e-15)
+@pytest.mark.parametrize("case", ["every_function", "midlevel_warming"])
+def test_summary_diagnostics_are_live_formulas(exported, case):
+    # Levels of non-divergence, standard heights and thicknesses used to be values that
+    # went stale after an edit; they are formulas now, on every results sheet and compare.
+    sheet, path = exported[case]
+    wb = load_workbook(path)
+    values = load_workbook(path)["values"]
+    ws = wb["results"]
+    rows = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1)}
+    summary = sheet.evaluate().summary
+    labels = [f"height_{k}hPa" for k in summary["standard_heights"]] + \
+        [f"thickness_{k.replace('-', '_')}hPa" for k in summary["standard_thicknesses"]]
+    levels = summary["level_of_nondivergence"]
+    labels += ["level_of_nondivergence" + (f"_{i}" if len(levels) > 1 else "")
+               for i in range(1, len(levels) + 1)]
+    assert len(labels) >= 8
+    for label in labels:
+        assert ws.cell(rows[label], 2).data_type == "f", label
+    # source: layercalc's own summary of the same sheet (the values twin holds it)
+    assert values.cell(rows["height_500hPa"], 2).value == pytest.approx(
+        summary["standard_heights"]["500"], rel=1e-15)
+    for name in wb.sheetnames:
+        if name.startswith("results") or name == "compare":
+            sheet_ws = wb[name]
+            static = [c.coordinate for row in sheet_ws.iter_rows() for c in row
+                      if c.fill.fgColor.rgb == "00FFF2CC"]
+            assert not static, (name, static[:5])  # no shaded "not a formula" value left
 
 
-def test_chart_plots_omega_and_divergence_against_reversed_pressure(exported):
+def test_options_in_settings_are_locked_with_the_reason(exported):
+    sheet, path = exported["midlevel_warming"]
+    ws = load_workbook(path)["settings"]
+    assert ws.protection.sheet
+    rows = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1)}
+    for option in ("integrate", "adjust"):
+        cell = ws.cell(rows[option], 2)
+        assert cell.protection.locked
+        assert "LOCKED" in ws.cell(rows[option], 4).value
+        assert any(cell.coordinate in str(v.sqref) for v in ws.data_validations.dataValidation)
+    assert not ws.cell(rows["warming"], 2).protection.locked  # what-if cells stay editable
+
+
+def test_charts_plot_omega_and_divergence_on_their_own_axes_against_log_pressure(exported):
     sheet, path = exported["every_function"]
     ws = load_workbook(path)["results"]
-    assert len(ws._charts) == 1
-    chart = ws._charts[0]
-    assert chart.tagname == "scatterChart"
-    assert chart.y_axis.scaling.orientation == "maxMin"
-    titles = [s.tx.v for s in chart.series]
+    assert len(ws._charts) == 2  # omega and divergence: each its own axes
+    omega, divergence = ws._charts
+    for chart in (omega, divergence):
+        assert chart.tagname == "scatterChart"
+        assert chart.y_axis.scaling.orientation == "maxMin"  # pressure falls upward
+        assert chart.y_axis.scaling.logBase == 10
+    titles = [s.tx.v for s in omega.series] + [s.tx.v for s in divergence.series]
     assert titles[0].startswith("omega") and titles[1].startswith("div")
-    y_ref = chart.series[0].yVal.numRef.f
+    looks = [(s.marker.symbol, s.graphicalProperties.line.solidFill.srgbClr)
+             for s in omega.series + divergence.series]
+    assert len(set(looks)) == len(looks)  # distinct colours and markers
+    y_ref = omega.series[0].yVal.numRef.f
     first = int(y_ref.split("$")[2].split(":")[0])
     # the omega series' y values are interface pressures: surface first, then upward
     assert ws.cell(first, 1).value == f"=(A{FIRST_ROW}*100)/100"
+
+
+def test_every_sheet_has_a_print_setup(exported):
+    from layercalc.caution import CAUTION
+
+    sheet, path = exported["midlevel_warming"]
+    wb = load_workbook(path)
+    for ws in wb.worksheets:
+        if ws.title.startswith("values"):
+            assert ws.sheet_state == "hidden"  # the live sheets carry the numbers
+            continue
+        assert ws.page_setup.orientation == "landscape", ws.title
+        assert ws.page_setup.fitToWidth == 1 and ws.page_setup.fitToHeight == 0
+        assert ws.sheet_properties.pageSetUpPr.fitToPage
+        assert ws.oddFooter.center.text == CAUTION, ws.title
+    results = wb["results"]
+    assert results.print_title_rows == f"${HEADER_ROW}:${HEADER_ROW}"  # header repeated
+    area = str(results.print_area)
+    helpers = [j for j in range(1, results.max_column + 1)
+               if str(results.cell(HEADER_ROW, j).value).startswith("helper")]
+    last_printed = column_index_from_string(area.split(":")[-1].split("$")[1])
+    assert helpers and last_printed < helpers[0]  # the SI helper columns are not printed
+    # the charts start on a page of their own, inside the print area
+    breaks = [b.id for b in results.row_breaks.brk]
+    anchor_row = results._charts[0].anchor._from.row + 1
+    assert breaks == [anchor_row - 1]
+    assert int(area.split("$")[-1]) > anchor_row
+    notes = wb["notes"]
+    assert notes.cell(2, 2).alignment.wrap_text  # notes wrapped, not one long line
 
 
 def test_scenarios_get_their_own_sheets_and_a_comparison(exported):

@@ -361,3 +361,41 @@ def test_an_evaluation_error_after_import_names_a_cell(tmp_path):
     text = info.value.format()
     assert text.startswith(f"{path}:formulas!A1:")
     assert "column 'y' is infinite" in text and "1000-850 hPa" in text
+
+
+def with_a_layer_added(source: Path, target: Path) -> None:
+    """The exported midlevel_warming workbook with a 13th layer typed under the table."""
+    workbook = load_workbook(source)
+    workbook["layers"].append([150, 100, -56.0, -70.0, 0.0])
+    workbook.save(target)
+
+
+def test_a_row_added_in_the_workbook_is_said_not_silently_computed_twice(tmp_path, capsys):
+    # The results sheets' formulas cover the 12 exported layers; layercalc reads 13. The
+    # two answers must be said: a check cell in the workbook (LibreOffice test) and a
+    # warning from layercalc run.
+    from tests.helpers import cli
+
+    path = tmp_path / "book.xlsx"
+    write_workbook(case_sheet("midlevel_warming"), path)
+    assert not [n for n in import_workbook(path, layercalc.loads).notices
+                if "two answers" in n.message]
+    added = tmp_path / "added.xlsx"
+    with_a_layer_added(path, added)
+    imported = import_workbook(added, layercalc.loads)
+    assert imported.sheet.checked.layer_count == 13
+    said = [n for n in imported.notices if "two answers" in n.message]
+    assert len(said) == 1 and "13 layers" in said[0].message and "cover the 12" in \
+        said[0].message and said[0].location_text.endswith("layers!A1")
+    code, out, err = cli(capsys, "run", added)
+    assert code == 0 and "two answers" in out + err
+    # the check cells are formulas, turned red by a conditional format while they differ
+    workbook = load_workbook(path)
+    layers = workbook["layers"]
+    check = [c for c in layers[2] if isinstance(c.value, str) and "COUNT(" in c.value]
+    assert len(check) == 1 and "=12" in check[0].value
+    assert any(check[0].coordinate in str(rng.sqref)
+               for rng in layers.conditional_formatting)
+    for name in ("results", "results_warmed"):
+        assert "COUNT('layers'!$A$2:$A$1048576)=12" in workbook[name]["B4"].value
+        assert any("B4" in str(rng.sqref) for rng in workbook[name].conditional_formatting)

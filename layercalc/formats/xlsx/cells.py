@@ -47,9 +47,21 @@ def style(cell, name: str) -> None:
             "helper": {"font": Font(color="808080")},
             "static": {"fill": fill("FFF2CC")},
             "name": {"font": Font(bold=True)},
+            "check": {"font": Font(bold=True, color="375623")},
         })
     for attribute, value in _STYLES.get(name, {}).items():
         setattr(cell, attribute, value)
+
+
+def red_when(ws, reference: str, condition: str) -> None:
+    """Conditional formatting: `reference` turns red (white bold text on red) while the
+    formula `condition` is TRUE."""
+    from openpyxl.formatting.rule import FormulaRule
+    from openpyxl.styles import Font, PatternFill
+
+    ws.conditional_formatting.add(reference, FormulaRule(
+        formula=[condition], fill=PatternFill("solid", start_color="C00000", end_color="C00000"),
+        font=Font(bold=True, color="FFFFFF")))
 
 
 def size_columns(ws, widths: dict[int, float]) -> None:

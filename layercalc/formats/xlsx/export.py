@@ -7,11 +7,14 @@ Sheets, in order:
     results_<name>    one per scenario, with its own input block (changed inputs shaded)
     compare           key cells of the base and each scenario, and their differences
     values, values_<name>, values_compare
-                      the same layouts as plain numbers, for viewers that do not recalculate
+                      the same layouts as plain numbers (hidden sheets)
     formulas          user formulas and scenario blocks in the layers language (re-imported)
     notes             title, notes, boundary condition, formulas, references, version, caution
-A scatter chart of omega and divergence against pressure (axis reversed) sits on each
-results sheet. The cells of the results, values and compare sheets are written as XML
+Each results sheet ends with two scatter charts (omega, and divergence, against pressure
+on a reversed log axis) on a page of their own; every sheet has a print setup
+(printing.py), the values twins are hidden. The summary diagnostics are live formulas
+(summary_cells.py); a check cell on `layers` and on each results sheet turns red when the
+table has more or fewer rows than the formulas cover. The cells of the results, values and compare sheets are written as XML
 (sheetxml.py), in time linear in the number of cells; the rest goes through openpyxl. The
 file is written to a temporary file beside the target, then renamed.
 """
@@ -25,7 +28,7 @@ import numpy as np
 
 from layercalc.errors import OutputError
 from layercalc.language.typed import CELL, references
-from layercalc.formats.xlsx.cells import letter, put_text, size_columns, style
+from layercalc.formats.xlsx.cells import letter, put_text, red_when, size_columns, style
 from layercalc.formats.xlsx.formulas import display_input
 from layercalc.formats.xlsx.layout import HEADER_ROW, Grid, Links, ResultsLayout, Variant
 from layercalc.formats.xlsx.scenarios import compare_grid, scenario_steps
@@ -100,8 +103,23 @@ def build_workbook(sheet) -> "Built":
         cells[live.title], cells[values.title] = _write_grid(live, values, grid, styles, note)
     _formulas_sheet(workbook.create_sheet("formulas"), checked, set(settings_rows))
     from layercalc.formats.xlsx.notes import notes_sheet
+    from layercalc.formats.xlsx.printing import page_setup, wrap_columns
 
     notes_sheet(workbook.create_sheet("notes"), checked, found, __version__, CAUTION)
+    page_setup(layers, CAUTION, "1:1")
+    page_setup(workbook["settings"], CAUTION, "1:1")
+    wrap_columns(workbook["settings"], {2: 30, 4: 70}, workbook["settings"].max_row)
+    page_setup(workbook["formulas"], CAUTION, "1:1")
+    wrap_columns(workbook["formulas"], {1: 100}, workbook["formulas"].max_row)
+    page_setup(workbook["notes"], CAUTION)
+    wrap_columns(workbook["notes"], {1: 22, 2: 100, 4: 40}, workbook["notes"].max_row)
+    from openpyxl.workbook.defined_name import DefinedName
+
+    from layercalc.formats.xlsx.summary_cells import CHECK_NAME
+
+    # the layer count the formulas cover, for the reader (a row added in the workbook)
+    workbook.defined_names[CHECK_NAME] = DefinedName(CHECK_NAME,
+                                                     attr_text=str(checked.layer_count))
     workbook.active = workbook.sheetnames.index("results")
     return Built(workbook, cells)
 
@@ -135,11 +153,24 @@ def _layers_sheet(ws, checked, columns_si) -> dict[str, str]:
         style(ws.cell(1, j), "header")
         for k, si in enumerate(columns_si[name]):
             ws.cell(2 + k, j, display_input(column.unit, float(si)))
-    note = ws.cell(1, len(letters) + 2)
-    put_text(note, "One row per layer, SURFACE LAYER FIRST (row 2 is the lowest layer). "
-                   "Header: name [unit]. Edit the values here and the results sheets "
-                   "recalculate. The table ends at the first blank header cell.")
-    style(note, "note")
+    lines = ("One row per layer, SURFACE LAYER FIRST (row 2 is the lowest layer).", None,
+             "Header: name [unit]. Edit the values here and the results sheets recalculate.",
+             "The table ends at the first blank header cell.",
+             "The results sheets' formulas cover the rows exported: after adding or removing",
+             "a layer, export again (the check in row 2 turns red until then).")
+    for row, text in enumerate(lines, start=1):
+        if text:
+            note = ws.cell(row, len(letters) + 2)
+            put_text(note, text)
+            style(note, "note")
+    if "p_bottom" in letters:
+        from layercalc.formats.xlsx.summary_cells import table_check
+
+        formula, _, condition = table_check(letters["p_bottom"], checked.layer_count)
+        check = ws.cell(2, len(letters) + 2)
+        check.value = "=" + formula
+        style(check, "check")
+        red_when(ws, check.coordinate, condition)
     size_columns(ws, {j: max(12, len(ws.cell(1, j).value) + 2) for j in range(1, len(letters) + 1)})
     ws.freeze_panes = "A2"
     return letters
@@ -164,10 +195,13 @@ def _settings_sheet(ws, checked, cells_si) -> dict[str, int]:
     if checked.title:
         rows.append(("title", checked.title, "", ""))
     rows += [("note", text, "", "") for text in checked.notes]
+    option_rows = {}
     for option in OPTIONS:
+        option_rows[option] = len(rows) + 1
         rows.append((option, checked.options[option], "",
-                     "changes the formulas: edit the .layers file and export again "
-                     "(choices: " + ", ".join(OPTIONS[option]) + ")"))
+                     "LOCKED: this option chooses which formulas the results sheets hold; "
+                     "to change it, edit the .layers file and export again (choices: "
+                     + ", ".join(OPTIONS[option]) + ")"))
     cell_rows = {}
     for name in settings_cells(checked):
         cell = checked.input_cells[name]
@@ -184,7 +218,34 @@ def _settings_sheet(ws, checked, cells_si) -> dict[str, int]:
             style(target, "header" if i == 1 else ("note" if j == 4 else "value"))
     size_columns(ws, {1: 18, 2: 40, 3: 12, 4: 70})
     ws.freeze_panes = "A2"
+    _lock_options(ws, option_rows, len(rows), checked.options)
     return cell_rows
+
+
+def _lock_options(ws, option_rows: dict[str, int], last_row: int, options) -> None:
+    """The option cells cannot be edited (the sheet is protected, without a password, and
+    only the option values are locked) and accept only their exported value: the formulas
+    were written for that choice, and a changed option would leave every result stale."""
+    from openpyxl.styles import Protection
+    from openpyxl.worksheet.datavalidation import DataValidation
+
+    locked = set(option_rows.values())
+    for row in range(1, last_row + 1):
+        for column in range(1, 5):
+            if not (column == 2 and row in locked):
+                ws.cell(row, column).protection = Protection(locked=False)
+    for option, row in option_rows.items():
+        check = DataValidation(
+            type="list", formula1=f'"{options[option]}"', allow_blank=False,
+            showErrorMessage=True, errorTitle=f"{option} is fixed at export",
+            error=f"The results were written for {option} = {options[option]}. Edit the "
+                  ".layers file and export again to change it.")
+        check.add(ws.cell(row, 2))
+        ws.add_data_validation(check)
+    protection = ws.protection
+    protection.sheet = True
+    protection.formatCells = protection.formatColumns = protection.formatRows = False
+    protection.insertRows = protection.deleteRows = False
 
 
 def _formulas_sheet(ws, checked, in_settings: set[str]) -> None:
@@ -285,7 +346,7 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
         if entry.comment:
             live_ws.cell(row, column).comment = Comment(entry.comment, "layercalc",
                                                         width=320, height=120)
-        if row < HEADER_ROW:
+        if row < HEADER_ROW or entry.style == "note":  # notes run on into empty cells
             continue
         if is_text or text is None or not math.isfinite(text):
             widths[column] = max(widths.get(column, 8), _shown_width(text, entry))
@@ -300,8 +361,25 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
     for ws in (live_ws, values_ws):
         size_columns(ws, {j: min(w + 2, 48) for j, w in widths.items()})
         ws.freeze_panes = grid.freeze
+    from layercalc.caution import CAUTION
+    from layercalc.formats.xlsx import printing
+
+    end = last_row
+    printed = max(grid.print_columns or last_column, 8)
+    scale = printing.print_scale([min(widths.get(j, 8) + 2, 48) for j in range(1, printed + 1)])
     if grid.chart is not None:
-        _chart(live_ws, grid.chart)
+        _chart(live_ws, grid.chart, grid.chart_row, scale)
+        printing.chart_page(live_ws, grid.chart_row)
+        end = grid.chart_row + printing.chart_rows(scale)
+    area = f"A1:{letter(printed)}{end}"
+    printing.page_setup(live_ws, CAUTION, f"{HEADER_ROW}:{HEADER_ROW}", area)
+    values_ws.sheet_state = "hidden"  # the live sheet carries the same numbers, cached
+    if grid.row_check is not None:
+        from layercalc.formats.xlsx.summary_cells import table_check
+
+        row, column, first_input, layers = grid.row_check
+        red_when(live_ws, f"{letter(column)}{row}",
+                 table_check(first_input, layers, "'layers'!")[2])
     return (X.sheet_data(live_rows), dimension), (X.sheet_data(value_rows), dimension)
 
 
@@ -311,28 +389,54 @@ def _shown_width(value, entry) -> int:
     return 10
 
 
-def _chart(ws, spec) -> None:
+# Series look: (line and marker colour, marker symbol); distinct in colour and shape
+SERIES_LOOK = (("1F4E9A", "circle"), ("C55A11", "triangle"), ("7030A0", "diamond"))
+
+
+def _chart(ws, spec, chart_row: int, scale: float) -> None:
+    """Two scatter charts side by side on their own page: omega against pressure and the
+    divergence (and the adjusted divergence) against pressure, each with its own axis;
+    pressure on a logarithmic axis, reversed (pressure falls upward)."""
     from openpyxl.chart import Reference, ScatterChart, Series
 
-    chart = ScatterChart()
-    chart.title = spec.title
-    chart.style = 13
-    chart.x_axis.title = spec.x_title
-    chart.y_axis.title = spec.y_title
-    chart.y_axis.scaling.orientation = "maxMin"  # pressure decreases upward
-    chart.y_axis.scaling.min, chart.y_axis.scaling.max = spec.y_range
-    chart.x_axis.crosses = "max"  # the omega axis at the highest pressure: the bottom
-    chart.y_axis.crosses = "min"  # the pressure axis at the left edge, not at omega = 0
-    chart.x_axis.delete = False
-    chart.y_axis.delete = False
-    for label, x_column, y_column, first, last in spec.series:
-        xs = Reference(ws, min_col=x_column, min_row=first, max_row=last)
-        ys = Reference(ws, min_col=y_column, min_row=first, max_row=last)
-        series = Series(ys, xs, title=label)
-        series.marker.symbol = "circle"
-        chart.series.append(series)
-    chart.height, chart.width = 11, 16
-    ws.add_chart(chart, spec.anchor)
+    from layercalc.formats.xlsx.printing import CHART_HEIGHT_CM, CHART_WIDTH_CM, column_after
+
+    panels = [("omega against pressure", "omega [hPa/h]", spec.series[:1]),
+              ("divergence against pressure", "divergence [1e-5 s^-1]", spec.series[1:])]
+    column = 1
+    for number, (title, x_title, series_list) in enumerate(panels):
+        chart = ScatterChart()
+        chart.title = title
+        chart.style = 13
+        chart.x_axis.title = x_title
+        chart.y_axis.title = spec.y_title
+        chart.y_axis.scaling.orientation = "maxMin"  # pressure decreases upward
+        chart.y_axis.scaling.logBase = 10
+        chart.y_axis.scaling.min, chart.y_axis.scaling.max = spec.y_range
+        chart.x_axis.crosses = "max"  # the x axis at the highest pressure: the bottom
+        chart.y_axis.crosses = "min"  # the pressure axis at the left edge, not at x = 0
+        chart.x_axis.delete = False
+        chart.y_axis.delete = False
+        chart.legend.position = "b"
+        for i, (label, x_column, y_column, first, last) in enumerate(series_list):
+            colour, symbol = SERIES_LOOK[(number + i) % len(SERIES_LOOK)]
+            xs = Reference(ws, min_col=x_column, min_row=first, max_row=last)
+            ys = Reference(ws, min_col=y_column, min_row=first, max_row=last)
+            series = Series(ys, xs, title=label)
+            series.marker.symbol = symbol
+            series.smooth = False  # straight lines between the layers, no spline
+            series.marker.size = 7
+            series.marker.graphicalProperties.solidFill = colour
+            series.marker.graphicalProperties.line.solidFill = colour
+            series.graphicalProperties.line.solidFill = colour
+            series.graphicalProperties.line.width = 22000  # EMU, about 1.7 pt
+            if i:
+                series.graphicalProperties.line.dashStyle = "dash"
+            chart.series.append(series)
+        # drawn larger by the factor fit-to-width printing shrinks the sheet by
+        chart.height, chart.width = CHART_HEIGHT_CM / scale, CHART_WIDTH_CM / scale
+        ws.add_chart(chart, f"{letter(column)}{chart_row}")
+        column = column_after(ws, column, (CHART_WIDTH_CM + 0.5) / scale)
 
 
 # ---------------------------------------------------------------- atomic write

@@ -20,6 +20,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from layercalc.formats.xlsx.cells import letter
+from layercalc.formats.xlsx.entries import ChartSpec, Entry, Grid
+from layercalc.formats.xlsx.summary_cells import summary_rows, table_check
 from layercalc.language import units as U
 from layercalc.language.typed import CELL, COLUMN
 from layercalc.formats.xlsx.formulas import (
@@ -33,42 +35,6 @@ FIRST_ROW = 6
 CHART_UNITS = {"pressure": U.Unit(U.PRESSURE, 100.0, 0.0, "hPa"),
                "omega": U.Unit(U.PRESSURE / U.time, 100.0 / 3600.0, 0.0, "hPa/h"),
                "divergence": U.Unit(1 / U.time, 1e-5, 0.0, "1e-5 s^-1")}
-STATIC_NOTE = "value, not a live formula (interpolated by layercalc): export again after edits"
-
-
-@dataclass
-class Entry:
-    """One sheet cell: `value` goes to the values twin (and to the live sheet when there is
-    no formula); `formula` is the live formula text without the leading '='."""
-
-    value: object = None
-    formula: str | None = None
-    style: str = "value"
-    number_format: str | None = None
-    comment: str | None = None
-
-
-@dataclass
-class ChartSpec:
-    title: str
-    series: list  # (label, x column, y column, first row, last row)
-    x_title: str
-    y_title: str
-    y_range: tuple[float, float]
-    anchor: str
-
-
-@dataclass
-class Grid:
-    name: str
-    values_name: str
-    entries: dict = field(default_factory=dict)  # (row, column number) -> Entry
-    freeze: str | None = None
-    chart: ChartSpec | None = None
-    cell_rows: dict = field(default_factory=dict)  # derived cell name -> row
-
-    def put(self, row: int, column: int, entry: Entry) -> None:
-        self.entries[(row, column)] = entry
 
 
 @dataclass
@@ -115,6 +81,7 @@ class ResultsLayout:
         self.grid = Grid(variant.sheet_name, variant.values_name)
         self.layers = self.checked.layer_count
         self.first_row = FIRST_ROW
+        self.header_row = HEADER_ROW
         self.last_row = FIRST_ROW + self.layers - 1
         self.columns: dict[str, tuple[str, object]] = {}
         self.cells: dict[str, tuple[str, object]] = {}
@@ -193,9 +160,10 @@ class ResultsLayout:
         for j, formula in enumerate(derived, start=len(inputs) + 1):
             self._derived_column(j, formula, translator)
         row = self._cells(translator)
-        row = self._static_values(row + 1)
+        row = summary_rows(self, row + 1)
         self._chart_data(row + 1)
         grid.freeze = f"C{FIRST_ROW}"
+        grid.print_columns = len(inputs) + len(derived)
         return grid
 
     def _top(self, n_inputs: int, n_derived: int) -> None:
@@ -207,6 +175,11 @@ class ResultsLayout:
         grid.put(2, 1, Entry(self.caution, style="caution"))
         grid.put(3, 1, Entry(self._explanation(), style="note"))
         grid.put(4, 1, Entry("inputs", style="group"))
+        first_input = self.links.column_letters.get("p_bottom")
+        if first_input:
+            formula, ok, _ = table_check(first_input, self.layers, "'layers'!")
+            grid.put(4, 2, Entry(ok, formula, "check"))
+            grid.row_check = (4, 2, first_input, self.layers)
         grid.put(4, n_inputs + 1, Entry("derived (live formulas)", style="group"))
         if n_derived:
             grid.put(4, n_inputs + n_derived + 2, Entry("helpers (SI units)", style="group"))
@@ -308,20 +281,17 @@ class ResultsLayout:
             self._cell_row(row, formula.name, entry, formula.unit.text, note)
         return row
 
+    def put_cell_row(self, row, name, entry, unit_text, note) -> None:
+        """A row of the cells block: name | value | unit | formula or note."""
+        self.grid.cell_rows.setdefault(name, row)
+        self._cell_row(row, name, entry, unit_text, note)
+
     def _cell_row(self, row, name, entry, unit_text, note) -> None:
         grid = self.grid
         grid.put(row, 1, Entry(name, style="name"))
         grid.put(row, 2, entry)
         grid.put(row, 3, Entry(unit_text, style="unit"))
         grid.put(row, 4, Entry(note, style="note"))
-
-    def _static_values(self, row: int) -> int:
-        """Diagnostics that are not one formula: written as values, with a note saying so."""
-        for label, value, unit in static_rows(self.variant.summary):
-            row += 1
-            entry = Entry(value, None, "static", number_format([value]))
-            self._cell_row(row, label, entry, unit, STATIC_NOTE)
-        return row
 
     def _chart_data(self, row: int) -> None:
         """Live chart data: omega at the layer interfaces and divergence at mid-layer, in
@@ -358,11 +328,13 @@ class ResultsLayout:
                   ("div [1e-5 s^-1]", 5, 4, first, first + self.layers - 1)]
         if "div_adjusted" in have and self.checked.options.get("adjust", "none") != "none":
             series.append(("div_adjusted [1e-5 s^-1]", 6, 4, first, first + self.layers - 1))
+        chart_row = first + self.layers + 2  # a page of its own, after the chart data
         grid.chart = ChartSpec("omega and divergence against pressure", series,
                                "omega [hPa/h], divergence [1e-5 s^-1]", "pressure [hPa]",
                                (math.floor(top / 100.0) * 100.0,
                                 math.ceil(bottom / 100.0) * 100.0),
-                               f"H{self.last_row + 2}")
+                               f"A{chart_row}")
+        grid.chart_row = chart_row
 
     def _column_si(self, name: str) -> np.ndarray:
         found = self._broadcast.get(name)
@@ -380,18 +352,3 @@ class ResultsLayout:
         si = float(column_si[source_row - FIRST_ROW])
         text = from_si(to_si(f"{source_letter}{source_row}", source_unit), unit)
         self.grid.put(row, column, Entry(float(unit.from_si(si)), text, "derived", fmt))
-
-
-def static_rows(summary: dict) -> list[tuple[str, float, str]]:
-    """(label, value, unit) of the summary diagnostics, in display units."""
-    rows = []
-    levels = summary.get("level_of_nondivergence", [])
-    for i, level in enumerate(levels, start=1):
-        label = "level_of_nondivergence" + (f"_{i}" if len(levels) > 1 else "")
-        rows.append((label, float(level) / 100.0, "hPa"))
-    for surface, height in summary.get("standard_heights", {}).items():
-        rows.append((f"height_{surface}hPa", float(height), "m"))
-    for layer, thickness in summary.get("standard_thicknesses", {}).items():
-        rows.append((f"thickness_{layer.replace('-', '_')}hPa", float(thickness), "m"))
-    return rows
-

@@ -64,9 +64,14 @@ def notes_rows(checked, variants, version: str, caution: str) -> list[tuple]:
                       "formulas as numbers (table below)"),
         ("helpers", "grey helper columns hold intermediate values in SI units for sums, "
                     "means, running sums and at_min/at_max"),
-        ("not formulas", "levels of non-divergence, standard heights and thicknesses are "
-                         "interpolated by layercalc and written as values (shaded), with a "
-                         "note; re-export after editing inputs"),
+        ("summary cells", "levels of non-divergence (two helper columns: the level in "
+                          "or above each layer, and the running count; INDEX/MATCH picks the "
+                          "i-th), heights of the standard surfaces (the layer holding the "
+                          "surface found with SUMPRODUCT, height linear in ln p between its "
+                          "interfaces) and standard thicknesses (differences of heights) are "
+                          "live formulas too"),
+        ("options", "integrate and adjust on the settings sheet are locked: they choose "
+                    "which formulas are written; edit the .layers file and export again"),
         ("scenarios", "each results_<name> sheet has its own input block: inputs equal to "
                       "the base link to 'layers'/'settings', changed inputs are shaded "
                       "values; 'compare' sets the key cells side by side"

@@ -127,10 +127,12 @@ def _openpyxl_errors() -> tuple:
 class _RawWorkbook:
     """The cell values of the sheets used, read once (read-only, saved values)."""
 
-    def __init__(self, path: Path, layers: str, sheets: dict) -> None:
+    def __init__(self, path: Path, layers: str, sheets: dict,
+                 exported_layers: int | None = None) -> None:
         self.path = path
         self.layers_name = layers
         self.sheets = sheets  # name -> list of row tuples (row 1 first)
+        self.exported_layers = exported_layers  # layers the exported formulas cover
 
     @classmethod
     def read(cls, path: Path) -> "_RawWorkbook":
@@ -158,12 +160,13 @@ class _RawWorkbook:
                                 path=str(path))
                         rows.append(tuple(row))
                     sheets[name] = rows
+                exported = _exported_layers(workbook)
             finally:
                 workbook.close()
         except _openpyxl_errors() as exc:
             raise SpreadsheetError(f"corrupt or unreadable workbook: {exc}",
                                    path=str(path)) from None
-        return cls(path, layers, sheets)
+        return cls(path, layers, sheets, exported)
 
     def formula_at(self, sheet: str, cell: str) -> str | None:
         """The formula text of a cell (read only when a value is missing), or None."""
@@ -178,6 +181,16 @@ class _RawWorkbook:
         except _openpyxl_errors():
             return None
         return value if isinstance(value, str) and value.startswith("=") else None
+
+
+def _exported_layers(workbook) -> int | None:
+    """The layer count a layercalc export wrote its formulas for (a defined name), or None
+    for a workbook typed by hand."""
+    from layercalc.formats.xlsx.summary_cells import CHECK_NAME
+
+    found = workbook.defined_names.get(CHECK_NAME)
+    text = getattr(found, "attr_text", None)
+    return int(text) if isinstance(text, str) and text.strip().isdigit() else None
 
 
 # ---------------------------------------------------------------- cells to text
@@ -266,6 +279,15 @@ class _TextBuilder:
         read_names = {m for line, _, _ in formula_lines for m in IDENTIFIER.findall(line)}
         settings = self.settings(read_names)
         table = self.layers()
+        layers = len(table) - 3  # the lines `layers`, header, ..., `end`
+        exported = self.raw.exported_layers
+        if exported is not None and layers != exported:
+            self.notice(f"the table has {layers} layers but this workbook's own formulas "
+                        f"(the results sheets) cover the {exported} it was exported with: "
+                        f"the sheets and layercalc now give two answers; layercalc computes "
+                        f"all {layers} layers. Export the workbook again (layercalc import, "
+                        "then layercalc export) so that its formulas cover the table",
+                        self.raw.layers_name, "A1")
         self.add([(f"# Imported from {Path(self.path).name} by layercalc", None, None)])
         for notice in self.notices:
             where = notice.location_text.rpartition(":")[2]

@@ -8,7 +8,8 @@ import numpy as np
 
 from layercalc.language.typed import CELL
 from layercalc.formats.xlsx.cells import letter
-from layercalc.formats.xlsx.layout import HEADER_ROW, Entry, Grid, Variant, number_format, static_rows
+from layercalc.formats.xlsx.layout import HEADER_ROW, Entry, Grid, Variant, number_format
+from layercalc.formats.xlsx.summary_cells import summary_labels
 
 
 def scenario_steps(checked, name: str) -> dict:
@@ -86,19 +87,28 @@ def compare_grid(base_grid: Grid, variants: list[Variant], grids: list[Grid],
             grid.put(row, col, Entry(values[i], refs[i], "derived", fmt))
             grid.put(row, col + 1, Entry(values[i] - values[0],
                                          f"{letter(col)}{row}-C{row}", "derived", fmt))
-    tables = [dict((label, value) for label, value, _ in static_rows(v.summary))
-              for v in variants]
-    for label, value, unit_text in static_rows(base.summary):
-        if not all(label in t for t in tables):
+    for label in summary_labels(base.summary):
+        rows = [g.cell_rows.get(label) for g in grids]
+        if None in rows:  # e.g. a scenario with another number of levels of non-divergence
             continue
         row += 1
         grid.put(row, 1, Entry(label, style="name"))
+        unit_text = "1" if label.startswith("levels_") else \
+            ("hPa" if label.startswith("level_") else "m")
         grid.put(row, 2, Entry(unit_text, style="unit"))
-        grid.put(row, 3, Entry(value, None, "static", number_format([value])))
+        values = [g.entries[(r, 2)].value for g, r in zip(grids, rows)]
+        fmt = grids[0].entries[(rows[0], 2)].number_format
+        refs = [f"'{g.name}'!$B${r}" for g, r in zip(grids, rows)]
+        grid.put(row, 3, Entry(values[0], refs[0], "derived", fmt))
         for i in range(1, len(variants)):
             col = 2 + 2 * i
-            grid.put(row, col, Entry(tables[i][label], None, "static"))
-            grid.put(row, col + 1, Entry(tables[i][label] - value, None, "static"))
+            here, base_cell = f"{letter(col)}{row}", f"C{row}"
+            numeric = all(isinstance(v, float) for v in (values[i], values[0]))
+            grid.put(row, col, Entry(values[i], refs[i], "derived", fmt))
+            grid.put(row, col + 1, Entry(
+                values[i] - values[0] if numeric else "-",
+                f'IF(AND(ISNUMBER({here}),ISNUMBER({base_cell})),{here}-{base_cell},"-")',
+                "derived", fmt))
     grid.freeze = f"C{HEADER_ROW + 1}"
     return grid
 

@@ -1,0 +1,93 @@
+"""Print setup of an exported workbook, so that it prints readably as handed on: A4
+landscape, fitted to the page width (as many pages down as needed), the header rows
+repeated on every page, print areas without the SI helper columns, the chart on a page
+of its own, the sheet name and page number in the header and the caution in every
+page footer (ECMA-376 page setup, 18.3.1.63; header/footer codes, 18.3.1.46).
+The plain-number twins (`values*`) are hidden: the live sheets carry the same numbers
+as cached values, and printing both would double the pages."""
+
+from __future__ import annotations
+
+A4 = 9  # ECMA-376 paperSize 9: A4 (210 mm x 297 mm)
+PAGE_WIDTH_CM = 28.0  # A4 landscape less the margins below
+ROW_CM = 0.53  # a default row (15 pt)
+CM_PER_WIDTH_UNIT = 0.19  # about one character of the default font
+CHART_WIDTH_CM, CHART_HEIGHT_CM = 13.0, 15.0  # each chart, as printed
+
+
+def print_scale(widths: list[float]) -> float:
+    """The factor fit-to-width printing shrinks a sheet of these column widths by."""
+    total = sum(widths) * CM_PER_WIDTH_UNIT
+    return min(1.0, PAGE_WIDTH_CM / total) if total else 1.0
+
+
+def chart_rows(scale: float) -> int:
+    """Rows the charts cover on the sheet when they print CHART_HEIGHT_CM high."""
+    return int(CHART_HEIGHT_CM / scale / ROW_CM) + 2
+
+
+def page_setup(ws, caution: str, title_rows: str | None = None, area: str | None = None,
+               landscape: bool = True) -> None:
+    """Landscape A4 fitted to one page wide, `title_rows` (e.g. "5:5") repeated,
+    `area` (e.g. "A1:T70") printed, sheet name and page in the header, caution below."""
+    setup = ws.page_setup
+    setup.orientation = "landscape" if landscape else "portrait"
+    setup.paperSize = A4
+    setup.fitToWidth = 1
+    setup.fitToHeight = 0  # as many pages down as the rows need
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    ws.print_options.gridLines = False
+    margins = ws.page_margins
+    margins.left = margins.right = 0.4
+    margins.top = margins.bottom = 0.6
+    margins.header = margins.footer = 0.25
+    if title_rows:
+        ws.print_title_rows = title_rows
+    if area:
+        ws.print_area = area
+    ws.oddHeader.left.text = "&A"
+    ws.oddHeader.right.text = "page &P of &N"
+    ws.oddFooter.center.text = caution[:250]
+    ws.oddFooter.center.size = 8
+
+
+def chart_page(ws, chart_row: int) -> None:
+    """A page break before the charts' row, so that they print on a page of their own."""
+    from openpyxl.worksheet.pagebreak import Break
+
+    ws.row_breaks.append(Break(id=chart_row - 1))
+
+
+def column_after(ws, start: int, centimetres: float) -> int:
+    """The first column from `start` whose left edge lies `centimetres` or more to the
+    right of column `start`'s left edge (column widths as set on the sheet)."""
+    from openpyxl.utils import get_column_letter
+
+    column, total = start, 0.0
+    while total < centimetres:
+        width = ws.column_dimensions[get_column_letter(column)].width or 8.43
+        total += width * CM_PER_WIDTH_UNIT
+        column += 1
+    return column
+
+
+def wrap_columns(ws, columns: dict[int, float], rows: int) -> None:
+    """Wrap the text of `columns` (number -> width) over `rows`, top aligned, each row as
+    high as its longest wrapped text (spreadsheet programs do not all grow rows on load)."""
+    import math
+
+    from openpyxl.styles import Alignment
+    from openpyxl.utils import get_column_letter
+
+    wrapped = Alignment(wrap_text=True, vertical="top")
+    lines = {}
+    for column, width in columns.items():
+        ws.column_dimensions[get_column_letter(column)].width = width
+        for row in range(1, rows + 1):
+            cell = ws.cell(row, column)
+            cell.alignment = wrapped
+            if isinstance(cell.value, str):
+                lines[row] = max(lines.get(row, 1), math.ceil(len(cell.value) * 1.1 / width))
+    for row, count in lines.items():
+        if count > 1:
+            ws.row_dimensions[row].height = 14.5 * count
