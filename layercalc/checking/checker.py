@@ -148,6 +148,7 @@ class Checker(TableChecker, ExpressionChecker):
         inputs_ok = self.canonical_inputs(columns, cells)
         if inputs_ok:
             self.surface_pressure_notice(columns, cells)
+            self.surface_height_notice(columns, cells)
         names = set(columns) | set(cells) | {n for _, n in derived}
         text, remarks = prelude(names, options) if inputs_ok else ("", [])
         defaults_source = Source("<defaults>", text)

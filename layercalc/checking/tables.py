@@ -223,6 +223,18 @@ class TableChecker:
                 self.notices.append(Notice("dewpoint above temperature (supersaturated)",
                                            table.row_spans[int(order[k])]))
 
+    def surface_height_notice(self, columns: dict[str, InputColumn], cells) -> None:
+        """A warning when a layers table's surface_height cannot be the height of its
+        lowest p_bottom (language/plausibility.py; soundings compare their observed z)."""
+        cell = cells.get("surface_height")
+        if cell is None or not cell.given or self.sounding_details is not None or \
+                "p_bottom" not in columns or not len(columns["p_bottom"].values):
+            return
+        found = plausibility.surface_height_finding(cell.value, columns["p_bottom"].values[0],
+                                                    cell.unit)
+        if found is not None:
+            self.notices.append(Notice(found.message, cell.span))
+
     def surface_pressure_notice(self, columns: dict[str, InputColumn], cells) -> None:
         """A warning, with both values, when surface_pressure and the lowest layer's p_bottom
         differ by more than SURFACE_PRESSURE_TOLERANCE (the terrain term uses the one, the

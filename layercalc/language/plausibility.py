@@ -232,6 +232,40 @@ def height_finding(pressure, height_si, unit: U.Unit) -> Finding | None:
     return Finding("error", 0, message, hint)
 
 
+# A column's bottom lies near the standard-atmosphere height of its pressure: sea-level
+# pressures of 950 to 1050 hPa move a pressure surface by about +-400 m (some 8 m per hPa
+# near the ground, hypsometric equation); 1000 m: our choice, so that only a record low
+# (about 870 hPa at sea level) comes near it.
+SURFACE_HEIGHT_TOLERANCE = 1000.0  # m
+
+
+def surface_height_finding(height_si: float, bottom_pressure_si: float,
+                           unit: U.Unit) -> Finding | None:
+    """A warning when surface_height is far from the standard-atmosphere height of the
+    column's bottom pressure (U.S. Standard Atmosphere 1976, physics.sounding_profile),
+    naming `ft`, `dam` or `km` when the number read in that unit would fit."""
+    from layercalc.physics.sounding_profile import standard_atmosphere_height
+
+    expected = float(standard_atmosphere_height(bottom_pressure_si))
+    if not (math.isfinite(height_si) and math.isfinite(expected)) or \
+            abs(height_si - expected) <= SURFACE_HEIGHT_TOLERANCE:
+        return None
+    written = float(unit.from_si(height_si))
+    likely = [text for text in HEIGHT_SLIPS
+              if parse_unit_string(text).scale != unit.scale and abs(
+                  float(parse_unit_string(text).to_si(written)) - expected)
+              <= SURFACE_HEIGHT_TOLERANCE]
+    side = "above" if height_si > expected else "below"
+    message = (f"surface_height {_text(written)} [{unit.text}] is {abs(height_si - expected):.0f}"
+               f" m {side} where the column's bottom, {bottom_pressure_si / 100.0:g} hPa, lies "
+               f"in the standard atmosphere ({expected:.0f} m): weather moves a pressure "
+               "surface a few hundred metres, not that far")
+    if likely:
+        message += (f"; this looks like {' or '.join(likely)}: did you mean "
+                    + " or ".join(f"[{u}]" for u in likely) + "?")
+    return Finding("warning", 0, message)
+
+
 def readme_table() -> list[str]:
     """The bounds as a Markdown table (README, "Errors you may see"; a test compares)."""
     rows = ["| quantity | error outside | warning outside | likely slips named | source |",

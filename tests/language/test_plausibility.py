@@ -105,3 +105,19 @@ def test_a_warning_does_not_stop_the_run_and_the_report_shows_it(path, capsys):
     for line in golden:
         if ": warning: " in line:
             assert " ".join(line.split(": warning: ", 1)[1].split()) in report
+
+
+@pytest.mark.parametrize("written, unit_text, slip", [
+    # 850 hPa at 1457 m in the U.S. Standard Atmosphere 1976 (from memory; the code uses
+    # physics.sounding_profile); 1 ft = 0.3048 m (NIST SP 811)
+    (1500.0 / 0.3048, "m", "ft"), (150.0, "m", "dam"), (1.5, "m", "km"),
+])
+def test_surface_height_far_from_its_pressure_names_the_slip(written, unit_text, slip):
+    found = P.surface_height_finding(parse_unit_string(unit_text).to_si(written), 85000.0,
+                                     parse_unit_string(unit_text))
+    assert found.kind == "warning" and f"did you mean [{slip}]" in found.message
+
+
+def test_surface_height_near_its_pressure_is_quiet():
+    # a deep low: 850 hPa some 400 m lower than standard (8 m per hPa, 50 hPa; from memory)
+    assert P.surface_height_finding(1050.0, 85000.0, parse_unit_string("m")) is None
