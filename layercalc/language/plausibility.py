@@ -256,8 +256,8 @@ def surface_height_finding(height_si: float, bottom_pressure_si: float,
                   float(parse_unit_string(text).to_si(written)) - expected)
               <= SURFACE_HEIGHT_TOLERANCE]
     side = "above" if height_si > expected else "below"
-    message = (f"surface_height {_text(written)} [{unit.text}] is {abs(height_si - expected):.0f}"
-               f" m {side} where the column's bottom, {bottom_pressure_si / 100.0:g} hPa, lies "
+    message = (f"surface_height {_text(written)} [{unit.text}] is "
+               f"{_text(round(abs(height_si - expected)))} m {side} where the column's bottom, {bottom_pressure_si / 100.0:g} hPa, lies "
                f"in the standard atmosphere ({expected:.0f} m): weather moves a pressure "
                "surface a few hundred metres, not that far")
     if likely:
