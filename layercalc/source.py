@@ -3,10 +3,13 @@
 from __future__ import annotations
 
 import bisect
+import os
+import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from layercalc.errors import InputError
+from layercalc.limits import MAX_TEXT_BYTES
 
 
 @dataclass(frozen=True)
@@ -38,18 +41,51 @@ class Source:
         return self.text[start:] if end < 0 else self.text[start:end]
 
 
-def read_source(path: str | Path) -> Source:
-    """Read a `.layers` file as UTF-8; a file that is not text is our error, not a traceback."""
-
+def read_input_bytes(path: str | Path, limit: int | None = None) -> bytes:
+    """The bytes of an input file, which must be a regular file (after symlinks) of at most
+    `limit` bytes: a FIFO would block for ever and a device (/dev/zero, /dev/urandom) never
+    ends, so they are refused before reading, and no more than `limit` + 1 bytes are read
+    even if the file grows meanwhile."""
     path = Path(path)
+    limit = MAX_TEXT_BYTES if limit is None else limit
     try:
-        data = path.read_bytes()
+        # non-blocking, so that opening a FIFO returns at once; fstat then sees what it is
+        descriptor = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
     except FileNotFoundError:
         raise InputError(f"no such file: {path}", hint="check the path and the file name") from None
     except IsADirectoryError:
         raise InputError(f"{path} is a folder, not a file") from None
     except OSError as exc:
         raise InputError(f"cannot read {path}: {exc.strerror}") from None
+    with os.fdopen(descriptor, "rb") as stream:
+        mode = os.fstat(descriptor).st_mode
+        if stat.S_ISDIR(mode):
+            raise InputError(f"{path} is a folder, not a file")
+        if not stat.S_ISREG(mode):
+            kind = ("a pipe (FIFO)" if stat.S_ISFIFO(mode) else
+                    "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode) else
+                    "a socket" if stat.S_ISSOCK(mode) else "not a regular file")
+            raise InputError(f"{path} is {kind}, not a regular file",
+                             hint="save the input to a file and give its name")
+        data = b""
+        too_large = os.fstat(descriptor).st_size > limit  # refused without reading
+        if not too_large:
+            try:
+                data = stream.read(limit + 1)
+            except OSError as exc:
+                raise InputError(f"cannot read {path}: {exc.strerror}") from None
+    if too_large or len(data) > limit:
+        raise InputError(f"{path} is larger than {limit:,} bytes, the most layercalc reads "
+                         "from a text input", hint="split the file, or keep only the "
+                         "layers you need")
+    return data
+
+
+def read_source(path: str | Path) -> Source:
+    """Read a `.layers` file as UTF-8; a file that is not text is our error, not a traceback."""
+
+    path = Path(path)
+    data = read_input_bytes(path)
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:

@@ -29,6 +29,7 @@ import numpy as np
 
 from layercalc.constants import G0
 from layercalc.errors import InputError, LayercalcError, MessageError, Notice
+from layercalc.source import read_input_bytes
 
 from . import hydrostatic
 from .decoded import Decoded, DecodedSounding, sort_levels
@@ -54,14 +55,7 @@ def _eccodes():
 def read_bufr(path) -> Decoded:
     """Read a file of BUFR messages; see `parse_bufr`."""
     path = Path(path)
-    try:
-        data = path.read_bytes()
-    except FileNotFoundError:
-        raise InputError(f"no such file: {path}", hint="check the path and the file name") from None
-    except IsADirectoryError:
-        raise InputError(f"{path} is a folder, not a file") from None
-    except OSError as exc:
-        raise InputError(f"cannot read {path}: {exc.strerror}") from None
+    data = read_input_bytes(path)
     return parse_bufr(data, str(path))
 
 

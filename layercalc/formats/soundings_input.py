@@ -22,7 +22,7 @@ import numpy as np
 from layercalc.errors import InputError, Notice
 from layercalc.constants import EARTH_MEAN_RADIUS
 from layercalc.physics.sphere import great_circle_angles, unit_vectors
-from layercalc.source import read_source
+from layercalc.source import read_input_bytes, read_source
 
 from . import bufr, temp, text_table
 from .decoded import Decoded
@@ -79,14 +79,7 @@ def read_soundings(path, format: str | None = None, stations=None, near=None,
         line and group (with no choice made, the other reports are used).
     """
     path = Path(path)
-    try:
-        data = path.read_bytes()
-    except FileNotFoundError:
-        raise InputError(f"no such file: {path}", hint="check the path and the file name") from None
-    except IsADirectoryError:
-        raise InputError(f"{path} is a folder, not a file") from None
-    except OSError as exc:
-        raise InputError(f"cannot read {path}: {exc.strerror}") from None
+    data = read_input_bytes(path)
     if format is None:
         format = detect_format(data, str(path))
     elif format not in FORMATS:

@@ -8,18 +8,28 @@ its position, no traceback, nothing written and the input unchanged.
 
 from __future__ import annotations
 
+import os
 import re
 import warnings
+from pathlib import Path
 
 import numpy as np
 import pytest
 
 import layercalc
 from layercalc.cli.main import main
-from tests.cli.test_cli_hardening import SMALL_TABLE, assert_our_error, cli, snapshot
+from tests.cli.test_cli_hardening import SMALL_TABLE, assert_our_error, cli, process, snapshot
 
 TABLE_LINES = SMALL_TABLE.count("\n")
 HUGE_EXPONENT = "9" * 4301  # one digit beyond Python's limit for int("...")
+
+
+def regular_files(folder: Path) -> dict[str, str]:
+    """snapshot() of the regular files only (reading a FIFO or /dev/zero never ends)."""
+    return {str(p.relative_to(folder)): p.read_bytes().hex() for p in sorted(folder.rglob("*"))
+            if p.is_file() and not p.is_symlink()} | {
+        str(p.relative_to(folder)): "other" for p in folder.rglob("*")
+        if p.is_symlink() or not (p.is_file() or p.is_dir())}
 
 
 def case(tmp_path, *lines: str, name: str = "case.layers"):
@@ -310,3 +320,47 @@ def test_a_bad_option_value_is_a_usage_error(name, inputs, capsys, tmp_path, mon
     code, out, err = cli(capsys, args[0], layers, *args[1:])
     _usage_error(code, out, err, words)
     assert snapshot(tmp_path) == held
+
+
+# ---------------------------------------------------------------- 4. inputs that are not files
+def _not_regular(tmp_path) -> dict:
+    fifo = tmp_path / "case.layers"
+    os.mkfifo(fifo)
+    zero = tmp_path / "zero.layers"
+    zero.symlink_to("/dev/zero")
+    return {"fifo": fifo, "symlink_to_dev_zero": zero, "dev_urandom": Path("/dev/urandom")}
+
+
+@pytest.mark.parametrize("kind", ["fifo", "symlink_to_dev_zero", "dev_urandom"])
+def test_an_input_that_is_not_a_regular_file_is_refused_at_once(kind, capsys, tmp_path):
+    path = _not_regular(tmp_path)[kind]
+    held = regular_files(tmp_path)
+    what = "a pipe (FIFO)" if kind == "fifo" else "a device"
+    for args in (["check"], ["run"], ["run", "-o", tmp_path / "r.txt"],
+                 ["export", "-o", tmp_path / "b.xlsx"], ["import", "-o", tmp_path / "n.layers"],
+                 ["sweep", "--vary", "warming=0:1:1"]):
+        code, out, err = cli(capsys, args[0], path, *args[1:])
+        assert_our_error(code, out, err, f"{path} is {what}, not a regular file")
+    assert regular_files(tmp_path) == held
+
+
+@pytest.mark.slow
+def test_a_fifo_input_through_a_process_does_not_block(tmp_path):
+    fifo = _not_regular(tmp_path)["fifo"]
+    done = process("check", fifo, cwd=tmp_path)  # would block for ever (timeout 300 s)
+    text = done.stdout + done.stderr  # check lists its problems on stdout
+    assert done.returncode == 1 and "Traceback" not in text
+    assert "is a pipe (FIFO), not a regular file" in text
+
+
+def test_a_text_input_above_the_size_limit_is_refused_without_reading(capsys, tmp_path):
+    from layercalc.limits import MAX_TEXT_BYTES
+
+    path = tmp_path / "huge.layers"
+    with open(path, "wb") as stream:
+        stream.truncate(MAX_TEXT_BYTES + 1)  # sparse: no disk space used
+    held = regular_files(tmp_path)
+    for command in ("check", "run"):
+        code, out, err = cli(capsys, command, path)
+        assert_our_error(code, out, err, f"{path} is larger than {MAX_TEXT_BYTES:,} bytes")
+    assert regular_files(tmp_path) == held
