@@ -57,10 +57,11 @@ def read_input_bytes(path: str | Path, limit: int | None = None) -> bytes:
         raise InputError(f"{path} is a folder, not a file") from None
     except OSError as exc:
         raise InputError(f"cannot read {path}: {exc.strerror}") from None
+    mode = os.fstat(descriptor).st_mode
+    if stat.S_ISDIR(mode):
+        os.close(descriptor)
+        raise InputError(f"{path} is a folder, not a file")
     with os.fdopen(descriptor, "rb") as stream:
-        mode = os.fstat(descriptor).st_mode
-        if stat.S_ISDIR(mode):
-            raise InputError(f"{path} is a folder, not a file")
         if not stat.S_ISREG(mode):
             kind = ("a pipe (FIFO)" if stat.S_ISFIFO(mode) else
                     "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode) else
