@@ -41,12 +41,15 @@ def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
     with np.errstate(all="ignore"):
         for sc in scenarios:
             for ch in sc.changes:
-                if ch.condition is not None:
-                    mask = np.asarray(env.run(ch.condition), dtype=bool)
-                else:
-                    mask = selection_mask(checked_sheet, ch)[None, :]
-                amount = env.run(ch.amount)
+                amount = np.asarray(env.run(ch.amount), dtype=float)
                 current = columns[ch.target]
+                if ch.condition is None:  # a range of layers: change only those
+                    layers = np.flatnonzero(selection_mask(checked_sheet, ch))
+                    columns[ch.target] = _changed_layers(current, layers, amount, ch.action)
+                    if not _layers_physical(checked_sheet, ch, columns[ch.target], layers):
+                        _still_physical(checked_sheet, sc, ch, columns[ch.target])
+                    continue
+                mask = np.asarray(env.run(ch.condition), dtype=bool)
                 if ch.action == "add":
                     new = current + np.where(mask, amount, 0.0)
                 elif ch.action == "scale":
@@ -56,6 +59,42 @@ def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
                 columns[ch.target] = np.asarray(new, dtype=float)
                 _still_physical(checked_sheet, sc, ch, columns[ch.target])
     return columns, cells
+
+
+def _changed_layers(current, layers, amount, action: str) -> np.ndarray:
+    """`current` (S, L) or (1, L) with the change applied to the given layers only.
+
+    The result has the layers on the outer axis in memory (Fortran order of (S, L)): each
+    layer's variants are contiguous, so the change is one pass per changed layer and the
+    evaluation after it runs over contiguous memory (a sweep has few layers and many
+    variants). Same values as adding 0 or scaling by 1 elsewhere."""
+    count = max(current.shape[0], amount.shape[0])
+    new = np.empty((count, current.shape[-1]), order="F")
+    new[...] = current
+    by_layer = amount.shape[-1] != 1
+    for j in layers.tolist():
+        value = amount[:, j] if by_layer else amount[:, 0]
+        if action == "add":
+            new[:, j] += value
+        elif action == "scale":
+            new[:, j] *= value
+        else:
+            new[:, j] = value
+    return new
+
+
+def _layers_physical(checked_sheet, ch: CheckedChange, values, layers) -> bool:
+    """True when the changed layers stay finite (and above absolute zero for a
+    temperature): one min and max per changed layer. Only changed layers can have become
+    unphysical; _still_physical finds and words the problem otherwise."""
+    unit = checked_sheet.input_columns[ch.target].unit
+    is_temperature = U.same_dimension(unit.dimension, U.lookup("K").dimension)
+    for j in layers.tolist():
+        lowest, highest = np.min(values[:, j]), np.max(values[:, j])
+        if not (np.isfinite(lowest) and np.isfinite(highest)) or (
+                is_temperature and lowest <= 0.0):
+            return False
+    return True
 
 
 def _still_physical(checked_sheet, sc: CheckedScenario, ch: CheckedChange, values) -> None:

@@ -217,5 +217,6 @@ def virtual_temperature(temperature, mixing_ratio):
     the virtual temperature; section number from memory).
     """
     mixing_ratio = np.asarray(mixing_ratio, dtype=float)
-    return (np.asarray(temperature, dtype=float) * (mixing_ratio + EPSILON)
-            / (EPSILON * (1.0 + mixing_ratio)))
+    # the moisture factor first: one pass over a sweep's (variants x layers) T
+    return np.asarray(temperature, dtype=float) * ((mixing_ratio + EPSILON)
+                                                   / (EPSILON * (1.0 + mixing_ratio)))

@@ -37,8 +37,9 @@ def hypsometric_thickness(virtual_temperature, pressure_bottom, pressure_top):
     Wallace and Hobbs, 2006, Atmospheric Science, 2nd ed., section 3.2.2, eq. 3.29
     (from memory).
     """
-    return (RD * np.asarray(virtual_temperature, dtype=float) / G0
-            * np.log(np.asarray(pressure_bottom, dtype=float) / pressure_top))
+    # the pressure factor first: one pass over a sweep's (variants x layers) Tv
+    factor = RD / G0 * np.log(np.asarray(pressure_bottom, dtype=float) / pressure_top)
+    return np.asarray(virtual_temperature, dtype=float) * factor
 
 
 def virtual_temperature_from_thickness(thickness, pressure_bottom, pressure_top):

@@ -217,8 +217,11 @@ def vertical_velocity(omega, pressure, virtual_temperature):
     Holton and Hakim, 2013, section 3.5 (omega ~ -rho g w for synoptic-scale motion;
     from memory).
     """
-    density = np.asarray(pressure, dtype=float) / (RD * np.asarray(virtual_temperature))
-    return -np.asarray(omega, dtype=float) / (density * G0)
+    # w = omega * (-Rd / (g0 p)) * Tv: the same formula with the pressure factor first,
+    # so that a sweep's (variants x layers) arrays are passed twice, not five times
+    factor = -RD / (G0 * np.asarray(pressure, dtype=float))
+    return np.asarray(omega, dtype=float) * factor * np.asarray(virtual_temperature,
+                                                                 dtype=float)
 
 
 def column_mean_divergence(divergence, pressure_depth):
