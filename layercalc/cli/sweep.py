@@ -41,7 +41,7 @@ def _sweep_workbook(frame, units: dict, title: str) -> bytes:
 
 def sweep_command(args) -> int:
     from layercalc.report.text import TableColumn, auto, table_lines, wrap
-    from layercalc.evaluation.sweep import parse_range, plot_sweep, run_sweep
+    from layercalc.evaluation.sweep import parse_range, plot_sweep, sweep_table
 
     if len(args.vary) > 2:
         print("layercalc sweep: error: a sweep varies one or two cells (give --vary once or "
@@ -55,13 +55,13 @@ def sweep_command(args) -> int:
     sheet = load_case(args.case)
     need_scenario(sheet, args.scenario)
     ranges = [parse_range(text, sheet) for text in args.vary]
-    frame = run_sweep(sheet, ranges, scenario=args.scenario, outputs=args.show)
+    frame = sweep_table(sheet, ranges, scenario=args.scenario, outputs=args.show)
     units = frame.attrs.get("units", {})
     files = []  # every file is made before the first one is written
     if args.csv:
         header = ",".join(frame.columns) + "\n" + ",".join(units.get(c, "") for c in
                                                            frame.columns) + "\n"
-        text = header + frame.to_csv(index=False, header=False)
+        text = header + frame.csv_rows()
         files.append((args.csv, text.encode("utf-8")))
     if args.xlsx:
         files.append((args.xlsx, _sweep_workbook(frame, units, sheet.title)))
@@ -75,10 +75,10 @@ def sweep_command(args) -> int:
             files.append((args.plot, drawn.read_bytes()))
     write_files(files)
     if not args.quiet:
-        columns = [TableColumn(name, units.get(name, ""), auto(frame[name].to_numpy()))
+        columns = [TableColumn(name, units.get(name, ""), auto(frame[name]))
                    for name in frame.columns[1:]]
         first = frame.columns[0]
-        lines = table_lines(first, units.get(first, ""), auto(frame[first].to_numpy()),
+        lines = table_lines(first, units.get(first, ""), auto(frame[first]),
                             columns)
         from layercalc.caution import CAUTION
 

@@ -76,12 +76,47 @@ def grid(ranges: list[Range]) -> dict[str, np.ndarray]:
     return {r.name: m.ravel() for r, m in zip(ranges, mesh)}
 
 
-def run_sweep(sheet, ranges: list[Range], scenario: str | None = None,
-              outputs: list[str] | None = None):
-    """A DataFrame: one row per grid point, the varied cells and the chosen result cells,
-    each in its display unit; `attrs['units']` names them."""
-    import pandas as pd
+@dataclass(frozen=True, eq=False)
+class SweepTable:
+    """One row per grid point: the varied cells and the chosen result cells, each a numpy
+    array in its display unit (`units`). Reads like a small DataFrame (`columns`,
+    `table[name]`, `len`, `attrs['units']`); pandas is imported only by `to_frame`."""
 
+    data: dict
+    units: dict
+
+    @property
+    def columns(self) -> list[str]:
+        return list(self.data)
+
+    @property
+    def attrs(self) -> dict:
+        return {"units": dict(self.units)}
+
+    def __getitem__(self, name: str) -> np.ndarray:
+        return self.data[name]
+
+    def __len__(self) -> int:
+        return len(next(iter(self.data.values())))
+
+    def to_frame(self):
+        import pandas as pd
+
+        frame = pd.DataFrame(self.data)
+        frame.attrs["units"] = dict(self.units)
+        return frame
+
+    def csv_rows(self) -> str:
+        """The values as CSV lines (no header), numbers as pandas' to_csv writes them:
+        the shortest text that reads back to the same float, empty for NaN."""
+        texts = [["" if v != v else repr(v) for v in values.tolist()]
+                 for values in self.data.values()]
+        return "".join(",".join(row) + "\n" for row in zip(*texts))
+
+
+def sweep_table(sheet, ranges: list[Range], scenario: str | None = None,
+                outputs: list[str] | None = None) -> SweepTable:
+    """The sweep's table (SweepTable) without pandas."""
     points = grid(ranges)
     evaluation = sheet.evaluate_many(points, scenario=scenario)
     checked = evaluation.sheet
@@ -91,7 +126,7 @@ def run_sweep(sheet, ranges: list[Range], scenario: str | None = None,
     data, units = {}, {}
     for r in ranges:
         unit = checked.input_cells[r.name].unit
-        data[r.name] = unit.from_si(points[r.name])
+        data[r.name] = np.asarray(unit.from_si(points[r.name]), dtype=float)
         units[r.name] = r.unit
     for name in outputs:
         if name not in evaluation.cells:
@@ -100,11 +135,16 @@ def run_sweep(sheet, ranges: list[Range], scenario: str | None = None,
                              hint=did_you_mean(close) or None)
         unit = checked.unit_of(name, "cell")
         values = np.broadcast_to(evaluation.cells[name], (n, 1))[:, 0]
-        data[name] = unit.from_si(values)
+        data[name] = np.asarray(unit.from_si(values), dtype=float)
         units[name] = unit.text
-    frame = pd.DataFrame(data)
-    frame.attrs["units"] = units
-    return frame
+    return SweepTable(data, units)
+
+
+def run_sweep(sheet, ranges: list[Range], scenario: str | None = None,
+              outputs: list[str] | None = None):
+    """A DataFrame: one row per grid point, the varied cells and the chosen result cells,
+    each in its display unit; `attrs['units']` names them (sweep_table without pandas)."""
+    return sweep_table(sheet, ranges, scenario, outputs).to_frame()
 
 
 def plot_sweep(frame, ranges: list[Range], output: str, path) -> None:
@@ -125,7 +165,7 @@ def plot_sweep(frame, ranges: list[Range], output: str, path) -> None:
         ax.axhline(0.0, color="0.6", lw=0.8)
     else:
         a, b = ranges
-        z = frame[output].to_numpy().reshape(a.values.size, b.values.size)
+        z = np.asarray(frame[output]).reshape(a.values.size, b.values.size)
         mesh = ax.pcolormesh(b.values, a.values, z, shading="nearest", cmap="RdBu_r")
         fig.colorbar(mesh, ax=ax, label=label)
         ax.set_xlabel(f"{b.name} [{b.unit}]")

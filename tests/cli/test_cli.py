@@ -449,3 +449,22 @@ def test_check_compiles_each_file_once(case, bad_case, monkeypatch, capsys):
     code = main(["check", str(bad_case if case == "bad" else case)])
     assert code == (1 if case == "bad" else 0) and len(compiled) == 1
     capsys.readouterr()
+
+
+def test_sweep_and_help_leave_the_heavy_libraries_alone():
+    import subprocess
+    import sys
+
+    probe = ("import sys\nfrom layercalc.cli.main import main\n"
+             "try:\n    main(sys.argv[1:])\nexcept SystemExit:\n    pass\n"
+             "print(sorted(m for m in ('numpy', 'pandas') if m in sys.modules))\n")
+    root = Path(__file__).resolve().parents[2]
+
+    def imported(*argv):
+        done = subprocess.run([sys.executable, "-c", probe, *argv], capture_output=True,
+                              text=True, cwd=root, timeout=120, check=True)
+        return done.stdout.strip().splitlines()[-1]
+
+    assert imported("--help") == "[]"  # no numpy for the help text
+    assert imported("sweep", str(WARMING), "--vary", "warming=0:6:1", "--quiet") \
+        == "['numpy']"  # a sweep needs numpy, not pandas
