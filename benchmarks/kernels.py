@@ -77,3 +77,39 @@ def sweep_kernel(pb, pt, t, td, div, warm, aloft, surface_height, omega_top, war
         "max_ascent": np.minimum(omega_b[0], omega_t.min(axis=0)),
     }
     return out, cells
+
+
+def table_script(path) -> str:
+    """The numpy script a user would write instead of `layercalc run` for a plain layers
+    table (p_bottom, p_top in hPa, T in degC, div in 1e-5 s^-1; a header line, rows, 'end'):
+    read the rows with numpy.loadtxt, compute Tv (dry), thickness, heights, omega from the
+    top and w, and format the same layer table (top first, the report's columns and
+    decimals, in the trade's units) as text."""
+    with open(path, encoding="utf-8") as handle:
+        count = sum(1 for _ in handle) - 3  # 'layers', the header, ..., 'end'
+    pb, pt, t, div = np.loadtxt(path, skiprows=2, max_rows=count, unpack=True)
+    pb, pt, t, div = pb * 100.0, pt * 100.0, t + 273.15, div * 1e-5
+    tv = t
+    thickness = tv * (RD / G0 * np.log(pb / pt))
+    z_top = np.cumsum(thickness)
+    flux = div * (pb - pt)
+    omega_bottom = -np.cumsum(flux[::-1])[::-1]
+    omega_top = omega_bottom + flux
+    w_top = omega_top * (-RD / (G0 * pt)) * tv
+    table = np.column_stack([t - 273.15, tv - 273.15, thickness, z_top, div * 1e5,
+                             omega_top * 36.0, w_top * 100.0])[::-1]
+    labels = np.char.add(np.char.add((pb[::-1] / 100).astype(str), "-"),
+                         (pt[::-1] / 100).astype(str))
+    import io
+
+    out = io.StringIO()
+    np.savetxt(out, table, fmt=["%8.1f", "%8.1f", "%8.0f", "%8.0f", "%8.2f", "%8.2f",
+                                "%8.2f"])
+    rows = map(" ".join, zip(labels.tolist(), out.getvalue().splitlines()))
+    return "layer T Tv thick z div omega w\n" + "\n".join(rows) + "\n"
+
+
+if __name__ == "__main__":  # python benchmarks/kernels.py FILE: the table script on FILE
+    import sys
+
+    sys.stdout.write(table_script(sys.argv[1]))

@@ -1,18 +1,32 @@
-"""layercalc benchmarks: sweep speed against a hand-written numpy kernel and against a loop
-over the public API, peak memory of a large sweep, and cold-start time of the CLI.
+"""layercalc benchmarks, every figure beside its target, measured in one run:
+
+- sweeps of the 12-layer worked case (1e4, 1e5, 1e6 scenarios) against a tight hand-written
+  numpy kernel (benchmarks/kernels.py: layers outer, scenarios contiguous, in place), and
+  the peak memory of both;
+- a 100,000-layer table: `run` and `check` against a numpy script doing the same work
+  (kernels.table_script: numpy.loadtxt, the same columns, the same table as text), the
+  --json writer against json.dumps of the same document, loading against numpy.loadtxt;
+- start-up: what `--help`, `check` and `sweep` import and compile, and `run` against the
+  import floor `python -c "import numpy, lark, sympy.physics.units"`;
+- the error ensemble of the three-station case against its hand kernel.
 
     python benchmarks/run.py            # writes benchmarks/RESULTS.md
 
-Figures are ratios measured in one run on this machine; nothing here is asserted in tests.
+Times are CPU times (this process, or the child processes' user + system time), the median
+of several repetitions with the range beside it: the machine is shared with other work, and
+CPU time is far less disturbed by it than wall time. Nothing here is asserted in tests.
 """
 
 from __future__ import annotations
 
+import json
 import os
 import platform
+import resource
 import statistics
 import subprocess
 import sys
+import tempfile
 import time
 import tracemalloc
 from pathlib import Path
@@ -24,18 +38,19 @@ sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "benchmarks"))
 
 import layercalc  # noqa: E402
-from layercalc.constants import EPSILON, G0, RD  # noqa: E402
+from kernels import CELLS, COLUMNS, sweep_kernel  # noqa: E402
 
 CASE = ROOT / "worked_cases" / "midlevel_warming.layers"
 SCENARIO = "warmed_divergent"  # warms 500-300 hPa by `warming`, scales div above 500 hPa
-SIZES = {10_000: (100, 100), 100_000: (400, 250)}
-REPEATS = 5
-LOOP_SAMPLE = 300  # scenarios evaluated one at a time; the loop's total is extrapolated
+SIZES = (10_000, 100_000, 1_000_000)
+REPEATS = {10_000: 15, 100_000: 9, 1_000_000: 5}
+BIG_LAYERS = 100_000
+ENV = {**os.environ, "PYTHONPATH": str(ROOT)}
 
 
-def best_time(function, repeats=REPEATS):
-    times = []
-    result = None
+def best_time(function, repeats=5):
+    """Best wall time of five (the ensemble benchmark), and the last result."""
+    times, result = [], None
     for _ in range(repeats):
         start = time.perf_counter()
         result = function()
@@ -43,96 +58,191 @@ def best_time(function, repeats=REPEATS):
     return min(times), result
 
 
-def grid(n_warming, n_scale):
-    warming, scale = np.meshgrid(np.linspace(0.0, 6.0, n_warming),
-                                 np.linspace(0.5, 2.0, n_scale), indexing="ij")
-    return warming.ravel(), scale.ravel()
+def cpu_times(function, repeats):
+    """CPU times of `function()` in this process, and its last result."""
+    times, result = [], None
+    for _ in range(repeats):
+        result = None
+        start = time.process_time()
+        result = function()
+        times.append(time.process_time() - start)
+    return times, result
 
 
-def kernel(sheet, warming, scale):
-    """The same quantities as the sheet's defaults, written directly in numpy (surface
-    first, scenarios on the leading axis): what a careful programmer would write by hand."""
-    cols = sheet.checked.input_columns
-    pb, pt = cols["p_bottom"].values, cols["p_top"].values
-    t, td, div = cols["T"].values, cols["Td"].values, cols["div"].values
-    warm_mask = (pb <= 50000.0 * (1 + 1e-6)) & (pt >= 30000.0 * (1 - 1e-6))
-    div_mask = pb <= 50000.0 * (1 + 1e-6)
-    T = t[None, :] + warming[:, None] * warm_mask
-    D = div[None, :] * np.where(div_mask, scale[:, None], 1.0)
-    dp = pb - pt
-    p_mid = np.sqrt(pb * pt)
-    e = 611.2 * np.exp(17.67 * (td - 273.15) / (td - 29.65))
-    r = EPSILON * e / (p_mid - e)
-    tv = T * (r + EPSILON) / (EPSILON * (1 + r))
-    thickness = RD * tv / G0 * np.log(pb / pt)
-    z_top = 40.0 + np.cumsum(thickness, axis=-1)
-    z_bottom = z_top - thickness
-    flux = D * dp
-    omega_bottom = -np.cumsum(flux[:, ::-1], axis=-1)[:, ::-1]
-    omega_top = omega_bottom + flux
-    w_bottom = -omega_bottom * RD * tv / (pb * G0)
-    w_top = -omega_top * RD * tv / (pt * G0)
-    omega_surface = omega_bottom[:, 0]
-    out = {
-        "Tv": tv, "thickness": thickness, "z_top": z_top, "z_bottom": z_bottom,
-        "omega_bottom": omega_bottom, "omega_top": omega_top, "w_bottom": w_bottom,
-        "w_top": w_top, "surface_pressure_tendency": omega_surface,
-        "column_mean_divergence": flux.sum(-1) / dp.sum(),
-        "dines_ratio": np.abs(flux.sum(-1)) / (np.abs(D) * dp).sum(-1),
-        "max_ascent": np.minimum(omega_bottom[:, 0], omega_top.min(-1)),
-        "column_thickness": thickness.sum(-1),
-    }
-    return out
+def child_cpu(command, env=ENV, repeats=5, cwd=ROOT):
+    """CPU times (user + system) of a command run in a child process."""
+    times = []
+    for _ in range(repeats):
+        before = resource.getrusage(resource.RUSAGE_CHILDREN)
+        subprocess.run(command, check=True, capture_output=True, env=env, cwd=cwd)
+        after = resource.getrusage(resource.RUSAGE_CHILDREN)
+        times.append(after.ru_utime - before.ru_utime + after.ru_stime - before.ru_stime)
+    return times
 
 
-def compare_with_kernel(evaluation, kernel_out, size):
+def summary(times) -> str:
+    return f"{statistics.median(times):.3f} ({min(times):.3f}-{max(times):.3f})"
+
+
+def ratio(numerators, denominators) -> tuple[float, float, float]:
+    """Median ratio of medians, and the range of the pairwise ratios of the repetitions."""
+    pairs = [a / b for a, b in zip(numerators, denominators)]
+    return statistics.median(numerators) / statistics.median(denominators), min(pairs), \
+        max(pairs)
+
+
+def verdict(value: float, target: float) -> str:
+    return "met" if value <= target else "NOT met"
+
+
+def ratio_cells(numerators, denominators, target) -> str:
+    middle, low, high = ratio(numerators, denominators)
+    return f"{middle:.2f} ({low:.2f}-{high:.2f}) | <= {target} | {verdict(middle, target)}"
+
+
+# ---------------------------------------------------------------- sweeps
+def sweep_inputs(sheet, size):
+    columns = sheet.checked.input_columns
+    pb, pt = columns["p_bottom"].values, columns["p_top"].values
+    warm = (pb <= 50000.0 * (1 + 1e-6)) & (pt >= 30000.0 * (1 - 1e-6))
+    aloft = pb <= 50000.0 * (1 + 1e-6)
+    cells = sheet.checked.input_cells
+    warming = np.linspace(0.0, 6.0, size)
+    scale = np.tile(np.linspace(0.5, 2.0, 100), size // 100)
+    args = (pb, pt, columns["T"].values, columns["Td"].values, columns["div"].values, warm,
+            aloft, cells["surface_height"].value, cells["omega_top"].value, warming, scale)
+    return {"warming": warming, "div_scale": scale}, args
+
+
+def worst_difference(evaluation, columns, cells, size) -> float:
     worst = 0.0
-    for name, want in kernel_out.items():
-        got = evaluation.columns.get(name, evaluation.cells.get(name))
-        got = np.broadcast_to(got, (size,) + (want.shape[1:] if want.ndim > 1 else (1,)))
-        got = got if want.ndim > 1 else got[:, 0]
-        scale = np.maximum(np.abs(want), 1e-30)
-        worst = max(worst, float(np.max(np.abs(got - want) / scale)))
+    pairs = [(np.broadcast_to(evaluation.columns[n], (size, columns[n].shape[0])),
+              columns[n].T) for n in COLUMNS]
+    pairs += [(np.broadcast_to(evaluation.cells[n], (size, 1))[:, 0],
+               np.broadcast_to(cells[n], (size,))) for n in CELLS]
+    for got, want in pairs:
+        floor = np.abs(want).max() * 1e-12 + 1e-300  # values crossing zero: relative to the largest
+        worst = max(worst, float(np.max(np.abs(got - want) / np.maximum(np.abs(want), floor))))
     return worst
 
 
-def result_bytes(evaluation, size):
-    total = 0
-    for array in (*evaluation.columns.values(), *evaluation.cells.values()):
-        total += size * array.shape[-1] * 8 if array.shape[0] in (1, size) else array.nbytes
-    return total
+def sweeps(sheet):
+    rows = []
+    for size in SIZES:
+        cell_values, args = sweep_inputs(sheet, size)
+        repeats = REPEATS[size]
+        t_layercalc, t_kernel = [], []
+        for _ in range(repeats):  # interleaved, so that both meet the same disturbances
+            t_layercalc += cpu_times(lambda: sheet.evaluate_many(cell_values, SCENARIO), 1)[0]
+            t_kernel += cpu_times(lambda: sweep_kernel(*args), 1)[0]
+        evaluation = sheet.evaluate_many(cell_values, scenario=SCENARIO)
+        columns, cells = sweep_kernel(*args)
+        worst = worst_difference(evaluation, columns, cells, size)
+        del evaluation, columns, cells
+        tracemalloc.start()
+        sheet.evaluate_many(cell_values, scenario=SCENARIO)
+        peak_layercalc = tracemalloc.get_traced_memory()[1]
+        tracemalloc.stop()
+        tracemalloc.start()
+        sweep_kernel(*args)
+        peak_kernel = tracemalloc.get_traced_memory()[1]
+        tracemalloc.stop()
+        rows.append((size, repeats, t_layercalc, t_kernel, worst, peak_layercalc, peak_kernel))
+    return rows
 
 
-def cold_start(runs=9):
-    """Median wall times of `layercalc run` with the unit check done by sympy (cache off),
-    with the earlier check reused (cache on), and of the import baseline; and whether the
-    two runs print the same JSON."""
-    import tempfile
+# ---------------------------------------------------------------- big tables
+def big_table(folder: Path) -> Path:
+    p = np.linspace(1000.0, 100.0, BIG_LAYERS + 1)
+    rows = "\n".join(f"{a:.4f} {b:.4f} -20 0.1" for a, b in zip(p[:-1], p[1:]))
+    path = folder / "hundred_thousand.layers"
+    path.write_text(f"layers\n p_bottom [hPa] p_top [hPa] T [degC] div [1e-5 s^-1]\n{rows}\n"
+                    "end\n", encoding="utf-8")
+    return path
 
-    cache = tempfile.mkdtemp(prefix="layercalc-bench-cache-")
-    env = dict(os.environ, LAYERCALC_CACHE_DIR=cache)
-    uncached_env = dict(env, LAYERCALC_NO_DIMENSION_CACHE="1")
-    cli = [sys.executable, "-m", "layercalc", "run", str(CASE)]
-    base = [sys.executable, "-c", "import numpy, lark, sympy"]
+
+def tables(folder: Path, env):
+    from layercalc.formats import jsondoc
+
+    path = big_table(folder)
+    cli = [sys.executable, "-m", "layercalc"]
+    subprocess.run(cli + ["check", str(path)], check=True, capture_output=True, env=env)
+    script = [sys.executable, str(ROOT / "benchmarks" / "kernels.py"), str(path)]
+    t_script, t_run, t_check = [], [], []
+    for _ in range(5):  # interleaved
+        t_script += child_cpu(script, env, 1)
+        t_run += child_cpu(cli + ["run", str(path)], env, 1)
+        t_check += child_cpu(cli + ["check", str(path)], env, 1)
+    sheet = layercalc.load(path)
+    result = sheet.evaluate()
+    t_writer, t_dumps = [], []
+    for _ in range(5):
+        t_writer += cpu_times(lambda: jsondoc.dumps(jsondoc.result_document(sheet, result)),
+                              1)[0]
+        document = jsondoc.result_document(sheet, result)
+        t_dumps += cpu_times(lambda: json.dumps(document), 1)[0]
+    count = BIG_LAYERS
+    t_load, t_loadtxt = [], []
+    for _ in range(5):
+        t_load += cpu_times(lambda: layercalc.load(path), 1)[0]
+        t_loadtxt += cpu_times(lambda: np.loadtxt(path, skiprows=2, max_rows=count), 1)[0]
+    return t_script, t_run, t_check, t_writer, t_dumps, t_load, t_loadtxt
+
+
+# ---------------------------------------------------------------- start-up
+PROBE = """import sys
+compiled = []
+if sys.argv[1] != "--help":  # counting compilations needs the API (and numpy) loaded first
+    from layercalc import api
+    original = api._compile
+    api._compile = lambda *a, **k: compiled.append(1) or original(*a, **k)
+from layercalc.cli.main import main
+import io, contextlib
+with contextlib.redirect_stdout(io.StringIO()), contextlib.redirect_stderr(io.StringIO()):
+    try:
+        main(sys.argv[1:])
+    except SystemExit:
+        pass
+units = sys.modules.get("layercalc.language.units")
+print(sorted(m for m in ("numpy", "pandas", "lark", "sympy") if m in sys.modules),
+      len(compiled), units.source() if units else None)
+"""
+
+
+def probe(env, *argv):
+    done = subprocess.run([sys.executable, "-c", PROBE, *argv], check=True,
+                          capture_output=True, text=True, env=env, cwd=ROOT)
+    return done.stdout.strip().splitlines()[-1]
+
+
+def startup(folder: Path, env):
+    cache = folder / "cache"
+    env = {**env, "LAYERCALC_CACHE_DIR": str(cache)}
+    book = folder / "case.xlsx"
+    subprocess.run([sys.executable, "-m", "layercalc", "export", str(CASE), "-o", str(book)],
+                   check=True, capture_output=True, env=env)
+    probes = {
+        "help": probe(env, "--help"),
+        "first check": probe(env, "check", str(CASE)),  # the cache is empty: sympy
+        "second check": probe(env, "check", str(CASE)),
+        "import": probe(env, "import", str(book), "-o", str(folder / "back.layers")),
+        "sweep": probe(env, "sweep", str(CASE), "--vary", "warming=0:6:1", "--quiet"),
+    }
     # byte-compile the package first, as pip does when it installs the wheel (this machine
     # sets PYTHONDONTWRITEBYTECODE, so a checkout would otherwise compile on every start)
     subprocess.run([sys.executable, "-m", "compileall", "-q", str(ROOT / "layercalc")],
                    check=True, env=env)
-    first = subprocess.run(cli + ["--json"], capture_output=True, cwd=ROOT, env=env,
-                           check=True).stdout  # checked with sympy; remembered
-    again = subprocess.run(cli + ["--json"], capture_output=True, cwd=ROOT, env=env,
-                           check=True).stdout  # reused
-    same = first == again
-
-    def median(cmd, environment):
-        times = []
-        for _ in range(runs):
-            start = time.perf_counter()
-            subprocess.run(cmd, capture_output=True, cwd=ROOT, env=environment, check=True)
-            times.append(time.perf_counter() - start)
-        return statistics.median(times)
-
-    return median(cli, uncached_env), median(cli, env), median(base, env), same
+    uncached = {**env, "LAYERCALC_NO_DIMENSION_CACHE": "1"}
+    cli = [sys.executable, "-m", "layercalc", "run", str(CASE)]
+    floor = [sys.executable, "-c", "import numpy, lark, sympy.physics.units"]
+    first = subprocess.run(cli + ["--json"], capture_output=True, env=env, check=True).stdout
+    again = subprocess.run(cli + ["--json"], capture_output=True, env=env, check=True).stdout
+    t_floor, t_first, t_cached = [], [], []
+    for _ in range(9):  # interleaved
+        t_floor += child_cpu(floor, env, 1)
+        t_first += child_cpu(cli, uncached, 1)
+        t_cached += child_cpu(cli, env, 1)
+    return probes, t_floor, t_first, t_cached, first == again
 
 
 ENSEMBLE_CASE = ROOT / "worked_cases" / "three_stations.layers"
@@ -195,90 +305,136 @@ def ensemble_benchmark():
 
 
 def main() -> int:
+    load_average = os.getloadavg()[0]
     sheet = layercalc.load(CASE)
-    lines = []
-    rows = []
-    for size, (nw, ns) in SIZES.items():
-        warming, scale = grid(nw, ns)
-        cells = {"warming": warming, "div_scale": scale}
-        t_layercalc, evaluation = best_time(
-            lambda: sheet.evaluate_many(cells, scenario=SCENARIO))
-        t_kernel, kernel_out = best_time(lambda: kernel(sheet, warming, scale))
-        worst = compare_with_kernel(evaluation, kernel_out, size)
-        sample = min(LOOP_SAMPLE, size)
-        start = time.perf_counter()
-        for i in range(sample):
-            sheet.evaluate_many({"warming": warming[i:i + 1], "div_scale": scale[i:i + 1]},
-                                scenario=SCENARIO)
-        per_scenario = (time.perf_counter() - start) / sample
-        t_loop = per_scenario * size
-        rows.append((size, t_layercalc, t_kernel, t_loop, worst))
-    warming, scale = grid(*SIZES[100_000])
-    tracemalloc.start()
-    evaluation = sheet.evaluate_many({"warming": warming, "div_scale": scale},
-                                     scenario=SCENARIO)
-    _, peak = tracemalloc.get_traced_memory()
-    tracemalloc.stop()
-    size_results = result_bytes(evaluation, warming.size)
-    t_uncached, t_cached, t_base, same_output = cold_start()
+    sweep_rows = sweeps(sheet)
+    with tempfile.TemporaryDirectory(prefix="layercalc-bench-") as name:
+        folder = Path(name)
+        env = {**ENV, "LAYERCALC_CACHE_DIR": str(folder / "cache")}
+        table_times = tables(folder, env)
+        probes, t_floor, t_first, t_cached, same_output = startup(folder, env)
+    ensemble = ensemble_benchmark()
+    load_after = os.getloadavg()[0]
 
-    lines.append("# Benchmark results\n")
-    lines.append(f"Measured by `python benchmarks/run.py` on {time.strftime('%Y-%m-%d')}, "
-                 f"{platform.machine()}, {os.cpu_count()} cores, Python "
-                 f"{platform.python_version()}, numpy {np.__version__}, layercalc "
-                 f"{layercalc.__version__}. Case: `worked_cases/midlevel_warming.layers` "
-                 f"({sheet.checked.layer_count} layers), scenario `{SCENARIO}` (warms 500-300 hPa "
-                 "by the cell `warming`, scales the divergence above 500 hPa by `div_scale`); "
-                 "sweeps over warming x div_scale.\n")
-    lines.append("| scenarios | layercalc sweep [s] | numpy kernel [s] | ratio (target <= 1.5) "
-                 "| loop over public API [s] | speed-up (target >= 50) | max rel. diff |")
-    lines.append("|---|---|---|---|---|---|---|")
-    for size, t_l, t_k, t_loop, worst in rows:
-        lines.append(f"| {size:,} | {t_l:.4f} | {t_k:.4f} | {t_l / t_k:.2f} | {t_loop:.1f} "
-                     f"(extrapolated from {min(LOOP_SAMPLE, size)}) | {t_loop / t_l:.0f} | "
-                     f"{worst:.1e} |")
+    lines = ["# Benchmark results\n"]
+    lines.append(
+        f"Measured by `python benchmarks/run.py` on {time.strftime('%Y-%m-%d')}, "
+        f"{platform.machine()}, {os.cpu_count()} cores, Python {platform.python_version()}, "
+        f"numpy {np.__version__}, layercalc {layercalc.__version__}. **The machine was "
+        f"shared** with other work while this ran (load average {load_average:.1f} at the "
+        f"start, {load_after:.1f} at the end, on {os.cpu_count()} cores): times are CPU "
+        "times (of this process, or user + system time of the child process), which such "
+        "sharing disturbs far less than wall time; each figure is the median of the "
+        "repetitions with their range in brackets, and a ratio is the ratio of the medians "
+        "with the range of the ratios of the paired (interleaved) repetitions.\n")
+
+    lines.append("## Sweeps\n")
+    lines.append(
+        f"Case `worked_cases/midlevel_warming.layers` ({sheet.checked.layer_count} layers), "
+        f"scenario `{SCENARIO}` (warms 500-300 hPa by the cell `warming`, scales the "
+        "divergence above 500 hPa by `div_scale`), both cells varied over the scenarios, "
+        "evaluated by `Sheet.evaluate_many`. The baseline is `benchmarks/kernels.py` "
+        "`sweep_kernel`: a tight hand-written numpy kernel with the layers on the outer axis "
+        "and the scenarios contiguous, writing in place into preallocated arrays, one pass "
+        "per quantity and layer (running sums as one add per layer), computing every "
+        "quantity the sheet's defaults compute for each scenario (T, div, Tv, thickness, "
+        "z_top, z_bottom, omega_bottom, omega_top, w_bottom, w_top, and the cells "
+        "column_thickness, omega_surface, net and gross mass divergence, column mean "
+        "divergence, Dines ratio, strongest ascent); the largest relative difference of "
+        "all of them (against the largest value of each quantity where it crosses zero) is "
+        "in the last column. layercalc also checks every value is finite, which the "
+        "kernel does not.\n")
+    lines.append("| scenarios | repetitions | layercalc [s] | kernel [s] | ratio | target "
+                 "| | max rel. diff |")
+    lines.append("|---|---|---|---|---|---|---|---|")
+    for size, repeats, t_l, t_k, worst, _, _ in sweep_rows:
+        lines.append(f"| {size:,} | {repeats} | {summary(t_l)} | {summary(t_k)} | "
+                     f"{ratio_cells(t_l, t_k, 1.3)} | {worst:.1e} |")
     lines.append("")
-    lines.append(f"Peak memory of the 100,000-scenario sweep (tracemalloc): "
-                 f"{peak / 2**20:.1f} MiB; result arrays (every column and cell counted dense, "
-                 f"scenarios x layers of float64): {size_results / 2**20:.1f} MiB; "
-                 f"ratio {peak / size_results:.2f} (target < 8).\n")
-    lines.append("Cold start (package byte-compiled, as installed), median of 9 runs each:\n")
-    lines.append("| command | time [s] | ratio to the import baseline (target <= 1.5) |")
-    lines.append("|---|---|---|")
-    lines.append(f"| `python -c \"import numpy, lark, sympy\"` | {t_base:.3f} | 1.00 |")
-    lines.append(f"| `layercalc run worked_cases/midlevel_warming.layers`, unit check by sympy "
-                 f"(`LAYERCALC_NO_DIMENSION_CACHE=1`, or the first run of a text) | "
-                 f"{t_uncached:.3f} | {t_uncached / t_base:.2f} |")
-    lines.append(f"| the same, reusing the earlier sympy check of the same text | "
-                 f"{t_cached:.3f} | {t_cached / t_base:.2f} |")
+    lines.append("Peak memory (tracemalloc, one evaluation each):\n")
+    lines.append("| scenarios | layercalc [MiB] | kernel [MiB] | ratio | target | |")
+    lines.append("|---|---|---|---|---|---|")
+    for size, _, _, _, _, peak_l, peak_k in sweep_rows:
+        lines.append(f"| {size:,} | {peak_l / 2**20:.1f} | {peak_k / 2**20:.1f} | "
+                     f"{peak_l / peak_k:.2f} | <= 1.2 | {verdict(peak_l / peak_k, 1.2)} |")
+    lines.append("")
+
+    t_script, t_run, t_check, t_writer, t_dumps, t_load, t_loadtxt = table_times
+    lines.append(f"## A table of {BIG_LAYERS:,} layers\n")
+    lines.append(
+        "A `layers` table of 100,000 rows (p_bottom, p_top, T, div). `run` and `check` are "
+        "whole commands in a child process (the sympy unit check of the text reused from "
+        "an earlier check, as on any second use); the baseline is `python "
+        "benchmarks/kernels.py FILE` (`table_script`: numpy.loadtxt of the rows, the same "
+        "diagnostics, the same layer table formatted as text), also a whole process. The "
+        "JSON writer (the result document and its text, as `run --json` makes them) is "
+        "timed against `json.dumps` of the same document (compact, the C encoder); "
+        "`layercalc.load` (parse, build, check) against `numpy.loadtxt` of the rows.\n")
+    lines.append("| what | layercalc [s] | baseline [s] | ratio | target | |")
+    lines.append("|---|---|---|---|---|---|")
+    lines.append(f"| `layercalc run` vs the numpy script | {summary(t_run)} | "
+                 f"{summary(t_script)} | {ratio_cells(t_run, t_script, 2)} |")
+    lines.append(f"| `layercalc check` vs the numpy script | {summary(t_check)} | "
+                 f"{summary(t_script)} | {ratio_cells(t_check, t_script, 2.5)} |")
+    lines.append(f"| JSON writer vs `json.dumps` | {summary(t_writer)} | {summary(t_dumps)} | "
+                 f"{ratio_cells(t_writer, t_dumps, 1.5)} |")
+    middle, low, high = ratio(t_load, t_loadtxt)
+    lines.append(f"| `layercalc.load` vs `numpy.loadtxt` | {summary(t_load)} | "
+                 f"{summary(t_loadtxt)} | {middle:.2f} ({low:.2f}-{high:.2f}) | none | |")
+    lines.append("")
+
+    lines.append("## Start-up\n")
+    lines.append("What each command imported (of numpy, pandas, lark, sympy), how many times "
+                 "it compiled the sheet, and where its unit check came from (a fresh cache "
+                 "folder; `import` reads a workbook exported from the worked case):\n")
+    lines.append("| command | imported | compilations | unit check | target | |")
+    lines.append("|---|---|---|---|---|---|")
+    wanted = {
+        "help": ("no numpy", lambda i, c, u: "numpy" not in i),
+        "first check": ("one compilation, sympy", lambda i, c, u: c == "1" and u == "sympy"),
+        "second check": ("one compilation, reused", lambda i, c, u: c == "1" and u == "cache"),
+        "import": ("one compilation", lambda i, c, u: c == "1"),
+        "sweep": ("no pandas", lambda i, c, u: "pandas" not in i),
+    }
+    commands = {"help": "`layercalc --help`", "first check": "`layercalc check CASE` (first)",
+                "second check": "`layercalc check CASE` (again)",
+                "import": "`layercalc import case.xlsx -o back.layers`",
+                "sweep": "`layercalc sweep CASE --vary warming=0:6:1 --quiet`"}
+    for key, found in probes.items():
+        imported, compiled, source = found.rsplit(" ", 2)
+        target, test = wanted[key]
+        lines.append(f"| {commands[key]} | {imported} | {compiled} | {source} | {target} | "
+                     f"{'met' if test(imported, compiled, source) else 'NOT met'} |")
+    lines.append("")
+    lines.append("`layercalc run worked_cases/midlevel_warming.layers` against the floor "
+                 "`python -c \"import numpy, lark, sympy.physics.units\"` (what a first run "
+                 "cannot avoid importing), package byte-compiled as installed, 9 interleaved "
+                 "repetitions:\n")
+    lines.append("| command | CPU time [s] | ratio to the floor | target | |")
+    lines.append("|---|---|---|---|---|")
+    lines.append(f"| the floor | {summary(t_floor)} | 1.00 | | |")
+    lines.append(f"| first run: units checked by sympy (`LAYERCALC_NO_DIMENSION_CACHE=1`, or "
+                 f"a new text) | {summary(t_first)} | {ratio_cells(t_first, t_floor, 1.35)} |")
+    lines.append(f"| run again: the earlier sympy check reused | {summary(t_cached)} | "
+                 f"{ratio_cells(t_cached, t_floor, 0.5)} |")
     lines.append("")
     lines.append(f"The reused run printed {'the same' if same_output else 'DIFFERENT'} JSON "
                  "as the sympy-checked run (byte for byte).\n")
-    t_ens, t_hand, worst_ens, sigma_exact, sigma_mc, members, t_run = ensemble_benchmark()
+
+    t_ens, t_hand, worst_ens, sigma_exact, sigma_mc, members, t_run_ens = ensemble
+    lines.append("## Error ensemble\n")
     lines.append(f"Error ensemble of `worked_cases/three_stations.layers` ({members:,} members, "
                  "rounding of the reported winds; the layercalc time is the assessment of the "
                  "loaded case: the base evaluation, the exact propagation, the ensemble through "
                  "the evaluator (every column and cell), the percentiles of every cell and the "
                  "level of non-divergence; the hand kernel computes only the tendency, with the "
-                 "same draws):\n")
+                 "same draws; wall times, best of five):\n")
     lines.append("| layercalc ensemble [s] | hand numpy kernel [s] | ratio (target <= 2) "
                  "| `layercalc run` end to end [s] (target <= 1.5) | max rel. diff of the "
                  "tendency's 5/50/95 % points | tendency sigma exact / ensemble |")
     lines.append("|---|---|---|---|---|---|")
-    lines.append(f"| {t_ens:.3f} | {t_hand:.3f} | {t_ens / t_hand:.1f} | {t_run:.2f} | "
+    lines.append(f"| {t_ens:.3f} | {t_hand:.3f} | {t_ens / t_hand:.1f} | {t_run_ens:.2f} | "
                  f"{worst_ens:.1e} | {sigma_exact:.4g} / {sigma_mc:.4g} Pa/s |")
-    lines.append("")
-    from export_scaling import measure, table
-
-    lines.append("Workbook export (`layercalc export`, `benchmarks/export_scaling.py`): a "
-                 "made-up column of N layers with two scenarios; time of `write_workbook` "
-                 "(evaluation, layout, file), one run each (targets: 1,000 layers under 4 s, "
-                 "5,000 under 15 s):\n")
-    lines.append(table(measure()))
-    lines.append("")
-    lines.append("Times are the best of five runs (sweeps) or medians (cold start); the loop "
-                 "times a sample of scenarios one at a time through `Sheet.evaluate_many` "
-                 "and scales to the full count. Other processes on the machine add noise.")
     report = "\n".join(lines) + "\n"
     (ROOT / "benchmarks" / "RESULTS.md").write_text(report, encoding="utf-8")
     print(report)
