@@ -20,13 +20,15 @@ from layercalc.errors import (
 )
 from layercalc.version import __version__
 
-_FROM_API = ("Result", "Sheet", "load", "loads", "problems", "read_soundings", "soundings_text")
+_FROM_API = ("Result", "Sheet", "load", "loads", "problems", "read_soundings", "soundings_text",
+             "grid_column", "grid_evaluate")
 
 __all__ = [
     "CAUTION", "CycleError", "DefinitionError", "EvaluationError", "InputError",
     "LayercalcError", "LayercalcSyntaxError", "MessageError", "Notice", "OutputError",
     "Result", "Sheet", "SpreadsheetError", "UnitError", "UnknownNameError", "__version__",
-    "load", "loads", "problems", "read_soundings", "soundings_text",
+    "grid_column", "grid_evaluate", "load", "loads", "problems", "read_soundings",
+    "soundings_text",
 ]
 
 

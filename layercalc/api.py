@@ -93,6 +93,31 @@ def soundings_text(decoded) -> str:
     return soundings_layers_text(decoded)
 
 
+def grid_column(path: str | Path, points, time_index: int = 0) -> str:
+    """A `.layers` text of model columns from a CF-netCDF or GRIB file on pressure levels.
+
+    `points`: (name, latitude, longitude) tuples in degrees; one point gives a levels table,
+    three or more give station blocks and a levels table at their centroid with the model's
+    omega (`omega_model`). Needs the extra layercalc[grid] (netCDF) or layercalc[grib].
+    """
+    from layercalc.formats.grid import read_grid
+    from layercalc.formats.grid_layers import column_sheet
+
+    return column_sheet(read_grid(path), list(points), time_index)
+
+
+def grid_evaluate(path: str | Path, sheet_text: str = "", chunks: dict | None = None):
+    """The sheet (formulas, cells and options; no table) over every column of a gridded
+    file, as a lazy xarray Dataset (dask arrays; CF attributes). `chunks`: {"y": .., "x":
+    .., "time": ..} (default 128 x 128). Write it with `result.to_netcdf(...)` or compute
+    parts of it; `layercalc grid run` does both with a progress bar."""
+    from layercalc.evaluation.grid import evaluate_grid
+    from layercalc.formats.grid import read_grid
+
+    fields = read_grid(path, chunks=dict(chunks or {"y": 128, "x": 128, "time": 1}))
+    return evaluate_grid(fields, sheet_text, "<sheet>")
+
+
 @_quiet
 def problems(path_or_text: str | Path, *, is_text: bool = False) -> list[LayercalcError]:
     """Every problem found in a file (or text), without raising: for `layercalc check`.

@@ -19,7 +19,9 @@ from pathlib import Path
 from layercalc.errors import InputError, OutputError, UsageError
 
 SCHEDULER_VARIABLE = "LAYERCALC_SCHEDULER"
-DEFAULT_CHUNKS = {"y": 256, "x": 256, "time": 1}
+# Columns per block: memory grows with it, about 0.2 GB per 10,000 columns of 27 levels
+# per worker thread (benchmarks/RESULTS.md); 128 x 128 keeps two threads near 1 GB.
+DEFAULT_CHUNKS = {"y": 128, "x": 128, "time": 1}
 
 
 def add_grid_commands(sub, command) -> None:
@@ -66,7 +68,7 @@ def add_grid_commands(sub, command) -> None:
                      help="formulas, cells and options (no table) to evaluate per column")
     run.add_argument("--chunks", metavar="DIM=N,...", default=None,
                      help="block size along y, x (and time), e.g. y=200,x=200; bounds the "
-                          "memory (default y=256,x=256,time=1)")
+                          "memory (default y=128,x=128,time=1)")
     run.add_argument("--scheduler", metavar="ADDRESS", default=None,
                      help=f"a dask.distributed scheduler to run on (else ${SCHEDULER_VARIABLE}, "
                           "else threads on this machine)")

@@ -113,8 +113,9 @@ def output_names(user_text: str, levels, humidity: str | None, name: str = "<she
 def column_kernel(divergence, temperature, humidity_values, height, surface_pressure, *,
                   levels, user_text, humidity, name="<sheet>"):
     """The sheet for a block of columns: arrays (..., L) on levels and (...) for the surface
-    pressure, SI. Returns (columns (..., Q, L-1), cells (..., C), omega on levels (..., L),
-    lowest level of non-divergence (...))."""
+    pressure, SI. Returns one array per output: each column (..., L-1) in the order of
+    `output_names`, each cell (...), omega on the levels (..., L) and the lowest level of
+    non-divergence (...)."""
     from layercalc.evaluation.engine import Environment
     from layercalc.language.typed import COLUMN
 
@@ -169,24 +170,37 @@ def column_kernel(divergence, temperature, humidity_values, height, surface_pres
         for formula in checked.formulas:
             value = np.asarray(env.run(formula.expr), dtype=float)
             if formula.kind == COLUMN:
-                columns[formula.name] = np.broadcast_to(value, (count, checked.layer_count))
+                shape = (count, checked.layer_count)
+                columns[formula.name] = value if value.shape == shape else \
+                    np.broadcast_to(value, shape)
             else:
                 cells[formula.name] = np.broadcast_to(value.reshape(-1, 1), (count, 1))
-    column_out = np.stack([np.where(layer_ok, columns[n], np.nan) for n in column_names],
-                          axis=1)
-    cell_out = np.stack([np.where(column_ok, cells[n][:, 0], np.nan) for n in cell_names],
-                        axis=1) if cell_names else np.zeros((count, 0))
 
     # 4. omega on the levels and the lowest level of non-divergence
     omega_levels = np.full((count, nlev), np.nan)
     if "omega_bottom" in columns:
         omega_levels[:, :-1] = columns["omega_bottom"]
         omega_levels[:, -1] = columns["omega_top"][:, -1]
-        omega_levels = np.where(valid, omega_levels, np.nan)
-    nondivergence = _lowest_nondivergence(columns, layer_ok)
-    return (column_out.reshape(*lead, len(column_names), nlev - 1),
-            cell_out.reshape(*lead, len(cell_names)),
-            omega_levels.reshape(*lead, nlev), nondivergence.reshape(lead))
+        omega_levels[~valid] = np.nan
+    with np.errstate(all="ignore"):
+        nondivergence = _lowest_nondivergence(columns, layer_ok)
+
+    # 5. every output its own contiguous array, masked in place where the kernel owns it;
+    # cells first, as copies: a cell may be a view into a column (lowest_layer(omega_bottom))
+    cell_out = [_masked(cells[n][:, 0], column_ok).reshape(lead) for n in cell_names]
+    layer_out = [_masked(columns[n], layer_ok).reshape(*lead, nlev - 1) for n in column_names]
+    return (*layer_out, *cell_out, omega_levels.reshape(*lead, nlev),
+            nondivergence.reshape(lead))
+
+
+def _masked(array, keep):
+    """`array` with nan where not `keep`: in place when it is a writeable array of its own
+    (an output of this block's formulas), else in a copy."""
+    if not (array.flags.writeable and array.flags.c_contiguous and array.base is None
+            and array.shape == keep.shape):
+        array = np.array(np.broadcast_to(array, keep.shape), dtype=float)
+    np.copyto(array, np.nan, where=~keep)
+    return array
 
 
 def _lowest_nondivergence(columns, layer_ok):
@@ -216,6 +230,10 @@ def grid_divergence(fields):
     u, v = dataset["u"], dataset["v"]
     if not isinstance(u.data, da.Array):
         u, v = u.chunk(), v.chunk()
+    # a last block of one or two rows (721 rows in chunks of 360) joins the one before: the
+    # one-sided differences at an edge need three points
+    merged = {dim: merge_small(u.chunks[u.dims.index(dim)]) for dim in ("y", "x")}
+    u, v = u.chunk(merged), v.chunk(merged)
     ny, nx = u.sizes["y"], u.sizes["x"]
     yx_chunks = (u.chunks[u.dims.index("y")], u.chunks[u.dims.index("x")])
     lead = u.ndim - 2
@@ -262,6 +280,14 @@ def grid_divergence(fields):
             neighbour = row + 1 if row + 1 < latitude.size else row - 1
             div = xr.where(is_row == row, _cap(v, latitude, row, neighbour, radius), div)
     return div.transpose(*u.dims)
+
+
+def merge_small(chunks: tuple) -> tuple:
+    """Block sizes with a last block below 3 merged into the one before it."""
+    chunks = list(chunks)
+    if len(chunks) > 1 and chunks[-1] < 3:
+        chunks[-2] += chunks.pop()
+    return tuple(chunks)
 
 
 def _cap(v, latitude, row, neighbour, radius):
@@ -335,23 +361,24 @@ def evaluate_grid(fields, user_text: str = "", sheet_name: str = "<sheet>"):
         _kernel_for_ufunc, levels=tuple(levels.tolist()), user_text=user_text,
         humidity=humidity, name=sheet_name, has_height="z" in dataset)
     layer_count = levels.size - 1
-    chunked = [a.chunk({"level": -1}) for a in (divergence, temperature, hum, height)]
+    blocks = {"y": divergence.chunksizes["y"], "x": divergence.chunksizes["x"]}
+    chunked = [a.chunk({"level": -1, **blocks}) for a in (divergence, temperature, hum, height)]
+    surface = surface.chunk(blocks)
+    count_columns, count_cells = len(column_names), len(cell_names)
     outputs = xr.apply_ufunc(
         kernel, *chunked, surface,
         input_core_dims=[["level"]] * 4 + [[]],
-        output_core_dims=[["quantity", "layer"], ["cell"], ["level"], []],
-        dask="parallelized", output_dtypes=[float] * 4,
-        dask_gufunc_kwargs={"output_sizes": {"quantity": len(column_names),
-                                             "layer": layer_count, "cell": len(cell_names)},
-                            "allow_rechunk": False})
-    layer_block, cell_block, omega_levels, nondivergence = outputs
+        output_core_dims=[["layer"]] * count_columns + [[]] * count_cells + [["level"], []],
+        dask="parallelized", output_dtypes=[float] * (count_columns + count_cells + 2),
+        dask_gufunc_kwargs={"output_sizes": {"layer": layer_count}, "allow_rechunk": False})
+    omega_levels, nondivergence = outputs[-2:]
     lead = [d for d in divergence.dims if d not in ("level", "y", "x")]
     out = {}
-    for index, name in enumerate(column_names):
-        out[name] = layer_block.isel(quantity=index).transpose(*lead, "layer", "y", "x")
+    for name, array in zip(column_names, outputs[:count_columns]):
+        out[name] = array.transpose(*lead, "layer", "y", "x")
         out[name].attrs = _attrs(name, checked, "column")
-    for index, name in enumerate(cell_names):
-        out[name] = cell_block.isel(cell=index).transpose(*lead, "y", "x")
+    for name, array in zip(cell_names, outputs[count_columns:count_columns + count_cells]):
+        out[name] = array.transpose(*lead, "y", "x")
         out[name].attrs = _attrs(name, checked, "cell")
     out["divergence"] = divergence.transpose(*lead, "level", "y", "x").assign_attrs(
         units="s-1", long_name="horizontal divergence on the pressure levels",
@@ -390,6 +417,7 @@ def evaluate_grid(fields, user_text: str = "", sheet_name: str = "<sheet>"):
         "options": "; ".join(f"{k} = {v}" for k, v in sorted(checked.options.items())) or
                    "integrate = from_top; adjust = none",
         "reading_notes": "; ".join(getattr(fields, "notes", ())),
+        "valid_time": dataset.attrs.get("valid_time", "as the time coordinate says"),
         "sheet_notes": "; ".join(checked.remarks),
     }
     return result

@@ -306,9 +306,13 @@ def interpret_datasets(datasets: dict, name: str, kind: str,
     if "ps" not in converted:
         notes.append("no surface pressure: no level is dropped as below ground")
     result = xr.Dataset(converted)
+    valid = next((result[c] for c in ("valid_time", "time") if c in result.coords
+                  and result[c].ndim == 0), None)
     for extra in ("time", "step", "valid_time"):
         if extra in result.coords and result[extra].ndim == 0:
             result = result.drop_vars(extra)
+    if valid is not None:        # one time: kept as text (ISO 8601, UTC as the file gives it)
+        result.attrs["valid_time"] = str(np.datetime_as_string(valid.values, unit="m"))
     result = result.assign_coords(latitude=(("y", "x"), geometry.latitude_2d()),
                                   longitude=(("y", "x"), geometry.longitude_2d()))
     return GriddedFields(result, geometry, name, humidity, tuple(notes))

@@ -141,8 +141,9 @@ def layers_text(fields, columns: list[PointColumn], centroid: PointColumn | None
     else:
         lines.append(f'title "{len(columns)} model columns and their centroid '
                      f'({fields.source})"')
-    lines.append(f'note "Interpolated bilinearly from the model grid of {fields.source}; '
-                 f'model values, not observations."')
+    valid = fields.dataset.attrs.get("valid_time")
+    lines.append(f'note "Interpolated bilinearly from the model grid of {fields.source}'
+                 f'{f", valid {valid} UTC" if valid else ""}; model values, not observations."')
     for note in fields.notes:
         lines.append(f'note "Reading the file: {note}."')
     if dropped:
