@@ -19,7 +19,7 @@ from pathlib import Path
 from layercalc.errors import InputError, OutputError, UsageError
 
 SCHEDULER_VARIABLE = "LAYERCALC_SCHEDULER"
-# Columns per block: memory grows with it, about 0.2 GB per 10,000 columns of 27 levels
+# Columns per block: memory grows with it, about 0.15 GB per 10,000 columns of 27 levels
 # per worker thread (benchmarks/RESULTS.md); 128 x 128 keeps two threads near 1 GB.
 DEFAULT_CHUNKS = {"y": 128, "x": 128, "time": 1}
 
