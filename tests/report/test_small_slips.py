@@ -75,8 +75,10 @@ def test_ascent_is_the_most_negative_omega_in_json():
 
 
 def test_csv_numbers_carry_no_float_noise_and_no_negative_zero():
-    # 0.36 hPa/h at 850 hPa: omega = 0 - (-1e-5 * 15000 Pa) ... summed in float64 it is
-    # 0.359999999999999 (the noise this test is about); -0.0 arises as 0 * negative
+    # omega at 850 hPa, integrated down from omega = 0 at 500 hPa (continuity in pressure
+    # coordinates, common practice): -(0.4e-5 * 20000) - (-0.6e-5 * 15000) = 0.01 Pa/s
+    # = 0.36 hPa/h, which float64 sums give as 0.359999999999999 (the noise this test is
+    # about); -0.0 arises as -0 * a positive depth
     sheet = layercalc.loads(TABLE + "column minus_zero = -0 * dp\n")
     text = layer_table_csv(sheet.evaluate())
     assert "0000000000" not in text and "9999999999" not in text
