@@ -27,10 +27,9 @@ import numpy as np
 from layercalc.constants import G0, RD
 from layercalc.errors import DefinitionError
 from layercalc.physics import ensembles as ens, error_models as err, uncertainty as unc
+from layercalc.evaluation.network_errors import network_chain, network_members, network_of, \
+    residual, sensitivity
 from layercalc.physics.kinematic import nondivergence_levels
-from layercalc.physics.stations import rotate_wind_to_plane, spherical_centroid, \
-    tangent_plane_coordinates
-from layercalc.physics.winds import wind_direction_and_speed
 
 # Reserved input cells of the error model: name -> (expected unit, SI default or None).
 MODEL_CELLS = {
@@ -55,6 +54,8 @@ LARGEST_TEMPERATURE_ERROR = 50.0
 # Thermodynamic errors: cell -> the input column it perturbs.
 THERMAL_COLUMNS = {"T_error": "T", "Td_error": "Td"}
 MAXIMUM_MEMBERS = 1_000_000
+# Columns whose 5-95 % range the plot draws.
+RANGED = ("omega_bottom", "omega_top", "div_adjusted")
 # Cells and columns that are linear in the divergence (exact sigma by propagation).
 LINEAR_CELLS = ("surface_pressure_tendency", "omega_surface", "net_mass_divergence",
                 "column_mean_divergence", "top_mismatch")
@@ -87,19 +88,6 @@ class ErrorModel:
 
 
 @dataclass
-class Network:
-    """Station winds as the fit saw them (SI), levels surface first."""
-
-    names: list
-    latitudes: np.ndarray
-    longitudes: np.ndarray
-    pressure: np.ndarray
-    u: np.ndarray            # (levels, n), NaN missing
-    v: np.ndarray
-    reported: bool           # True: direction and speed (rounding applies)
-
-
-@dataclass
 class Assessment:
     """Uncertainty of one variant. Sigmas SI; ``cells`` name -> EnsembleSummary-like dict."""
 
@@ -113,9 +101,19 @@ class Assessment:
     residual_tendency_sigma: float | None = None
     sensitivity: list = field(default_factory=list)      # (what, change, effect) SI
     linear: dict = field(default_factory=dict)           # name -> exact sigma
-    ranges: dict = field(default_factory=dict)           # column -> (p05, p95) per layer
+    members_of: dict = field(default_factory=dict, repr=False)  # RANGED column -> members
     method: str = ""
     hydrostatic: list = field(default_factory=list)      # (sounding, sigma per layer, table)
+    _ranges: dict | None = field(default=None, repr=False)
+
+    @property
+    def ranges(self) -> dict:
+        """RANGED column -> (p05, p95) per layer, from the ensemble; computed on first use
+        (only the plot draws them, so the report and JSON do not pay for them)."""
+        if self._ranges is None:
+            self._ranges = {name: tuple(ens.percentiles(values, [5.0, 95.0], axis=0))
+                            for name, values in self.members_of.items()}
+        return self._ranges
 
 
 def error_model(checked, cells: dict | None = None) -> ErrorModel:
@@ -170,21 +168,6 @@ def _check_ranges(checked, values) -> None:
         fail("seed", "must be a whole number, 0 or more", "any fixed number, e.g. 1")
 
 
-def network_of(checked) -> Network | None:
-    details = checked.soundings
-    given = getattr(details, "network", None) if details is not None else None
-    if given is None:
-        return None
-    stations = given.stations
-    return Network([s.name for s in stations],
-                   np.array([s.latitude for s in stations]),
-                   np.array([s.longitude for s in stations]),
-                   np.asarray(given.levels.pressure, dtype=float),
-                   np.stack([np.asarray(s.u, dtype=float) for s in stations], axis=-1),
-                   np.stack([np.asarray(s.v, dtype=float) for s in stations], axis=-1),
-                   all(s.reported == "direction and speed" for s in stations))
-
-
 def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) -> Assessment | None:
     """Uncertainty of one variant.
 
@@ -212,9 +195,9 @@ def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) ->
     members = model.members
     chain, layer_cov, inputs, linear = None, None, dict(columns), {}
     if network is not None:
-        chain = _network_chain(network, model)
+        chain = network_chain(network, model)
         layer_cov = chain["to_layers"] @ chain["covariance"] @ chain["to_layers"].T
-        perturbation = _network_members(network, model, chain, rng, members)
+        perturbation = network_members(network, model, chain, rng, members)
     elif has_div and model.div_error is not None:
         layer_cov = err.layer_divergence_covariance(np.full(layer_count, model.div_error),
                                                     model.level_correlation)
@@ -237,24 +220,15 @@ def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) ->
     ensemble = evaluate(compiled, inputs, cells)
     if thermal and "terrain_term" not in ensemble.cells and "omega_surface" in linear:
         linear["surface_pressure_tendency"] = linear["omega_surface"]
-    summaries = {}
-    for name, values in ensemble.cells.items():
-        if values.shape[0] == members:
-            s = ens.ensemble_summary(values[:, 0])
-            summaries[name] = {"sigma": float(linear.get(name, s.sigma)), "p05": float(s.p05),
-                               "p50": float(s.p50), "p95": float(s.p95)}
-    layers, ranges = {}, {}
-    for name, values in ensemble.columns.items():
-        if values.shape[0] == members:
-            sigma = np.std(values, axis=0, ddof=1)
-            layers[name] = np.asarray(linear.get(name, sigma), dtype=float)
-            if name in ("omega_bottom", "omega_top", "div_adjusted"):
-                ranges[name] = tuple(np.percentile(values, [5.0, 95.0], axis=0))
+    summaries, layers = _spread(ensemble, members, linear)
     tendency = ensemble.cells.get("surface_pressure_tendency")
     falling = None if tendency is None or tendency.shape[0] != members else \
         float(ens.probability_below(tendency[:, 0]))
     assessment = Assessment(model, summaries, falling, layers, None, linear=linear,
-                            ranges=ranges, method=f"{members} members, seed {model.seed}")
+                            members_of={n: ensemble.columns[n] for n in RANGED
+                                        if ensemble.columns.get(n, np.empty((1, 0))).shape[0]
+                                        == members},
+                            method=f"{members} members, seed {model.seed}")
     if ensemble.columns.get("div_adjusted", np.empty((1, 0))).shape[0] == members:
         assessment.nondivergence = _nondivergence(base_columns, ensemble.columns["div_adjusted"])
     assessment.hydrostatic = hydrostatic
@@ -262,11 +236,33 @@ def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) ->
         assessment.levels = {"divergence": chain["level_sigma"][0],
                              "vorticity": chain["level_sigma"][1]}
         row = omega[0] @ chain["to_layers"]
-        assessment.sensitivity = _sensitivity(network, model, row)
+        assessment.sensitivity = sensitivity(network, model, row)
         if network.latitudes.size > 3:
             assessment.residual_sigma, assessment.residual_tendency_sigma = \
-                _residual(network, chain, row)
+                residual(network, chain, row)
     return assessment
+
+
+def _spread(ensemble, members: int, linear: dict) -> tuple[dict, dict]:
+    """Cell summaries (sigma, 5, 50, 95 %) and layer sigmas of an ensemble.
+
+    The percentiles of every varying cell come from one stacked array (rows contiguous,
+    one partition each); standard deviations (ddof 1) are computed only where no exact
+    sigma is known, so the linear results cost no pass over the members.
+    """
+    cells = [n for n, v in ensemble.cells.items() if v.shape[0] == members]
+    summaries = {}
+    if cells:
+        stack = np.stack([ensemble.cells[n][:, 0] for n in cells])
+        p05, p50, p95 = ens.percentiles(stack, [5.0, 50.0, 95.0], axis=1)
+        for i, name in enumerate(cells):
+            sigma = linear[name] if name in linear else np.std(stack[i], ddof=1)
+            summaries[name] = {"sigma": float(sigma), "p05": float(p05[i]),
+                               "p50": float(p50[i]), "p95": float(p95[i])}
+    layers = {name: np.asarray(linear[name] if name in linear else
+                               np.std(values, axis=0, ddof=1), dtype=float)
+              for name, values in ensemble.columns.items() if values.shape[0] == members}
+    return summaries, layers
 
 
 def _thermal_matrices(checked, model: ErrorModel) -> dict:
@@ -297,67 +293,6 @@ def _hydrostatic(checked, model: ErrorModel) -> list:
     return [(table.sounding, err.hydrostatic_difference_sigma(
         table.p_bottom, table.p_top, table.tv_per_temperature, table.tv_per_dewpoint,
         *errors), table) for table in details.hydrostatic]
-
-
-def _network_chain(network: Network, model: ErrorModel) -> dict:
-    """Matrices from flat winds (levels, 2, n) to level and layer divergence, and the
-    input covariance (rounding floor plus the declared error)."""
-    levels, n = network.u.shape
-    valid = np.isfinite(network.u) & np.isfinite(network.v)
-    rows = unc.divergence_vorticity_matrix(
-        unc.station_fit_matrix(network.latitudes, network.longitudes, valid))
-    fitted = np.isfinite(rows).all(axis=(-1, -2))
-    rows = np.where(np.isfinite(rows), rows, 0.0)
-    covariance = np.zeros((levels * 2 * n,) * 2)
-    if network.reported:
-        direction, speed = wind_direction_and_speed(network.u, network.v)
-        rounding = np.nan_to_num(err.rounding_component_covariance(  # missing winds: 0
-            direction, speed, np.rad2deg(model.direction_step), model.speed_step))
-        grid = covariance.reshape(levels, 2, n, levels, 2, n)
-        level, station = np.meshgrid(np.arange(levels), np.arange(n), indexing="ij")
-        for c in range(2):
-            for d in range(2):
-                grid[level, c, station, level, d, station] = rounding[..., c, d]
-    if model.wind_error is not None:
-        sigma = err.wind_error_sigma(network.pressure, model.wind_error,
-                                     model.wind_error_growth)
-        grid_sigma = np.broadcast_to(sigma[:, None], (levels, n))
-        covariance = covariance + err.wind_error_covariance(grid_sigma, grid_sigma,
-                                                            model.level_correlation)
-    valid_flat = np.repeat(valid[:, None, :], 2, axis=1).reshape(-1)
-    covariance = covariance * np.outer(valid_flat, valid_flat)
-    divergence_rows = unc.block_diagonal(rows[:, 0:1])
-    vorticity_rows = unc.block_diagonal(rows[:, 1:2])
-    level_sigma = [np.sqrt(np.diag(unc.propagate_covariance(m, covariance)))
-                   for m in (divergence_rows, vorticity_rows)]
-    level_sigma[0] = np.where(fitted, level_sigma[0], np.nan)
-    level_sigma[1] = np.where(fitted, level_sigma[1], np.nan)
-    to_layers = (unc.layer_mean_matrix(levels) @ unc.gap_fill_matrix(network.pressure, fitted)
-                 @ divergence_rows)
-    return {"rows": rows, "valid": valid, "covariance": covariance, "to_layers": to_layers,
-            "level_sigma": level_sigma, "divergence_rows": divergence_rows}
-
-
-def _network_members(network, model, chain, rng, members) -> np.ndarray:
-    """Layer divergence perturbations (members, L): rounding of the reports (exact, not
-    linearised) plus the declared Gaussian error, through the linear fit."""
-    levels, n = network.u.shape
-    u = np.where(chain["valid"], network.u, 0.0)
-    v = np.where(chain["valid"], network.v, 0.0)
-    delta = np.zeros((members, levels, 2, n))
-    if network.reported:
-        direction, speed = wind_direction_and_speed(u, v)
-        du, dv = ens.perturb_reported_winds(rng, members, direction, speed,
-                                            np.rad2deg(model.direction_step), model.speed_step)
-        delta[:, :, 0], delta[:, :, 1] = du - u, dv - v
-    if model.wind_error is not None:
-        sigma = err.wind_error_sigma(network.pressure, model.wind_error,
-                                     model.wind_error_growth)
-        delta += ens.draw_correlated_gaussian(
-            rng, members, np.broadcast_to(sigma[:, None, None], (levels, 2, n)),
-            model.level_correlation)
-    delta *= chain["valid"][None, :, None, :]
-    return delta.reshape(members, -1) @ chain["to_layers"].T
 
 
 def _linear_sigmas(columns, dp, omega, adjusted, layer_cov, integrate) -> dict:
@@ -397,50 +332,9 @@ def _nondivergence(columns, members_div) -> list:
         nearest = np.take_along_axis(crossing_log_p, np.nanargmin(
             np.where(np.isfinite(distance), distance, np.inf), axis=1)[:, None], axis=1)[:, 0]
         found = np.exp(nearest[has])
-        p05, p50, p95 = np.percentile(found, [5, 50, 95]) if found.size else (np.nan,) * 3
+        p05, p50, p95 = ens.percentiles(found, [5, 50, 95]) if found.size else (np.nan,) * 3
         out.append((level, float(p05), float(p50), float(p95), float(has.mean())))
     return out
-
-
-def _sensitivity(network, model, row) -> list:
-    """The tendency's change for one reporting step of each wind, largest first."""
-    levels, n = network.u.shape
-    per_wind = row.reshape(levels, 2, n)
-    out = []
-    if network.reported:
-        direction, speed = wind_direction_and_speed(network.u, network.v)
-        jacobian = err.wind_component_jacobian(direction, speed)
-        effect = np.einsum("lcs,lscj->lsj", per_wind, np.nan_to_num(jacobian))
-        for (label, j, step) in (("direction", 0, model.direction_step),
-                                 ("speed", 1, model.speed_step)):
-            for level in range(levels):
-                for s in range(n):
-                    out.append((f"{label} at {network.pressure[level] / 100:g} hPa, "
-                                f"{network.names[s]}", label, step,
-                                float(effect[level, s, j] * step)))
-    if model.wind_error is not None:
-        sigma = err.wind_error_sigma(network.pressure, model.wind_error,
-                                     model.wind_error_growth)
-        for level in range(levels):
-            for s in range(n):
-                for c, name in enumerate(("u", "v")):
-                    out.append((f"{name} at {network.pressure[level] / 100:g} hPa, "
-                                f"{network.names[s]}", name, float(sigma[level]),
-                                float(per_wind[level, c, s] * sigma[level])))
-    ranked = err.rank_sensitivity(np.array([o[3] for o in out]), 1.0)
-    return [out[i] for i in ranked.order[:8]]
-
-
-def _residual(network, chain, row):
-    """Misfit estimate of the wind error per level and the tendency sigma it implies."""
-    centre = spherical_centroid(network.latitudes, network.longitudes)
-    x, y, north = tangent_plane_coordinates(network.latitudes, network.longitudes, *centre)
-    u, v = rotate_wind_to_plane(network.u, network.v, north)
-    sigma = err.residual_wind_sigma(x, y, u, v)
-    levels, n = network.u.shape
-    grid = np.broadcast_to(np.nan_to_num(sigma)[:, None], (levels, n))
-    covariance = err.wind_error_covariance(grid, grid, 0.0)
-    return sigma, float(np.sqrt(row @ covariance @ row))
 
 
 def assess_sheet(sheet, scenario: str | None = None) -> Assessment | None:

@@ -53,7 +53,20 @@ def written_unit(node) -> U.Unit:
     return U.Unit(unit.dimension, unit.scale, unit.offset, text or unit.text)
 
 
+# Units already read from text, per unit table ("sympy" or "cache"): the same few texts
+# (hPa, degC, 1e-5 s^-1) are read dozens of times per sheet, each a parse by lark. Only
+# successes are kept; a Unit is frozen, and its value does not depend on `where`.
+_READ: dict[tuple[str, str], U.Unit] = {}
+
+
 def parse_unit_string(text: str, where: str = "<unit>") -> U.Unit:
     """A unit given as text (workbook headers, command-line options)."""
+    table = U.source()
+    if table is not None and (table, text) in _READ:
+        return _READ[table, text]
     source = Source(where, text)
-    return written_unit(build_unit(source, parse_unit_text(source)))
+    unit = written_unit(build_unit(source, parse_unit_text(source)))
+    table = U.source()  # reading the unit may have chosen the table
+    if table is not None:
+        _READ[table, text] = unit
+    return unit

@@ -16,7 +16,7 @@ from .winds import wind_components
 
 __all__ = [
     "NORMAL_QUANTILE_95", "EnsembleSummary", "draw_correlated_gaussian", "draw_uniform",
-    "perturb_reported_winds", "ensemble_summary", "probability_below",
+    "perturb_reported_winds", "percentiles", "ensemble_summary", "probability_below",
     "normal_probability_below",
 ]
 
@@ -96,10 +96,48 @@ def perturb_reported_winds(generator, members, direction_from, speed,
     return wind_components(direction, perturbed)
 
 
+def percentiles(samples, q, axis=0):
+    """Percentiles by linear interpolation between order statistics (numpy's default).
+
+    With n samples sorted, x_(0) <= ... <= x_(n-1), the q % point is at the virtual index
+    h = (n - 1) q / 100: x_(floor h) + (h - floor h) (x_(floor h + 1) - x_(floor h)),
+    method 7 of Hyndman and Fan (1996, Am. Stat. 50, 361-365; from memory), evaluated
+    as numpy.percentile evaluates it (the same numbers to the last bit, tested), from one
+    partition at the few order statistics needed instead of a sort. Written here so that
+    a run does not import numpy.ma, which numpy.percentile pulls in (about 0.05 s).
+
+    Parameters
+    ----------
+    samples : array_like
+        Finite values; the member axis is ``axis``.
+    q : sequence of float
+        Percentages, 0 to 100.
+    axis : int, optional
+
+    Returns
+    -------
+    numpy.ndarray, shape (len(q), *samples.shape without axis)
+    """
+    samples = np.moveaxis(np.asarray(samples, dtype=float), axis, -1)
+    n = samples.shape[-1]
+    virtual = (n - 1) * (np.asarray(q, dtype=float) / 100.0)
+    below = np.floor(virtual).astype(np.intp)
+    above = np.minimum(below + 1, n - 1)
+    gamma = virtual - below
+    needed = sorted({int(k) for k in (*below, *above)})  # not np.unique: it imports numpy.ma
+    ordered = np.partition(samples, needed, axis=-1)
+    low = np.moveaxis(ordered[..., below], -1, 0)
+    high = np.moveaxis(ordered[..., above], -1, 0)
+    gamma = gamma.reshape((-1,) + (1,) * (low.ndim - 1))
+    difference = high - low
+    # numpy's _lerp: a + d t below t = 0.5, b - d (1 - t) from there (exact at both ends)
+    return np.where(gamma >= 0.5, high - difference * (1.0 - gamma), low + difference * gamma)
+
+
 def ensemble_summary(samples, axis=0):
     """Standard deviation (ddof 1) and the 5, 50 and 95 % points along the member axis."""
     samples = np.asarray(samples, dtype=float)
-    p05, p50, p95 = np.percentile(samples, [5.0, 50.0, 95.0], axis=axis)
+    p05, p50, p95 = percentiles(samples, [5.0, 50.0, 95.0], axis=axis)
     return EnsembleSummary(np.std(samples, axis=axis, ddof=1), p05, p50, p95)
 
 

@@ -130,3 +130,23 @@ def test_a_missing_wind_leaves_finite_sigmas_through_the_gap_fill():
     assert np.all(np.isfinite(assessment.layers["omega_top"]))
     assert np.isnan(assessment.levels["divergence"][2])
     assert np.isfinite(np.delete(assessment.levels["divergence"], 2)).all()
+
+
+def test_a_run_with_an_ensemble_does_not_import_numpy_ma(tmp_path):
+    # source: common practice, no source; numpy.percentile and numpy.unique import
+    # numpy.ma (about 0.05 s of a cold start), so the ensemble avoids both
+    import os
+    import subprocess
+    import sys
+
+    from tests.helpers import PACKAGE_ROOT
+
+    script = ("import sys, io, contextlib\nfrom layercalc.cli.main import main\n"
+              "with contextlib.redirect_stdout(io.StringIO()):\n"
+              f"    main(['run', {str(CASES / 'three_stations.layers')!r}])\n"
+              "print('numpy.ma' in sys.modules)\n")
+    found = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True,
+                           env={**os.environ, "PYTHONPATH": str(PACKAGE_ROOT)},
+                           cwd=tmp_path, timeout=300)
+    assert found.returncode == 0, found.stderr
+    assert found.stdout.strip() == "False"

@@ -424,3 +424,16 @@ def test_wind_error_models():
     assert_allclose(grid[0, 0, 0, 2, 0, 0], 0.4**2, rtol=1e-15)           # u, 0 vs 2
     assert grid[0, 0, 0, 0, 1, 0] == 0.0 and grid[0, 0, 0, 0, 0, 1] == 0.0
     assert np.all(np.linalg.eigvalsh(covariance) > 0)
+
+
+@pytest.mark.parametrize("shape, axis", [((10000,), 0), ((36, 10000), 1), ((10000, 8), 0),
+                                         ((7,), 0), ((1,), 0), ((200, 3), 0)])
+def test_percentiles_equal_numpy_percentile_to_the_last_bit(shape, axis):
+    # source: numpy (independent library, the version in the venv, 2.x)
+    # numpy.percentile(method="linear"); ours partitions at the needed order statistics only
+    from layercalc.physics.ensembles import percentiles
+
+    samples = np.random.default_rng(2).standard_normal(shape) * 1e-3
+    q = [5.0, 50.0, 95.0]
+    assert np.array_equal(percentiles(samples, q, axis=axis),
+                          np.percentile(samples, q, axis=axis))
