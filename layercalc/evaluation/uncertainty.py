@@ -240,7 +240,23 @@ def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) ->
         if network.latitudes.size > 3:
             assessment.residual_sigma, assessment.residual_tendency_sigma = \
                 residual(network, chain, row)
+    elif layer_cov is not None:
+        assessment.sensitivity = _divergence_sensitivity(base_columns, omega[0], model)
     return assessment
+
+
+def _divergence_sensitivity(columns, row, model) -> list:
+    """Which layer's divergence error moves the tendency most: d(tendency)/d(div_k) (the
+    surface row of the omega matrix) times that layer's sigma, largest first, with each
+    layer's share of the tendency variance when the layers are independent. Layers that
+    do not reach the tendency (integration from the surface) are left out."""
+    sigma = np.full(row.shape, model.div_error)
+    ranked = err.rank_sensitivity(row, sigma)
+    independent = model.level_correlation == 0.0
+    return [(f"div of {columns['p_bottom'][k] / 100:g}-{columns['p_top'][k] / 100:g} hPa",
+             "div", float(sigma[k]), float(ranked.per_sigma[k]),
+             float(ranked.share[k]) if independent else None)
+            for k in ranked.order[:8] if ranked.per_sigma[k] != 0.0]
 
 
 def _spread(ensemble, members: int, linear: dict) -> tuple[dict, dict]:

@@ -67,6 +67,7 @@ def render_comparison(sheet, names: list[str], system: str = "trade") -> str:
 
     columns = [TableColumn(name, "", [cell(q, name) for q in quantities]) for name in names]
     lines += table_lines("quantity", "", labels, columns, width=WIDTH - 1)
+    lines += trust_lines(sheet, names, system)
     notices = sheet.check()  # the sheet's, every scenario's, and results beyond air's
     if notices:
         lines += ["", "Warnings"]
@@ -83,3 +84,51 @@ def _comparison_number(value: float, unit_text: str, system: str) -> str:
     if decimals is None:
         decimals = auto_decimals([value])
     return f"{value:.3e}" if decimals is None else fixed(value, decimals)
+
+
+def trust_lines(sheet, names: list[str], system: str = "trade") -> list[str]:
+    """How far to trust the tendency in each variant with an error model: value +- 1 sigma
+    (exact), the ensemble's 5-95 % range, the chance of a fall and whether the sign is
+    determined (the 5-95 % range does not span zero); [] when no variant has one."""
+    from layercalc.evaluation.uncertainty import assess_sheet
+    from layercalc.language.unit_text import parse_unit_string
+
+    unit_text = "hPa/(3 h)" if system != "si" else "Pa/s"
+    unit = parse_unit_string(unit_text)
+    decimals = 2 if system != "si" else None
+    found = {}
+    for name in names:
+        assessment = assess_sheet(sheet, name)
+        if assessment is not None and "surface_pressure_tendency" in assessment.cells:
+            value = sheet.evaluate(name).si_cells["surface_pressure_tendency"]
+            found[name] = (value, assessment)
+    if not found:
+        return []
+
+    def number(value_si: float, signed: bool = False) -> str:
+        value = float(unit.from_si(value_si))
+        text = f"{value:.3e}" if decimals is None else fixed(value, decimals)
+        return "+" + text if signed and not text.startswith("-") and not is_zero(text) else text
+
+    rows = {"value +- 1 sigma": [], "5-95 % range": [], "chance it falls": [], "sign": []}
+    for name in names:
+        if name not in found:
+            for row in rows.values():
+                row.append("-")
+            continue
+        value, assessment = found[name]
+        spread = assessment.cells["surface_pressure_tendency"]
+        rows["value +- 1 sigma"].append(f"{number(value, True)} +- {number(spread['sigma'])}")
+        rows["5-95 % range"].append(f"{number(spread['p05'], True)} to "
+                                    f"{number(spread['p95'], True)}")
+        falling = assessment.probability_falling
+        rows["chance it falls"].append("-" if falling is None else f"{100 * falling:.0f} %")
+        rows["sign"].append("falling" if spread["p95"] < 0 else "rising" if spread["p05"] > 0
+                            else "not determined")
+    columns = [TableColumn(name, "", [rows[r][i] for r in rows]) for i, name in enumerate(names)]
+    return ["", *wrap(f"How far to trust the pressure tendency [{unit_words(unit_text)}]: "
+                      "value +- 1 sigma from each variant's error model, the 5-95 % range "
+                      "and the chance of a fall from its ensemble; the sign is determined "
+                      "only when the 5-95 % range does not span zero."), "",
+            *table_lines("tendency", "", list(rows), columns, width=WIDTH - 1)]
+

@@ -196,16 +196,25 @@ def _sensitivity(report, assessment) -> list[str]:
 
     if not assessment.sensitivity:
         return []
-    out = ["", "  what moves the tendency most: the wind whose error of one step (or one sigma)",
-           "  changes it most"]
-    for label, kind, step, effect in assessment.sensitivity[:6]:
+    if assessment.sensitivity[0][1] == "div":
+        out = ["", "  what moves the tendency most: the layer whose divergence error of one "
+                   "sigma", "  changes it most (from the linear map)"]
+    else:
+        out = ["", "  what moves the tendency most: the wind whose error of one step (or one "
+                   "sigma)", "  changes it most"]
+    for label, kind, step, effect, *share in assessment.sensitivity[:6]:
         if kind == "direction":
             amount = f"{np.rad2deg(step):g} deg"
         elif kind == "speed":
             amount = f"{step / KNOT:g} kt"
+        elif kind == "div":
+            amount = f"{step * 1e5:.2g}e-5 s^-1"
         else:
             amount = f"{step:.2g} m/s"
-        out += wrap(f"{label} ({amount}): {report.signed(effect, PER_3H, 2)}", indent="    ")
+        text = f"{label} ({amount}): {report.signed(effect, PER_3H, 2)}"
+        if share and share[0] is not None:
+            text += f" ({100 * share[0]:.0f} % of the variance)"
+        out += wrap(text, indent="    ")
     return out
 
 
