@@ -116,6 +116,12 @@ def test_export_import_export_gives_the_same_workbook(tmp_path, name):
     second = tmp_path / "second.xlsx"
     write_workbook(import_workbook(first, layercalc.loads).sheet, second)
     a, b = sheet_contents(first), sheet_contents(second)
+    if name in COMPUTED_INPUTS:
+        # a station network comes back as a plain div column, which has no error model
+        # unless div_error is declared (README, uncertainty), so its uncertainty sheet
+        # (layercalc's numbers about the network) is not written again
+        assert "uncertainty" in a and "uncertainty" not in b
+        del a["uncertainty"]
     assert a.keys() == b.keys()
     for sheet in a:
         if sheet == "settings":  # the note column says "default" before the round trip

@@ -8,6 +8,8 @@ Sheets, in order:
     compare           key cells of the base and each scenario, and their differences
     values, values_<name>, values_compare
                       the same layouts as plain numbers (hidden sheets)
+    uncertainty       with an error model only: sigmas as values (not live) and the
+                      propagation a spreadsheet can hold as live formulas (uncertainty.py)
     formulas          user formulas and scenario blocks in the layers language (re-imported)
     notes             title, notes, boundary condition, formulas, references, version, caution
 Each results sheet ends with two scatter charts (omega, and divergence, against pressure
@@ -101,6 +103,9 @@ def build_workbook(sheet) -> "Built":
         note = (f"Plain numbers computed by layercalc {__version__}, cell for cell as on "
                 f"the sheet '{grid.name}', for viewers that do not recalculate. " + CAUTION)
         cells[live.title], cells[values.title] = _write_grid(live, values, grid, styles, note)
+    from layercalc.formats.xlsx.uncertainty import uncertainty_sheet
+
+    uncertainty_sheet(workbook, sheet, links)  # only with an error model
     _formulas_sheet(workbook.create_sheet("formulas"), checked, set(settings_rows))
     from layercalc.formats.xlsx.notes import notes_sheet
     from layercalc.formats.xlsx.printing import page_setup, wrap_columns
@@ -112,6 +117,8 @@ def build_workbook(sheet) -> "Built":
     page_setup(workbook["formulas"], CAUTION, "1:1")
     wrap_columns(workbook["formulas"], {1: 100}, workbook["formulas"].max_row)
     page_setup(workbook["notes"], CAUTION)
+    if "uncertainty" in workbook.sheetnames:
+        page_setup(workbook["uncertainty"], CAUTION)
     wrap_columns(workbook["notes"], {1: 22, 2: 100, 4: 40}, workbook["notes"].max_row)
     from openpyxl.workbook.defined_name import DefinedName
 
