@@ -47,7 +47,8 @@ def grammar_text() -> str:
 def cache_dir() -> Path | None:
     """Where layercalc keeps what it can reuse between runs (the compiled grammar):
     $LAYERCALC_CACHE_DIR, else $XDG_CACHE_HOME/layercalc, else ~/.cache/layercalc.
-    None when it cannot be created (then nothing is cached)."""
+    None when it cannot be created, or when others may write to it (then nothing is
+    cached, nor read back)."""
     import os
 
     base = os.environ.get("LAYERCALC_CACHE_DIR")
@@ -61,7 +62,25 @@ def cache_dir() -> Path | None:
         os.makedirs(base, mode=0o700, exist_ok=True)
     except OSError:
         return None
-    return Path(base) if os.access(base, os.W_OK) else None
+    if not (private(base) and os.access(base, os.W_OK)):
+        return None  # a folder others may write to is never read from
+    return Path(base)
+
+
+def private(path: str | Path) -> bool:
+    """True when only this user can change `path` (after symlinks): owned by this user and
+    not writable by group or others. The compiled grammar is read back with pickle, which
+    runs code, so layercalc reads it only from a private folder and a private file."""
+    import os
+    import stat
+
+    try:
+        status = os.stat(path)
+    except OSError:
+        return False
+    if not hasattr(os, "getuid"):  # pragma: no cover - no owners to compare (Windows)
+        return True
+    return status.st_uid == os.getuid() and not status.st_mode & (stat.S_IWGRP | stat.S_IWOTH)
 
 
 @lru_cache(maxsize=1)
@@ -78,10 +97,15 @@ def _parser():
     folder = cache_dir()
     if folder is not None:
         digest = hashlib.sha256(text.encode()).hexdigest()[:16]
-        try:
-            return Lark(text, cache=str(folder / f"grammar-{digest}.lark"), **options)
-        except (OSError, EOFError, ValueError):  # an unreadable cache: build afresh
-            pass
+        cached = folder / f"grammar-{digest}.lark"
+        # lark unpickles the file: only one this user alone could have written (its folder
+        # is private too, see cache_dir), or none yet (lark then writes it)
+        if not cached.exists() or (cached.is_file() and not cached.is_symlink()
+                                   and private(cached)):
+            try:
+                return Lark(text, cache=str(cached), **options)
+            except (OSError, EOFError, ValueError):  # an unreadable cache: build afresh
+                pass
     return Lark(text, **options)
 
 
