@@ -188,25 +188,36 @@ def command_grid_run(args) -> int:
     from layercalc.formats.grid_netcdf import write_results
 
     result = evaluate_grid(fields, user_text, sheet_name)
-    existed = Path(args.output).exists()
+    target = Path(args.output)
+    # all or none: the netCDF goes to a hidden name beside the target, the summary and the
+    # maps are made from it, and only when they are written is it renamed into place
+    partial = target.with_name(f".{target.name}.{os.getpid()}.partial.nc")
     client = _client(args.scheduler)
     try:
-        write_results(result, args.output, client=client, progress=not args.no_progress)
+        write_results(result, partial, client=client, progress=not args.no_progress)
+        outputs = _after(args, fields, partial)
+        if outputs:
+            from layercalc.files import write_all_or_none
+
+            write_all_or_none(outputs)
         try:
-            _after(args, fields)
-        except BaseException:
-            if not existed:
-                Path(args.output).unlink(missing_ok=True)
-            raise
+            os.replace(partial, target)
+        except OSError as exc:
+            raise OutputError(f"cannot write {target}: {exc.strerror or exc}") from None
     finally:
+        partial.unlink(missing_ok=True)
         if client is not None:
             client.close()
+    from layercalc.caution import CAUTION
+
+    print(f"wrote {', '.join([args.output] + [p for p, _ in outputs])}", file=sys.stderr)
+    print(f"caution: {CAUTION}")
     return 0
 
 
-def _after(args, fields) -> None:
-    """The summary, the comparison with the model's omega and the maps, from the file just
-    written (nothing is computed twice)."""
+def _after(args, fields, written_path) -> list[tuple[str, bytes]]:
+    """Print the summary and the comparison with the model's omega; return the JSON and the
+    maps to write. All from the file just written (nothing is computed twice)."""
     import xarray as xr
 
     from layercalc.caution import CAUTION
@@ -215,7 +226,7 @@ def _after(args, fields) -> None:
     )
 
     outputs: list[tuple[str, bytes]] = []
-    with xr.open_dataset(args.output, chunks={}) as written:
+    with xr.open_dataset(written_path, chunks={}) as written:
         geometry = fields.geometry
         size = f"{written.sizes['y']} x {written.sizes['x']}"
         print(f"{fields.source}: {'latitude-longitude' if geometry.kind == 'latlon' else 'Lambert conformal'} "
@@ -239,12 +250,7 @@ def _after(args, fields) -> None:
             outputs.append((args.json, (json.dumps(document, indent=1) + "\n").encode()))
         if args.tendency_map or args.omega_map:
             outputs += _maps(args, written, fields)
-    if outputs:
-        from layercalc.files import write_all_or_none
-
-        write_all_or_none(outputs)
-    print(f"wrote {', '.join([args.output] + [p for p, _ in outputs])}", file=sys.stderr)
-    print(f"caution: {CAUTION}")
+    return outputs
 
 
 def _maps(args, written, fields) -> list[tuple[str, bytes]]:

@@ -99,3 +99,15 @@ def test_run_refuses_bad_options_and_writes_nothing(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "bad.layers:1:" in err and "unit error" in err and "Traceback" not in err
     assert list(tmp_path.iterdir()) == [sheet]
+
+
+def test_run_writes_all_or_none(tmp_path, capsys):
+    # a level the file does not have is found only after the computation: the old output
+    # stays as it was and no partial file is left behind
+    out = tmp_path / "out.nc"
+    out.write_bytes(b"old")
+    assert main(["grid", "run", str(GFS), "-o", str(out), "--omega-map",
+                 str(tmp_path / "o.png"), "--level", "123", "--no-progress"]) == 1
+    assert "no level 123 hPa" in capsys.readouterr().err
+    assert out.read_bytes() == b"old"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out.nc"]

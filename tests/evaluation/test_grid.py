@@ -215,3 +215,24 @@ def test_the_python_api():
     direct = engine.evaluate_grid(fields("gfs_region_subset.grib2"), "").compute()
     assert_allclose(lazy["omega_top"].values, direct["omega_top"].values, rtol=1e-12,
                     equal_nan=True)
+
+
+def test_a_time_axis_is_a_leading_axis():
+    # two times (the same fields, the second with winds doubled): chunked along time, each
+    # time's results equal the single-time run; divergence, omega and the tendency scale
+    # by 2 (derived: they are linear in the winds)
+    import xarray as xr
+
+    f = fields("gfs_region_subset.grib2")
+    doubled = f.dataset.copy()
+    doubled["u"], doubled["v"] = 2 * doubled["u"], 2 * doubled["v"]
+    both = xr.concat([f.dataset, doubled], dim="time").chunk({"time": 1, "y": 9, "x": 13})
+    two = type(f)(both, f.geometry, f.source, f.humidity, f.notes)
+    result = engine.evaluate_grid(two, "").compute()
+    single = engine.evaluate_grid(f, "").compute()
+    assert result["omega_top"].dims == ("time", "layer", "y", "x")
+    assert_allclose(result["omega_top"].isel(time=0).values, single["omega_top"].values,
+                    rtol=1e-12, equal_nan=True)
+    for name in ("divergence", "omega_kinematic", "surface_pressure_tendency"):
+        assert_allclose(result[name].isel(time=1).values, 2 * single[name].values,
+                        rtol=1e-9, atol=1e-18, equal_nan=True)
