@@ -448,6 +448,15 @@ def main() -> int:
                  f"{summary(walls)} s (target <= 1.5 s: {verdict(middle, 1.5)}), CPU time "
                  f"{summary(cpus)} s. Wall time is what the target names; on this shared "
                  "machine it depends on the other work running.\n")
+    from export_scaling import measure, table
+
+    lines.append("## Workbook export\n")
+    lines.append("Workbook export (`layercalc export`, `benchmarks/export_scaling.py`): a "
+                 "made-up column of N layers with two scenarios; time of `write_workbook` "
+                 "(evaluation, layout, file), one run each, wall and CPU time (targets: 1,000 "
+                 "layers under 4 s, 5,000 under 15 s):\n")
+    lines.append(table(measure()))
+    lines.append("")
     report = "\n".join(lines) + "\n"
     (ROOT / "benchmarks" / "RESULTS.md").write_text(report, encoding="utf-8")
     print(report)

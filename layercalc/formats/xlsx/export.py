@@ -323,26 +323,55 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
     widths: dict[int, int] = {}
     numbers: dict[int, tuple[float, int]] = {}  # column -> (largest magnitude, decimals)
     known = styles.known
+    decimals_of: dict = {}  # number format -> decimals shown
     last_row = last_column = 1
     for (row, column), entry in grid.entries.items():
-        column_letter = letters.get(column) or letters.setdefault(column, letter(column))
+        column_letter = letters.get(column)
+        if column_letter is None:
+            column_letter = letters[column] = letter(column)
         reference = f"{column_letter}{row}"
         text = entry.value
-        is_text = isinstance(text, str)
-        key = (entry.style, None, text[:1] in ("=", "+", "-", "@")) if is_text else \
-            (entry.style, entry.number_format, False)
-        style_id = known.get(key)
-        if style_id is None:
-            style_id = styles(*key)
-        if is_text:
-            value_xml = X.text_cell(reference, text, style_id)
-        elif text is None:
-            value_xml = X.empty_cell(reference, style_id)
+        fmt = entry.number_format
+        if type(text) is float and math.isfinite(text):  # most cells: a finite number
+            style_id = known.get((entry.style, fmt, False))
+            if style_id is None:
+                style_id = styles(entry.style, fmt, False)
+            shown = repr(text)
+            value_xml = f'<c r="{reference}" s="{style_id}"><v>{shown}</v></c>'
+            formula = entry.formula
+            if formula is None:
+                live_xml = value_xml
+            else:
+                if "&" in formula or "<" in formula or ">" in formula:
+                    formula = X.escape(formula)
+                live_xml = f'<c r="{reference}" s="{style_id}"><f>{formula}</f><v>{shown}</v></c>'
+            if row >= HEADER_ROW and entry.style != "note":
+                decimals = decimals_of.get(fmt)
+                if decimals is None:
+                    decimals = decimals_of[fmt] = (fmt or "0.00").partition(".")[2].count("0")
+                size = text if text >= 0 else -10.0 * text
+                found = numbers.get(column)
+                if found is None or size > found[0] or decimals > found[1]:
+                    numbers[column] = (size if found is None else max(size, found[0]),
+                                       decimals if found is None else max(decimals, found[1]))
         else:
-            value_xml = X.number_cell(reference, float(text), style_id)
-        live_xml = value_xml if entry.formula is None else \
-            X.formula_cell(reference, entry.formula, text, style_id)
-        if (row, column) == (3, 1):
+            is_text = isinstance(text, str)
+            key = (entry.style, None, text[:1] in ("=", "+", "-", "@")) if is_text else \
+                (entry.style, fmt, False)
+            style_id = known.get(key)
+            if style_id is None:
+                style_id = styles(*key)
+            if is_text:
+                value_xml = X.text_cell(reference, text, style_id)
+            elif text is None:
+                value_xml = X.empty_cell(reference, style_id)
+            else:
+                value_xml = X.number_cell(reference, float(text), style_id)
+            live_xml = value_xml if entry.formula is None else \
+                X.formula_cell(reference, entry.formula, text, style_id)
+            if row >= HEADER_ROW and entry.style != "note":  # notes run on into empty cells
+                widths[column] = max(widths.get(column, 8), _shown_width(text, entry))
+        if row == 3 and column == 1:
             value_xml = X.text_cell(reference, note, styles(entry.style, None, False))
         live_rows.setdefault(row, []).append((column, live_xml))
         value_rows.setdefault(row, []).append((column, value_xml))
@@ -353,15 +382,6 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
         if entry.comment:
             live_ws.cell(row, column).comment = Comment(entry.comment, "layercalc",
                                                         width=320, height=120)
-        if row < HEADER_ROW or entry.style == "note":  # notes run on into empty cells
-            continue
-        if is_text or text is None or not math.isfinite(text):
-            widths[column] = max(widths.get(column, 8), _shown_width(text, entry))
-        else:
-            decimals = (entry.number_format or "0.00").partition(".")[2].count("0")
-            magnitude, most = numbers.get(column, (0.0, 0))
-            numbers[column] = (max(magnitude, abs(float(text)) * (1 if text >= 0 else 10)),
-                               max(most, decimals))
     for column, (magnitude, decimals) in numbers.items():
         widths[column] = max(widths.get(column, 8), len(f"{magnitude:.{decimals}f}"))
     dimension = f"A1:{letter(last_column)}{last_row}"

@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import math
 import re
-from xml.sax.saxutils import escape
+from xml.sax.saxutils import escape  # noqa: F401  (also used by the exporter)
 
 from layercalc.formats.xlsx.cells import letter, style
 

@@ -67,6 +67,7 @@ def _nondivergence(layout, row: int) -> int:
     values = _level_values(middle, divergence)
     any_row = row + 1
     counted = 0
+    level_format = number_format(values)
     for k in range(layout.layers):
         r = first + k
         d, p = f"{d_letter}{r}", to_si(f"{m_letter}{r}", m_unit)
@@ -78,8 +79,7 @@ def _nondivergence(layout, row: int) -> int:
         else:
             crossing = "0"
         text = f"IF($B${any_row}=0,0,IF({d}=0,{own},{crossing}))"
-        grid.put(r, level_column, Entry(float(values[k]), text, "helper",
-                                        number_format(values)))
+        grid.put(r, level_column, Entry(float(values[k]), text, "helper", level_format))
         counted += int(values[k] > 0)
         previous = "" if r == first else f"{count_letter}{r - 1}+"
         grid.put(r, count_column, Entry(float(counted), f"{previous}IF({level_letter}{r}>0,1,0)",
