@@ -331,7 +331,7 @@ def dumps(document: dict) -> str:
     for byte, written at the C encoder's speed (jsontext.py)."""
     from layercalc.formats.jsontext import dumps as indented
 
-    return indented(document) + "\n"
+    return indented(document, end="\n")
 
 
 # ---------------------------------------------------------------- CSV

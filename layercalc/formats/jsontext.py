@@ -14,16 +14,16 @@ dozen nested keys) is written by a short recursive walk.
 from __future__ import annotations
 
 import json
-from itertools import chain
 
 _STEP = "  "
 _PLAIN = frozenset((float, int, str, bool, type(None)))
 
 
-def dumps(value) -> str:
-    """`json.dumps(value, indent=2, allow_nan=False, ensure_ascii=False)`."""
+def dumps(value, end: str = "") -> str:
+    """`json.dumps(value, indent=2, allow_nan=False, ensure_ascii=False) + end`."""
     parts: list[str] = []
     _write(value, "\n", parts)
+    parts.append(end)
     return "".join(parts)
 
 
@@ -42,15 +42,18 @@ def _write(value, indent: str, parts: list[str]) -> None:
     kinds = set(map(type, items))
     if kinds <= _PLAIN:  # one C call
         text = _compact(value, "," + inner)
-        parts.append(text[0] + inner + text[1:-1] + indent + text[-1])
+        parts += [text[0], inner, text[1:-1], indent, text[-1]]
         return
-    if kinds == {dict} and not is_dict and all(value) and set(
-            map(type, chain.from_iterable(map(dict.values, value)))) <= _PLAIN:
+    if kinds == {dict} and not is_dict and all(value):
         field = inner + _STEP
         text = _compact(value, "," + field)  # [{"a": 1,<field>"b": 2},<field>{...}]
-        records = text[2:-2].replace("}," + field + "{", inner + "}," + inner + "{" + field)
-        parts.append("[" + inner + "{" + field + records + inner + "}" + indent + "]")
-        return
+        # flat records only: a nested list or dict would add a bracket or brace (cheaper
+        # to count in the text than to look at every value's type)
+        if text.count("{") == len(value) and text.count("[") == 1:
+            records = text.replace("}," + field + "{", inner + "}," + inner + "{" + field)
+            # pieces, not one concatenation: the text can be tens of megabytes
+            parts += ["[", inner, "{", field, records[2:-2], inner, "}", indent, "]"]
+            return
     opening, closing = ("{", "}") if is_dict else ("[", "]")
     separator = opening
     for key, item in (value.items() if is_dict else zip(value, value)):
