@@ -18,7 +18,7 @@ from layercalc.physics import humidity
 COLUMNS = ("T", "div", "Tv", "thickness", "z_top", "z_bottom", "omega_bottom", "omega_top",
            "w_bottom", "w_top")
 CELLS = ("column_thickness", "omega_surface", "net_mass_divergence", "gross_mass_divergence",
-         "column_mean_divergence", "dines_ratio", "max_ascent")
+         "column_mean_divergence", "dines_ratio", "max_ascent", "max_ascent_pressure")
 
 
 def sweep_kernel(pb, pt, t, td, div, warm, aloft, surface_height, omega_top, warming, scale):
@@ -76,6 +76,16 @@ def sweep_kernel(pb, pt, t, td, div, warm, aloft, surface_height, omega_top, war
         "dines_ratio": np.divide(np.abs(net), gross, out=np.zeros(size), where=gross > 0),
         "max_ascent": np.minimum(omega_b[0], omega_t.min(axis=0)),
     }
+    # where the strongest ascent is: the surface, or the top of the layer with the lowest
+    # omega_top (the first of equals), found layer by layer
+    lowest = omega_t[0].copy()
+    pressure = np.full(size, pt[0])
+    found = np.empty(size, dtype=bool)
+    for j in range(1, layers):
+        np.less(omega_t[j], lowest, out=found)
+        np.copyto(lowest, omega_t[j], where=found)
+        pressure[found] = pt[j]
+    cells["max_ascent_pressure"] = np.where(omega_b[0] < lowest, pb[0], pressure)
     return out, cells
 
 

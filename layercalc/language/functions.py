@@ -64,11 +64,29 @@ def _highest(x):
 
 
 def _at(pick):
+    better = np.less if pick is np.argmin else np.greater
+    extreme = np.min if pick is np.argmin else np.max
+
     def at(key, values):
         key, values = np.broadcast_arrays(key, values)
+        if _by_layer(key) and not np.isnan(extreme(key)):
+            return _at_by_layer(key, values, better)
         index = pick(key, axis=-1)[..., None]
         return np.take_along_axis(values, index, axis=-1)
     return at
+
+
+def _at_by_layer(key, values, better):
+    """argmin/argmax's pick (the first extreme), layer by layer: for few layers and many
+    variants, one pass per layer instead of a walk along the short layer axis per variant."""
+    best = key[:, 0].copy()
+    out = values[:, 0].copy()
+    found = np.empty(best.shape, dtype=bool)
+    for j in range(1, key.shape[-1]):
+        better(key[:, j], best, out=found)  # strictly: the first of equal values stays
+        np.copyto(best, key[:, j], where=found)
+        np.copyto(out, values[:, j], where=found)
+    return out[:, None]
 
 
 def _by_layer(x) -> bool:
