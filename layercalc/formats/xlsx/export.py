@@ -113,7 +113,8 @@ def build_workbook(sheet) -> "Built":
     notes_sheet(workbook.create_sheet("notes"), checked, found, __version__, CAUTION)
     page_setup(layers, CAUTION, "1:1")
     page_setup(workbook["settings"], CAUTION, "1:1")
-    wrap_columns(workbook["settings"], {2: 30, 4: 70}, workbook["settings"].max_row)
+    wrap_columns(workbook["settings"], {1: 18, 2: 30, 3: 12, 4: 70},
+                 workbook["settings"].max_row)  # all top aligned: names beside values
     page_setup(workbook["formulas"], CAUTION, "1:1")
     wrap_columns(workbook["formulas"], {1: 100}, workbook["formulas"].max_row)
     page_setup(workbook["notes"], CAUTION)
