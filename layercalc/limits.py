@@ -18,13 +18,15 @@ LARGEST_UNIT_FACTOR = 1e30
 # million-layer table (checking/tables.MAX_LAYERS) takes about 40 MB.
 MAX_TEXT_BYTES = 64_000_000
 
-# The longest line of a .layers file, in characters (a row of a wide table fits easily).
-MAX_LINE_CHARS = 100_000
+# The longest line of a .layers file, in characters (a row of a wide table fits easily;
+# a longer line is refused before parsing).
+MAX_LINE_CHARS = 200_000
 
-# Names of cells, columns, scenarios and options, in characters: they head report columns
-# and workbook cells.
-MAX_NAME_CHARS = 40
+# Names of cells, columns, headings, scenarios and stations, in characters: they head
+# report columns and workbook cells (the longest built-in name has 33).
+MAX_NAME_CHARS = 64
 
-# A title, a note or a scenario's description, in characters.
+# A title, a note or a scenario's description, in characters (a note longer than this
+# belongs in a document of its own).
 MAX_TITLE_CHARS = 200
 MAX_NOTE_CHARS = 2_000

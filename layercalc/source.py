@@ -29,6 +29,14 @@ class Source:
             index = find("\n", index + 1)
         object.__setattr__(self, "_line_starts", tuple(starts))
 
+    def longest_line(self) -> tuple[int, int, int]:
+        """(line number, length in characters, offset of its start) of the longest line,
+        the first if several."""
+        ends = [*self._line_starts[1:], len(self.text) + 1]
+        lengths = [end - start - 1 for start, end in zip(self._line_starts, ends)]
+        index = max(range(len(lengths)), key=lengths.__getitem__)
+        return index + 1, lengths[index], self._line_starts[index]
+
     def line_col(self, offset: int) -> tuple[int, int]:
         """1-based line and column of a character offset."""
         offset = max(0, min(offset, len(self.text)))

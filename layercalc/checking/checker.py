@@ -57,6 +57,11 @@ class Checker(TableChecker, ExpressionChecker):
 
     # -- top level --------------------------------------------------------
     def run(self) -> CheckedSheet:
+        from layercalc.checking.lengths import length_problems
+
+        too_long = length_problems(self.document)
+        if too_long:  # before any other work
+            raise first_with_all(too_long)
         title, notes, options, option_spans = "", [], {}, {}
         tables, definitions, scenarios, stations = [], [], [], []
         for st in self.document.statements:

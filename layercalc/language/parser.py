@@ -6,7 +6,8 @@ from functools import lru_cache
 from importlib import resources
 from pathlib import Path
 
-from layercalc.errors import LayercalcSyntaxError
+from layercalc.errors import InputError, LayercalcSyntaxError
+from layercalc.limits import MAX_LINE_CHARS
 from layercalc.source import Source, Span
 
 MAX_NESTING = 200  # parentheses and brackets; deeper formulas are refused with a clear message
@@ -117,6 +118,7 @@ def parse(source: Source):
     the builder (table_body.py explains why and when)."""
     from layercalc.language.table_body import blank_bodies, table_bodies
 
+    _check_line_length(source)
     _check_nesting(source)
     text = source.text + "\n"
     bodies = table_bodies(text)
@@ -140,6 +142,7 @@ def _attach_bodies(tree, text: str, bodies: dict[int, int]) -> None:
 
 def parse_unit_text(source: Source):
     """Parse a unit written on its own (`hPa`, `1e-5 s^-1`), e.g. from a workbook header."""
+    _check_line_length(source)
     _check_nesting(source)
     return _parse(source, "unit_text", source.text)
 
@@ -258,6 +261,17 @@ def _hint_for_character(char: str) -> str | None:
     if char == "\t":
         return None
     return None
+
+
+def _check_line_length(source: Source) -> None:
+    """Refuse a line longer than MAX_LINE_CHARS before any parsing."""
+    line, length, start = source.longest_line()
+    if length > MAX_LINE_CHARS:
+        start += MAX_LINE_CHARS
+        raise InputError(f"line {line} has {length:,} characters; a line may have at most "
+                         f"{MAX_LINE_CHARS:,}", Span(source, start, start + 1),
+                         hint="split the text over several lines (a note per paragraph, a "
+                              "table row per layer)")
 
 
 def _check_nesting(source: Source) -> None:

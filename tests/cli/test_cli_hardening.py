@@ -27,6 +27,7 @@ from layercalc.cli.main import main
 from tests.helpers import cli, process
 from layercalc.constants import G0, RD
 from layercalc.language.parser import MAX_NESTING
+from layercalc.limits import MAX_LINE_CHARS, MAX_NOTE_CHARS
 
 ERRORS = Path(__file__).resolve().parents[1] / "errors"
 # The golden bad inputs; a golden text that is warnings only (a value beyond what air does)
@@ -212,8 +213,9 @@ def test_a_file_that_is_not_utf8_through_a_process(tmp_path):
 
 def test_a_huge_line_that_is_valid_works(capsys, tmp_path):
     path = tmp_path / "long.layers"
-    path.write_text(SMALL_TABLE + "# " + "x" * 2_000_000 + "\n"
-                    + 'note "' + "y" * 200_000 + '"\n', encoding="utf-8")
+    # the longest line and note the limits allow (layercalc/limits.py, README "Limits")
+    path.write_text(SMALL_TABLE + "# " + "x" * (MAX_LINE_CHARS - 2) + "\n"
+                    + 'note "' + "y" * MAX_NOTE_CHARS + '"\n', encoding="utf-8")
     code, out, _ = cli(capsys, "check", path)
     assert code == 0 and out.splitlines()[-1] == "ok"
     code, out, _ = cli(capsys, "run", path)

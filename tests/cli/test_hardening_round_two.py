@@ -364,3 +364,46 @@ def test_a_text_input_above_the_size_limit_is_refused_without_reading(capsys, tm
         code, out, err = cli(capsys, command, path)
         assert_our_error(code, out, err, f"{path} is larger than {MAX_TEXT_BYTES:,} bytes")
     assert regular_files(tmp_path) == held
+
+
+# ---------------------------------------------------------------- 7. lengths of texts
+from layercalc.limits import (  # noqa: E402  (beside the tests that use them)
+    MAX_LINE_CHARS, MAX_NAME_CHARS, MAX_NOTE_CHARS, MAX_TITLE_CHARS,
+)
+
+TOO_LONG = {  # name -> (the line after the table, column, words of the message)
+    "title": (f'title "{"t" * (MAX_TITLE_CHARS + 1)}"', 1,
+              f"the title has {MAX_TITLE_CHARS + 1} characters; at most {MAX_TITLE_CHARS}"),
+    "note": (f'note "{"n" * (MAX_NOTE_CHARS + 1)}"', 1,
+             f"this note has {MAX_NOTE_CHARS + 1:,} characters; at most {MAX_NOTE_CHARS:,}"),
+    "cell_name": (f"cell {'x' * (MAX_NAME_CHARS + 1)} = 1", 6,
+                  f"has {MAX_NAME_CHARS + 1} characters; at most {MAX_NAME_CHARS}"),
+    "column_name": (f"column {'y' * 75} [K] = T", 8, "the column name 'yyyyyyyyyyyyyyyyyyyy...'"),
+    "scenario_name": (f"scenario {'s' * 70}\nend", 10, "the scenario name"),
+    "scenario_description": (f'scenario warm "{"d" * (MAX_TITLE_CHARS + 1)}"\nend', 1,
+                             "the scenario's description has"),
+    "line": ("# " + "c" * MAX_LINE_CHARS, MAX_LINE_CHARS + 1,
+             f"has {MAX_LINE_CHARS + 2:,} characters; a line may have at most"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(TOO_LONG))
+def test_a_text_beyond_its_length_limit_is_refused_first(name, capsys, tmp_path):
+    line, column, words = TOO_LONG[name]
+    # a unit error further down must not be reported first: lengths are checked before
+    path = case(tmp_path, line, "column bad = T + p_top")
+    refused_everywhere(capsys, tmp_path, path, f"{path}:{TABLE_LINES + 1}:{column}: ", words)
+
+
+def test_a_table_heading_beyond_the_name_limit(capsys, tmp_path):
+    path = tmp_path / "case.layers"
+    path.write_text(SMALL_TABLE.replace("div [", "d" * (MAX_NAME_CHARS + 1) + " ["),
+                    encoding="utf-8")
+    refused_everywhere(capsys, tmp_path, path, f"{path}:2:", "the column name 'ddd")
+
+
+def test_texts_at_their_limits_are_accepted(capsys, tmp_path):
+    path = case(tmp_path, f'title "{"t" * MAX_TITLE_CHARS}"',
+                f"cell {'x' * MAX_NAME_CHARS} = 1")
+    code, out, err = cli(capsys, "run", path)
+    assert code == 0, err
