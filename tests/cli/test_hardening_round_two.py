@@ -121,7 +121,9 @@ def test_a_chain_of_200_through_the_api():
 
 
 def test_a_long_cell_name_fits_the_report(capsys, tmp_path):
-    name = "x" * 80
+    from layercalc.limits import MAX_NAME_CHARS
+
+    name = "x" * MAX_NAME_CHARS  # longer than the report's label column (75 used to crash)
     path = case(tmp_path, f"cell {name} = 1", "cell short = 2")
     code, out, _ = cli(capsys, "check", path)
     assert code == 0
