@@ -132,6 +132,18 @@ def test_a_long_cell_name_fits_the_report(capsys, tmp_path):
     assert name in out and "short" in out
 
 
+@pytest.mark.parametrize("label_width", [60, 75, 100, 500])
+def test_the_report_layout_never_squeezes_text_to_nothing(label_width):
+    from layercalc.report.layout import WIDTH, wrap, wrap_pair
+
+    words = "a value with its unit and a remark " * 4
+    lines = wrap_pair("x" * label_width, words, label_width)
+    assert " ".join(" ".join(lines).split()) == " ".join((("x" * label_width) + " "
+                                                          + words).split())
+    assert all(len(line) < WIDTH for line in lines[1:])  # the text itself stays readable
+    assert " ".join(wrap(words, " " * label_width)).split() == words.split()
+
+
 def test_a_workbook_header_with_an_exponent_of_4301_digits(capsys, tmp_path):
     from openpyxl import load_workbook
 
