@@ -64,7 +64,13 @@ It is the same for every scenario (scenario changes act on the layers, not the s
       "hydrostatic": [{"sounding": str, "tolerance": .., "p_bottom": [..], "p_top": [..],
                        "observed_thickness": [..], "hypsometric_thickness": [..],
                        "difference": [..], "flagged": [bool],
-                       "implied_virtual_temperature": [..], "messages": [str]}]}
+                       "implied_virtual_temperature": [..], "messages": [str],
+                       "unchecked": [{"p_bottom": .., "p_top": .., "reason": str}],
+                                                    # layers not checked on their own (a
+                                                    # level without T or z); null difference
+                       "combined": [{"p_bottom": .., "p_top": .., "observed_thickness": ..,
+                                     "hypsometric_thickness": .., "difference": ..,
+                                     "flagged": bool}]}]}  # checked instead, across the gap
 """
 
 from __future__ import annotations
@@ -288,7 +294,11 @@ def soundings_document(checked) -> dict | None:
         "network": network,
         "layer_wind": None if wind is None else _arrays(wind, ("p_bottom", "p_top", "u", "v")),
         "hydrostatic": [{"sounding": table.sounding, "tolerance": table.tolerance,
-                         **_arrays(table, HYDROSTATIC_KEYS), "messages": list(table.messages)}
+                         **_arrays(table, HYDROSTATIC_KEYS), "messages": list(table.messages),
+                         "unchecked": [{"p_bottom": b, "p_top": t, "reason": why}
+                                       for b, t, why in table.unchecked],
+                         "combined": [{key: getattr(c, key) for key in HYDROSTATIC_KEYS[:-1]}
+                                      for c in table.combined]}
                         for table in details.hydrostatic],
     }
 

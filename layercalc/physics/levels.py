@@ -17,7 +17,7 @@ from layercalc.errors import DefinitionError
 
 __all__ = [
     "HydrostaticCheck", "layers_from_levels", "layer_mean_wind", "hydrostatic_consistency",
-    "diagnose_hydrostatic_flags",
+    "diagnose_hydrostatic_flags", "checkable_levels",
 ]
 
 # Default allowed |observed - hypsometric| thickness of one layer [m]. Common practice,
@@ -178,6 +178,32 @@ def hydrostatic_consistency(pressure_bottom, pressure_top, observed_thickness,
     flagged = np.abs(difference) > tolerance
     implied = G0 * observed_thickness / (RD * log_pressure_ratio)
     return HydrostaticCheck(hypsometric, difference, flagged, implied)
+
+
+def checkable_levels(virtual_temperature, height):
+    """Indices of the levels the hydrostatic check can use, and the layers it checks.
+
+    A level counts only where both its virtual temperature and its reported height are
+    given (finite). The check then runs over the layers between consecutive usable levels:
+    where an inner level lacks a value, the two layers beside it are not checked one by
+    one but as one layer spanning both. With Tv linear in ln p this is the same
+    hypsometric thickness as the sum of the two layers' with the missing Tv interpolated
+    (the trapezoid rule is exact for a linear function), so nothing is invented; only
+    the level in between cannot be tested.
+
+    Parameters
+    ----------
+    virtual_temperature, height : array_like, shape (levels,)
+        At the levels, surface first; NaN where not reported. [K], [m]
+
+    Returns
+    -------
+    numpy.ndarray of int
+        Indices of the usable levels, increasing (consecutive pairs are the checked layers).
+    """
+    usable = np.isfinite(np.asarray(virtual_temperature, dtype=float)) & np.isfinite(
+        np.asarray(height, dtype=float))
+    return np.flatnonzero(usable)
 
 
 def _temperature_error(difference, log_pressure_ratio):

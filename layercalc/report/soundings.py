@@ -18,6 +18,7 @@ from layercalc.soundings.details import (
 )
 
 from layercalc.physics import stations as station_physics
+from layercalc.soundings.levels import describe_unchecked
 from layercalc.report.layout import TableColumn, auto, fixed, pressure_text, table_lines, unit_words, wrap
 
 # Trade units of the section (SI with --units si): name -> (unit text, decimals).
@@ -162,6 +163,9 @@ class _Section:
         self.lines += [""] + wrap(f"Hydrostatic check, {table.sounding} (tolerance "
                                   f"{tolerance} {height_unit} per layer)")
         self.lines += table_lines("layer", self.pressure_unit(), labels, columns)
+        if table.unchecked:
+            self.lines += wrap(describe_unchecked(table.unchecked, table.combined)
+                               .replace("layers not", "Layers shown '-' were not", 1) + ".")
 
     def hydrostatic_all(self) -> None:
         tables = self.details.hydrostatic

@@ -70,6 +70,18 @@ class LayerWind:
 
 
 @dataclass(frozen=True)
+class CombinedLayer:
+    """A layer the hydrostatic check took across levels without a temperature or height."""
+
+    p_bottom: float                # [Pa]
+    p_top: float                   # [Pa]
+    observed_thickness: float      # [m]
+    hypsometric_thickness: float   # [m]
+    difference: float              # [m] observed minus hypsometric
+    flagged: bool
+
+
+@dataclass(frozen=True)
 class HydrostaticTable:
     """The hydrostatic check of one sounding's reported heights, layer by layer."""
 
@@ -86,6 +98,11 @@ class HydrostaticTable:
     messages: tuple[str, ...]              # the same in words, one per flag
     tv_per_temperature: np.ndarray | None = None  # [1] dTv/dT at the levels
     tv_per_dewpoint: np.ndarray | None = None     # [1] dTv/dTd at the levels (0: no Td)
+    # layers not checked one by one: (p_bottom [Pa], p_top [Pa], why) per layer, surface first
+    unchecked: tuple[tuple[float, float, str], ...] = ()
+    # what was checked instead, across the levels that lack a value (each spans several
+    # layers): same fields as the per-layer arrays, surface first
+    combined: tuple[CombinedLayer, ...] = ()
 
 
 @dataclass(frozen=True)

@@ -20,7 +20,7 @@ from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError
 from layercalc.language.nodes import Definition, Literal, Table, Unary
 from layercalc.physics import humidity, levels as level_physics
 from layercalc.physics.winds import wind_components
-from layercalc.soundings.details import HydrostaticTable
+from layercalc.soundings.details import CombinedLayer, HydrostaticTable
 from layercalc.source import Span
 
 WIND_NAMES = ("dir", "speed", "u", "v")
@@ -365,12 +365,61 @@ def hydrostatic_check(s: Sounding, tolerance: float,
                      for name in ("temperature_shift", "dewpoint_shift"))
     observed = np.diff(s.values["z"])
     check = level_physics.hydrostatic_consistency(p_bottom, p_top, observed, tv, tolerance)
-    flags = level_physics.diagnose_hydrostatic_flags(p_bottom, p_top, check.difference,
-                                                     check.flagged)
+    level_tv = _level_virtual_temperature(s)
+    usable = level_physics.checkable_levels(level_tv, s.values["z"])
+    unchecked = _unchecked_layers(s, usable)
+    # the diagnosis runs over the layers between the usable levels, so that a level
+    # without a temperature does not hide a height error next to it
+    low, high = usable[:-1], usable[1:]
+    spans = level_physics.hydrostatic_consistency(
+        s.pressure[low], s.pressure[high], s.values["z"][high] - s.values["z"][low],
+        (level_tv[low] + level_tv[high]) / 2.0, tolerance)
+    combined = tuple(CombinedLayer(float(s.pressure[a]), float(s.pressure[b]),
+                                   float(s.values["z"][b] - s.values["z"][a]),
+                                   float(spans.hypsometric_thickness[k]),
+                                   float(spans.difference[k]), bool(spans.flagged[k]))
+                     for k, (a, b) in enumerate(zip(low, high)) if b - a > 1)
+    flags = level_physics.diagnose_hydrostatic_flags(s.pressure[low], s.pressure[high],
+                                                     spans.difference, spans.flagged)
     messages = [describe_hydrostatic_flag(flag) for flag in flags]
     for flag, message in zip(flags, messages):
         notices.append(Notice(f"hydrostatic check, {s.name}: {message}", _flag_span(s, flag)))
+    if unchecked:
+        notices.append(Notice(f"hydrostatic check, {s.name}: "
+                              + describe_unchecked(unchecked, combined),
+                              s.row_span(int(np.flatnonzero(~np.isin(
+                                  np.arange(s.pressure.size), usable))[0]))))
     return HydrostaticTable(s.name, tolerance, p_bottom, p_top, observed,
                             check.hypsometric_thickness, check.difference, check.flagged,
                             check.implied_virtual_temperature, tuple(flags), tuple(messages),
-                            per_t, per_td)
+                            per_t, per_td, unchecked, combined)
+
+
+def _unchecked_layers(s: Sounding, usable: np.ndarray) -> tuple[tuple[float, float, str], ...]:
+    """The layers between consecutive levels that the check cannot test on their own, with
+    the reason (the value missing at one of its levels)."""
+    missing = {}
+    for k in range(s.pressure.size):
+        gaps = [what for what, values in (("temperature", s.values["T"]),
+                                           ("height", s.values["z"]))
+                if not np.isfinite(values[k])]
+        if gaps:
+            missing[k] = f"no {' and no '.join(gaps)} at {hpa(s.pressure[k])}"
+    out = []
+    for k in range(s.pressure.size - 1):
+        reasons = [missing[j] for j in (k, k + 1) if j in missing]
+        if reasons:
+            out.append((float(s.pressure[k]), float(s.pressure[k + 1]), "; ".join(reasons)))
+    return tuple(out)
+
+
+def describe_unchecked(unchecked, combined) -> str:
+    """The layers the hydrostatic check skipped, why, and what it checked instead."""
+    skipped = "; ".join(f"{hpa(b)} to {hpa(t)} ({why})" for b, t, why in unchecked)
+    text = f"layers not checked on their own: {skipped}"
+    if combined:
+        text += ("; checked instead as one layer across the gap: "
+                 + ", ".join(f"{hpa(c.p_bottom)} to {hpa(c.p_top)} (off by "
+                             f"{c.difference:+.0f} m{', flagged' if c.flagged else ''})"
+                             for c in combined))
+    return text

@@ -523,3 +523,86 @@ def test_a_station_near_a_pole_is_warned_about():
     latitudes, longitudes = triangle(45.0, 20.0, 0.0)
     assert not any("of a pole" in m for m in messages(load(network_text(latitudes,
                                                                           longitudes))))
+
+
+# --- a level without a temperature, and the two thicknesses of a moist layer -------------
+def _gap_at_850_and_700_height_raised(rise: float = 60.0) -> str:
+    """USSA as reported, no temperature at 850 hPa, the 700 hPa height `rise` m too high."""
+    lines = reported_ussa_text().splitlines()
+    for i, line in enumerate(lines):
+        parts = line.split()
+        if parts and parts[0] == "850.0":
+            lines[i] = "  ".join([parts[0], "-", parts[2]])
+        if parts and parts[0] == "700.0":
+            lines[i] = "  ".join([parts[0], parts[1], f"{float(parts[2]) + rise:.1f}"])
+    return "\n".join(lines) + "\n"
+
+
+def test_a_missing_temperature_does_not_turn_a_height_error_into_a_temperature_error():
+    """The 700 hPa height 60 m too high (construction) next to 850 hPa without T: the check
+    spans 925-700 hPa, so the two checked layers beside 700 hPa are off by about +60 and
+    -60 m (construction; USSA's own departure < 10 m, test_levels) and the height is named;
+    the skipped layers are said, with the reason."""
+    text = _gap_at_850_and_700_height_raised()
+    sheet = load(text)
+    found = [n.message for n in sheet.check() if "hydrostatic" in n.message]
+    assert any("height at 700 hPa is likely mistyped" in m for m in found), found
+    assert not any("temperature at" in m and "likely wrong" in m for m in found)
+    assert not any("check the temperature" in m for m in found)
+    skipped = next(n for n in sheet.check() if "not checked on their own" in n.message)
+    assert ("925 hPa to 850 hPa (no temperature at 850 hPa); 850 hPa to 700 hPa (no "
+            "temperature at 850 hPa)") in skipped.message
+    assert "925 hPa to 700 hPa (off by +" in skipped.message
+    assert skipped.span.line == line_of(text, "850.0  -")
+    table = sheet.checked.soundings.hydrostatic[0]
+    assert [(b / 100, t / 100) for b, t, _ in table.unchecked] == [(925.0, 850.0), (850.0, 700.0)]
+    (combined,) = table.combined
+    assert (combined.p_bottom, combined.p_top, combined.flagged) == (92500.0, 70000.0, True)
+    assert abs(combined.difference - 60.0) < 10.0     # 60 m raised, USSA within 10 m
+    assert np.isnan(table.difference[1:3]).all()      # the two layers themselves: no value
+
+
+def test_skipped_hydrostatic_layers_in_the_report_and_json(tmp_path):
+    from layercalc.cli.main import main
+
+    path = tmp_path / "gap.layers"
+    path.write_text(_gap_at_850_and_700_height_raised())
+    report, document = tmp_path / "report.txt", tmp_path / "out.json"
+    assert main(["run", str(path), "-o", str(report)]) == 0
+    text = " ".join(report.read_text().split())
+    assert "Layers shown '-' were not checked on their own: 925 hPa to 850 hPa" in text
+    assert "checked instead as one layer across the gap: 925 hPa to 700 hPa" in text
+    assert main(["run", str(path), "--json", "-o", str(document)]) == 0
+    hydrostatic = json.loads(document.read_text())["soundings"]["hydrostatic"][0]
+    assert hydrostatic["unchecked"][0] == {"p_bottom": 92500.0, "p_top": 85000.0,
+                                           "reason": "no temperature at 850 hPa"}
+    assert hydrostatic["difference"][1] is None
+    assert [(c["p_bottom"], c["p_top"], c["flagged"]) for c in hydrostatic["combined"]] == [
+        (92500.0, 70000.0, True)]
+
+
+def test_layer_thickness_and_hydrostatic_thickness_differ_as_the_readme_says():
+    """README's levels example: the layer's `thickness` uses Tv of the mean T and Td, the
+    check uses the mean of the levels' Tv. Expected values from metpy 1.7.1 (independent
+    library: virtual_temperature of mixing_ratio of saturation_vapor_pressure(Td)), with
+    Rd / g0 from layercalc.constants; README quotes -0.12 and -0.18 m."""
+    import metpy.calc as mpcalc
+    from metpy.units import units
+
+    text = ("levels\n  p [hPa]  T [degC]  Td [degC]  z [m]\n  1000  14.0  9.0  110\n"
+            "  850  6.0  0.0  1540\n  700  -4.0  -12.0  3100\nend\n")
+    sheet = load(text)
+    got = (np.asarray(sheet.evaluate().si_layers["thickness"])
+           - sheet.checked.soundings.hydrostatic[0].hypsometric_thickness)
+
+    def tv(p, t, td):
+        r = mpcalc.mixing_ratio(mpcalc.saturation_vapor_pressure(td * units.degC), p * units.hPa)
+        return mpcalc.virtual_temperature(t * units.degC, r).to("K").magnitude
+
+    p, t, td = np.array([1000.0, 850.0, 700.0]), np.array([14.0, 6.0, -4.0]), np.array([9.0, 0.0, -12.0])
+    log_ratio = np.log(p[:-1] / p[1:])
+    layer = tv(np.sqrt(p[:-1] * p[1:]), (t[:-1] + t[1:]) / 2, (td[:-1] + td[1:]) / 2)
+    levels = tv(p, t, td)
+    want = RD / G0 * log_ratio * (layer - (levels[:-1] + levels[1:]) / 2)
+    assert_allclose(got, want, atol=0.01)
+    assert_allclose(got, [-0.12, -0.18], atol=0.005)      # as README states
