@@ -384,11 +384,13 @@ def hydrostatic_check(s: Sounding, tolerance: float,
     messages = [describe_hydrostatic_flag(flag) for flag in flags]
     for flag, message in zip(flags, messages):
         notices.append(Notice(f"hydrostatic check, {s.name}: {message}", _flag_span(s, flag)))
-    if unchecked:
+    # a level without a height is ordinary (significant levels report none): said in the
+    # report and JSON only; a missing temperature is a gap in what was reported: a warning
+    if any("temperature" in why for _, _, why in unchecked):
         notices.append(Notice(f"hydrostatic check, {s.name}: "
                               + describe_unchecked(unchecked, combined),
-                              s.row_span(int(np.flatnonzero(~np.isin(
-                                  np.arange(s.pressure.size), usable))[0]))))
+                              s.row_span(int(np.flatnonzero(~np.isfinite(
+                                  s.values["T"]))[0]))))
     return HydrostaticTable(s.name, tolerance, p_bottom, p_top, observed,
                             check.hypsometric_thickness, check.difference, check.flagged,
                             check.implied_virtual_temperature, tuple(flags), tuple(messages),
