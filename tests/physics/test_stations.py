@@ -424,3 +424,83 @@ def test_too_few_stations_is_our_error():
     from layercalc.errors import LayercalcError
     with pytest.raises(LayercalcError, match="at least 3"):
         station_polygon_divergence([45.0, 46.0], [10.0, 11.0], [1.0, 2.0], [0.0, 0.0])
+
+
+# --- the fit against the true field: first order in the network size --------------------
+
+def _independent_zonal_fit(latitude, side_m, first_bearing, speed=20.0):
+    """A uniform zonal wind fitted on an equilateral triangle, written apart from the
+    package: vertices on great circles from (latitude, 10 E), centroid the normalised mean
+    of the unit vectors, oblique stereographic plane x, y = 2R (r.e, r.n) / (1 + r.c), each
+    station's wind turned to the image of its east direction (central difference of the
+    projection), and the exact 3-point linear solve. Returns (vorticity / true - 1,
+    divergence); true vorticity u tan(phi) / R at the centroid, true divergence 0."""
+    def unit(lat, lon):
+        la, lo = np.radians(lat), np.radians(lon)
+        return np.array([np.cos(la) * np.cos(lo), np.cos(la) * np.sin(lo), np.sin(la)])
+
+    def east_north(r):
+        e = np.cross([0.0, 0.0, 1.0], r)
+        e /= np.linalg.norm(e)
+        return e, np.cross(r, e)
+
+    def move(r, direction, angle):
+        return np.cos(angle) * r + np.sin(angle) * direction
+
+    c0 = unit(latitude, 10.0)
+    e0, n0 = east_north(c0)
+    points = np.array([move(c0, np.sin(b) * e0 + np.cos(b) * n0, side_m / np.sqrt(3) / R)
+                       for b in np.radians(first_bearing + np.array([0.0, 120.0, 240.0]))])
+    c = points.sum(axis=0) / np.linalg.norm(points.sum(axis=0))
+    e, n = east_north(c)
+
+    def project(r):
+        return 2.0 * R * np.array([r @ e, r @ n]) / (1.0 + r @ c)
+
+    xy = np.array([project(p) for p in points])
+    winds = []
+    for p in points:
+        east = east_north(p)[0]
+        image = project(move(p, east, 1e-7)) - project(move(p, east, -1e-7))
+        winds.append(speed * image / np.linalg.norm(image))
+    winds = np.array(winds)
+    matrix = np.column_stack([np.ones(3), xy])
+    cu, cv = np.linalg.solve(matrix, winds[:, 0]), np.linalg.solve(matrix, winds[:, 1])
+    true = speed * (c[2] / np.sqrt(1.0 - c[2] ** 2)) / R
+    return (cv[1] - cu[2]) / true - 1.0, cu[1] + cv[2]
+
+
+# Figures quoted in README ("Against the true field"): a uniform 20 m/s zonal wind, first
+# vertex at bearing 17 deg from the centre. Source: computed, the package against the
+# independent fit above (agreeing to 1e-10 relative), both to the digits quoted.
+@pytest.mark.parametrize("latitude, side_m, vorticity_error, divergence", [
+    (45.0, 300e3, -0.017, 6.6e-8),
+    (60.0, 600e3, -0.048, 3.3e-7),
+])
+def test_plane_fit_error_against_the_true_field(latitude, side_m, vorticity_error, divergence):
+    latitudes, longitudes = triangle(latitude, 10.0, 17.0, side_m)
+    fit = station_polygon_divergence(latitudes, longitudes, np.full(3, 20.0), np.zeros(3))
+    centre = spherical_centroid(latitudes, longitudes)
+    true_vorticity = 20.0 * np.tan(np.radians(centre[0])) / R   # u tan(phi) / R, v = 0
+    got = (float(fit.vorticity) / true_vorticity - 1.0, float(fit.divergence))
+    independent = _independent_zonal_fit(latitude, side_m, 17.0)
+    assert_allclose(got, independent, rtol=1e-6)
+    assert_allclose(got[0], vorticity_error, atol=0.0005)     # as README quotes
+    assert_allclose(got[1], divergence, rtol=0.01)
+
+
+def test_plane_fit_error_is_first_order_in_the_network_size():
+    """Halving the triangle halves both errors (first order; derived: a linear fit of a
+    field with curvature misses by the curvature times the station offsets), and it turns
+    with the triangle as cos 3 theta and sin 3 theta (the only harmonic an equilateral
+    triangle's fit of a quadratic field has; derived), so 0 deg gives the largest
+    vorticity error and no divergence, 30 deg the reverse."""
+    errors = np.array([_independent_zonal_fit(45.0, side, 17.0) for side in (150e3, 300e3)])
+    assert_allclose(errors[1] / errors[0], [2.0, 2.0], rtol=0.02)
+    for bearing, largest in ((0.0, 0), (30.0, 1)):
+        latitudes, longitudes = triangle(45.0, 10.0, bearing)
+        fit = station_polygon_divergence(latitudes, longitudes, np.full(3, 20.0), np.zeros(3))
+        centre = spherical_centroid(latitudes, longitudes)
+        relative = float(fit.vorticity) / (20.0 * np.tan(np.radians(centre[0])) / R) - 1.0
+        scaled = np.abs([relative, float(fit.divergence) * R / 20.0])  # both relative to u/R
+        assert scaled[largest] > 50 * scaled[1 - largest]
