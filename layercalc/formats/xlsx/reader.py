@@ -14,7 +14,8 @@ Reads layercalc's own export and hand-entered workbooks:
 
 The workbook is opened read-only (data_only: a formula cell gives its saved value) and is
 never modified. The read is bounded before openpyxl sees the file (size, zip entries,
-decompressed size) and while reading (cell count).
+decompressed size; then `scan`: the rows and columns the sheets read declare, the shared
+strings' size) and while reading (cell count, a blank row counting as one).
 """
 
 from __future__ import annotations
@@ -28,6 +29,7 @@ from pathlib import Path
 
 from layercalc.errors import LayercalcError, Notice, SpreadsheetError
 from layercalc.formats.xlsx.cells import blank, cell_name, number_text
+from layercalc.formats.xlsx.scan import scan_workbook
 from layercalc.formats.xlsx.table import LayerTable
 from layercalc.language.defaults import CELL_DEFAULTS, OPTIONS
 from layercalc.names import INPUT_CELLS, close_names, did_you_mean
@@ -64,8 +66,8 @@ def import_workbook(path, compile_text) -> ImportedWorkbook:
     """The workbook's text and the sheet `compile_text` (layercalc.api.loads) makes of it,
     every problem placed at sheet!cell."""
     path = Path(path)
-    _guard(path)
-    raw = _RawWorkbook.read(path)
+    scans = _guard(path)
+    raw = _RawWorkbook.read(path, scans)
     builder = _TextBuilder(str(path), raw)
     text = builder.build()
     sheet = builder.check(text, compile_text)
@@ -73,7 +75,8 @@ def import_workbook(path, compile_text) -> ImportedWorkbook:
 
 
 # ---------------------------------------------------------------- guards
-def _guard(path: Path) -> None:
+def _guard(path: Path) -> dict:
+    """Refuse what openpyxl should not see; return the scans of the sheets to be read."""
     where = str(path)
     if not path.is_file():
         raise SpreadsheetError("no such workbook" if not path.exists() else "not a file",
@@ -82,8 +85,13 @@ def _guard(path: Path) -> None:
     if size > MAX_FILE_BYTES:
         raise SpreadsheetError(f"the file is {size} bytes; workbooks above {MAX_FILE_BYTES} "
                                "bytes are refused", path=where)
-    with open(path, "rb") as handle:
-        start = handle.read(8)
+    try:
+        with open(path, "rb") as handle:
+            start = handle.read(8)
+    except OSError as exc:
+        raise SpreadsheetError(f"cannot read the workbook: {exc.strerror or exc}", path=where,
+                               hint="check the file's permissions (ls -l), or copy it "
+                                    "somewhere you can read") from None
     if start == CFB_MAGIC:
         raise SpreadsheetError(
             "this is a password-protected (encrypted) workbook or an old .xls file",
@@ -107,11 +115,23 @@ def _guard(path: Path) -> None:
                                        "(no xl/workbook.xml)", path=where,
                                        hint="save the sheet as .xlsx (not .ods or .zip)")
             bad = archive.testzip()  # bounded: zipfile stops at each entry's declared size
+            if bad is None:
+                scans = scan_workbook(archive, sheets_read, where, MAX_CELLS)
     except (zipfile.BadZipFile, zlib.error, OSError, EOFError, ValueError,
             NotImplementedError) as exc:
         raise SpreadsheetError(f"corrupt workbook: {exc}", path=where) from None
     if bad is not None:
         raise SpreadsheetError(f"corrupt workbook: entry {bad} fails its checksum", path=where)
+    return scans
+
+
+def sheets_read(names: list[str]) -> list[str]:
+    """The sheets the reader uses: `layers` (or the first sheet), `settings`, `formulas`."""
+    if not names:
+        return []
+    lower = {n.lower(): n for n in names}
+    return [lower.get("layers", names[0])] + [lower[n] for n in ("settings", "formulas")
+                                              if n in lower and lower[n] != lower.get("layers")]
 
 
 # Exceptions openpyxl raises on damaged files (its own, zip, XML, and value errors).
@@ -128,14 +148,15 @@ class _RawWorkbook:
     """The cell values of the sheets used, read once (read-only, saved values)."""
 
     def __init__(self, path: Path, layers: str, sheets: dict,
-                 exported_layers: int | None = None) -> None:
+                 exported_layers: int | None = None, formulas: dict | None = None) -> None:
         self.path = path
+        self.formulas = formulas or {}  # sheet -> {"B2": "=TEXT"} (from the XML scan)
         self.layers_name = layers
         self.sheets = sheets  # name -> list of row tuples (row 1 first)
         self.exported_layers = exported_layers  # layers the exported formulas cover
 
     @classmethod
-    def read(cls, path: Path) -> "_RawWorkbook":
+    def read(cls, path: Path, scans: dict | None = None) -> "_RawWorkbook":
         from openpyxl import load_workbook
 
         try:
@@ -153,7 +174,7 @@ class _RawWorkbook:
                     ws.reset_dimensions()  # do not trust a declared size
                     rows = []
                     for row in ws.iter_rows(min_row=1, values_only=True):
-                        count += len(row)
+                        count += max(len(row), 1)  # a blank row counts as a cell
                         if count > MAX_CELLS:
                             raise SpreadsheetError(
                                 f"more than {MAX_CELLS} cells in the sheets read", sheet=name,
@@ -166,21 +187,12 @@ class _RawWorkbook:
         except _openpyxl_errors() as exc:
             raise SpreadsheetError(f"corrupt or unreadable workbook: {exc}",
                                    path=str(path)) from None
-        return cls(path, layers, sheets, exported)
+        formulas = {name: scan.formulas for name, scan in (scans or {}).items()}
+        return cls(path, layers, sheets, exported, formulas)
 
     def formula_at(self, sheet: str, cell: str) -> str | None:
-        """The formula text of a cell (read only when a value is missing), or None."""
-        from openpyxl import load_workbook
-
-        try:
-            workbook = load_workbook(self.path, read_only=True, data_only=False)
-            try:
-                value = workbook[sheet][cell].value
-            finally:
-                workbook.close()
-        except _openpyxl_errors():
-            return None
-        return value if isinstance(value, str) and value.startswith("=") else None
+        """The formula text of a cell (from the XML scan), or None."""
+        return self.formulas.get(sheet, {}).get(cell)
 
 
 def _exported_layers(workbook) -> int | None:

@@ -1,0 +1,141 @@
+"""Issue 12, third round of hardening: workbooks that cannot be read, that declare far-away
+rows or huge texts, input cells holding formulas, what `import` writes, sweeps, options
+that were silently ignored, and leftovers of interrupted writes.
+
+Every reproducer is refused as our error: exit status 1 (2 for usage errors), a message with
+its position, no traceback, nothing written and the input unchanged.
+"""
+
+from __future__ import annotations
+
+import builtins
+import zipfile
+from pathlib import Path
+
+import pytest
+
+from layercalc.cli.main import main
+from tests.cli.test_cli_hardening import SMALL_TABLE, assert_our_error, cli, snapshot
+
+
+@pytest.fixture
+def book(tmp_path) -> Path:
+    """A workbook exported from the small table (sheet1 is `layers`, sheet2 `settings`)."""
+    source = tmp_path / "base.layers"
+    source.write_text('title "Northfield"\n' + SMALL_TABLE, encoding="utf-8")
+    path = tmp_path / "book.xlsx"
+    assert main(["export", str(source), "-o", str(path)]) == 0
+    source.unlink()
+    return path
+
+
+def patch_part(path: Path, part: str, change) -> None:
+    """Rewrite one XML part of a workbook with `change(bytes) -> bytes`."""
+    with zipfile.ZipFile(path) as archive:
+        entries = [(info, archive.read(info)) for info in archive.infolist()]
+    with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as archive:
+        for info, data in entries:
+            archive.writestr(info, change(data) if info.filename == part else data)
+
+
+def refused(capsys, tmp_path, book, *needles) -> None:
+    held = snapshot(tmp_path)
+    for args in (["check", book], ["run", book], ["run", book, "--json"],
+                 ["import", book, "-o", tmp_path / "n.layers"]):
+        code, out, err = cli(capsys, *args)
+        assert_our_error(code, out, err, *needles)
+    assert snapshot(tmp_path) == held  # nothing written, the workbook unchanged
+
+
+# ---------------------------------------------------------------- 1. workbooks
+def test_an_unreadable_workbook_is_refused(capsys, tmp_path, book, monkeypatch):
+    book.chmod(0o000)
+    try:
+        try:
+            book.read_bytes()
+        except PermissionError:
+            pass
+        else:  # root reads any file: the open fails as it would for another user
+            real_open = builtins.open
+
+            def refusing_open(file, *args, **kwargs):
+                if str(file) == str(book):
+                    raise PermissionError(13, "Permission denied", str(file))
+                return real_open(file, *args, **kwargs)
+
+            monkeypatch.setattr(builtins, "open", refusing_open)
+        refused(capsys, tmp_path, book, f"{book}: spreadsheet error: cannot read the "
+                "workbook: Permission denied")
+    finally:
+        book.chmod(0o644)
+
+
+FAR = b'<row r="{r}"><c r="A{r}"><v>1</v></c></row></sheetData>'
+
+
+@pytest.mark.parametrize("part, sheet", [("xl/worksheets/sheet1.xml", "layers"),
+                                         ("xl/worksheets/sheet2.xml", "settings")])
+@pytest.mark.parametrize("row, words", [
+    (200_000_000, "row number '200000000' is outside a worksheet (1 to 1,048,576)"),
+    (600_000, "the sheet reaches A600000: the blank rows up to there count as cells, "
+              "more than the 500,000 layercalc reads")])
+def test_a_far_away_row_is_refused_before_reading(capsys, tmp_path, book, part, sheet, row,
+                                                  words):
+    # used to run for minutes and end in MemoryError: blank rows were not counted
+    patch_part(book, part, lambda data: data.replace(b"</sheetData>",
+                                                     FAR.replace(b"{r}", str(row).encode())))
+    refused(capsys, tmp_path, book, f"{book}:{sheet}!A{row}: spreadsheet error: ", words)
+
+
+def test_a_cell_beyond_the_last_column_is_refused(capsys, tmp_path, book):
+    patch_part(book, "xl/worksheets/sheet1.xml", lambda data: data.replace(
+        b"</sheetData>", b'<row r="40"><c r="XFE40"><v>1</v></c></row></sheetData>'))
+    refused(capsys, tmp_path, book, f"{book}:layers!XFE40: spreadsheet error: cell XFE40 "
+            "is outside a worksheet")
+
+
+def _book_with_title(tmp_path, title: str) -> Path:
+    from openpyxl import Workbook
+
+    workbook = Workbook()  # openpyxl writes text as shared strings
+    layers = workbook.active
+    layers.title = "layers"
+    for row in ([("p_bottom [hPa]"), "p_top [hPa]", "T [degC]", "div [1e-5 s^-1]"],
+                [1000, 850, 14.0, -1.0], [850, 700, 5.0, 0.5]):
+        layers.append(row)
+    settings = workbook.create_sheet("settings")
+    settings.append(["title", title])
+    path = tmp_path / "titled.xlsx"
+    workbook.save(path)
+    return path
+
+
+def test_a_huge_shared_string_is_refused_before_openpyxl_reads_it(capsys, tmp_path):
+    # a 35 KB workbook with a 30 MB title took 297 s and 5.6 GB; 300,000 characters here
+    path = _book_with_title(tmp_path, "short title")
+    # openpyxl writes inline strings (and cuts them at 32,767 characters); a spreadsheet
+    # program writes a shared strings part, added here by hand (ECMA-376, 18.4.9)
+    shared = (b'<sst xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" '
+              b'count="1" uniqueCount="1"><si><t>' + b"x" * 300_000 + b"</t></si></sst>")
+    kind = b"http://schemas.openxmlformats.org/officeDocument/2006/relationships/sharedStrings"
+    patch_part(path, "xl/worksheets/sheet2.xml", lambda data: data.replace(
+        b'<c r="B1" t="inlineStr"><is><t>short title</t></is></c>',
+        b'<c r="B1" t="s"><v>0</v></c>'))
+    patch_part(path, "xl/_rels/workbook.xml.rels", lambda data: data.replace(
+        b"</Relationships>", b'<Relationship Type="' + kind + b'" Target="sharedStrings.xml" '
+        b'Id="rId99" /></Relationships>'))
+    patch_part(path, "[Content_Types].xml", lambda data: data.replace(
+        b"</Types>", b'<Override PartName="/xl/sharedStrings.xml" ContentType="application/'
+        b'vnd.openxmlformats-officedocument.spreadsheetml.sharedStrings+xml" /></Types>'))
+    with zipfile.ZipFile(path, "a", zipfile.ZIP_DEFLATED) as archive:
+        archive.writestr("xl/sharedStrings.xml", shared)
+    refused(capsys, tmp_path, path, f"{path}: spreadsheet error: text cell number 1 ",
+            "holds 300,000 characters, more than the 200,000 layercalc reads in one cell")
+
+
+def test_a_huge_inline_string_is_refused_with_its_cell(capsys, tmp_path):
+    path = _book_with_title(tmp_path, "short title")
+    patch_part(path, "xl/worksheets/sheet2.xml",
+               lambda data: data.replace(b"short title", b"x" * 300_000))
+    refused(capsys, tmp_path, path, f"{path}:settings!B1: spreadsheet error: the cell holds "
+            "300,000 characters, more than the 200,000 layercalc reads in one cell")
