@@ -219,16 +219,56 @@ def test_new_template_loads_refuses_to_overwrite_and_forces(capsys, tmp_path):
         sheet.evaluate(scenario)
 
 
+def _template_with_layers_table(text: str) -> str:
+    """The template's commented alternative: the levels table and stations replaced by the
+    layers table (its lines uncommented), as the template tells the user to do."""
+    start, end = text.index("\nlevels\n"), text.index("# ---- or: a layers table")
+    rest = text[:start + 1] + text[end:]
+    a, b = rest.index("# layers\n"), rest.index("# end\n") + len("# end\n")
+    return rest[:a] + "\n".join(line[2:] for line in rest[a:b].splitlines()) + "\n" + rest[b:]
+
+
 def test_template_uses_every_construct():
     sheet = layercalc.loads(TEMPLATE, name="template.layers")
-    assert sheet.title and sheet.notes and sheet.scenarios
+    assert sheet.title and sheet.notes and sheet.scenarios == ["warmer_aloft", "drier"]
     assert sheet.options == {"integrate": "from_surface", "adjust": "obrien"}
     assert sheet.check() == []
     formulas = " ".join(f.source_text for f in sheet.checked.formulas if not f.default)
-    for word in ("below(", "where(", "sum(", "at_max(", "^"):
+    for word in ("below(", "above(", "where(", "sum(", "at_max(", "^"):
         assert word in formulas
-    for word in ("add ", "scale ", "between", "above"):
+    for word in ("add ", "scale ", "between", "above", "below 700 hPa", " from warmer_aloft",
+                 "\nlevels\n", 'station "', "\n# layers\n"):
         assert word in TEMPLATE
+    details = sheet.checked.soundings
+    assert details.network is not None and len(details.network.stations) == 3
+    assert details.hydrostatic and not any(details.hydrostatic[0].flagged)
+    result = sheet.evaluate()
+    for scenario in sheet.scenarios:
+        sheet.evaluate(scenario)
+    assert np.isfinite(np.asarray(result.si_layers["div"])).all()
+
+    alternative = layercalc.loads(_template_with_layers_table(TEMPLATE), name="alt.layers")
+    assert alternative.check() == [] and alternative.checked.soundings is None
+    other = alternative.evaluate()
+    for scenario in alternative.scenarios:
+        alternative.evaluate(scenario)
+    # the alternative's layers are the levels' layer means (mean of the two levels)
+    assert_allclose(np.asarray(other.si_layers["T"]), np.asarray(result.si_layers["T"]))
+
+
+def test_template_lapse_rate_is_right_in_the_lowest_layer():
+    """The lowest layer's lapse rate is the one-sided difference to the layer above, not
+    0 (the edge value below(T, T) = T made it 0 before). Expected: the template's own
+    levels, (14 - 6) K over 1472 - 120 m = 5.92 K/km; the layer means give 5.83 K/km
+    (one-sided difference of the two lowest layer means, computed from the result's T and
+    z_mid below); 0.2 K/km between the two is common practice, no source."""
+    result = layercalc.loads(TEMPLATE, name="template.layers").evaluate()
+    layers = result.si_layers
+    t, z_mid, lapse = (np.asarray(layers[n], dtype=float) for n in ("T", "z_mid", "lapse_rate"))
+    assert_allclose(lapse[0], (t[0] - t[1]) / (z_mid[1] - z_mid[0]), rtol=1e-9)
+    assert_allclose(lapse[0] * 1000.0, (14.0 - 6.0) / (1472.0 - 120.0) * 1000.0, atol=0.2)
+    assert_allclose(lapse[-1], (t[-2] - t[-1]) / (z_mid[-1] - z_mid[-2]), rtol=1e-9)
+    assert_allclose(lapse[2], (t[1] - t[3]) / (z_mid[3] - z_mid[1]), rtol=1e-9)
 
 
 def test_demo_list_and_unknown(capsys):
