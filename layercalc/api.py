@@ -144,7 +144,8 @@ def check_sheet(path_or_text: str | Path, *, is_text: bool = False,
             sheet.evaluate(scenario)
             check_error_model(sheet.checked, scenario)
         except LayercalcError as exc:
-            found.append(exc)
+            if exc.format() not in (seen.format() for seen in found):  # a base problem
+                found.append(exc)                                       # once, not per variant
     return sheet, found
 
 

@@ -26,6 +26,8 @@ import numpy as np
 
 from layercalc.constants import G0, RD
 from layercalc.errors import DefinitionError
+from layercalc.language import units as U
+from layercalc.language.unit_text import parse_unit_string
 from layercalc.physics import ensembles as ens, error_models as err, uncertainty as unc
 from layercalc.evaluation.network_errors import network_chain, network_members, network_of, \
     residual, sensitivity
@@ -70,7 +72,7 @@ class ErrorModel:
     level_correlation: float
     direction_step: float
     speed_step: float
-    div_error: float | None
+    div_error: float | np.ndarray | None   # one sigma for every layer, or one per layer
     members: int
     seed: int
     declared: tuple = ()
@@ -82,7 +84,8 @@ class ErrorModel:
         return {"wind_error": self.wind_error, "wind_error_growth": self.wind_error_growth,
                 "level_correlation": self.level_correlation,
                 "direction_step": self.direction_step, "speed_step": self.speed_step,
-                "div_error": self.div_error, "T_error": self.T_error,
+                "div_error": (self.div_error.tolist() if isinstance(self.div_error, np.ndarray)
+                              else self.div_error), "T_error": self.T_error,
                 "Td_error": self.Td_error, "z_error": self.z_error,
                 "declared": list(self.declared)}
 
@@ -116,8 +119,9 @@ class Assessment:
         return self._ranges
 
 
-def error_model(checked, cells: dict | None = None) -> ErrorModel:
-    """The error model of the base sheet or a variant (``cells``: SI overrides (S,))."""
+def error_model(checked, cells: dict | None = None, columns: dict | None = None) -> ErrorModel:
+    """The error model of the base sheet or a variant (``cells``: SI overrides (S,);
+    ``columns``: the variant's input columns, for a div_error column a scenario changed)."""
     values, declared = {}, []
     for name, (_, default) in MODEL_CELLS.items():
         value = default
@@ -127,6 +131,19 @@ def error_model(checked, cells: dict | None = None) -> ErrorModel:
             value = float(np.ravel(cells[name])[0])
             declared = declared if name in declared else declared + [name]
         values[name] = value
+    column = checked.input_columns.get("div_error")
+    if column is not None:  # a per-layer sigma given as a column of the layers table
+        if "div_error" in declared:
+            raise DefinitionError("div_error is given both as a column and as a cell",
+                                  column.span, hint="keep one: a column for a sigma per "
+                                  "layer, a cell for the same sigma in every layer")
+        if not U.same_dimension(column.unit.dimension, parse_unit_string("s^-1").dimension):
+            raise DefinitionError(f"the column div_error must be a divergence error, not "
+                                  f"[{column.unit.text}]", column.span,
+                                  hint="write it like div, e.g. div_error [1e-5 s^-1]")
+        given = (columns or {}).get("div_error", column.values)
+        values["div_error"] = np.array(np.atleast_2d(given)[0], dtype=float)
+        declared.append("div_error")
     _check_ranges(checked, values)
     return ErrorModel(values["wind_error"], values["wind_error_growth"],
                       values["level_correlation"], values["direction_step"],
@@ -142,7 +159,7 @@ def _check_ranges(checked, values) -> None:
 
     for name in ("wind_error", "wind_error_growth", "direction_step", "speed_step",
                  "div_error", "T_error", "Td_error", "z_error"):
-        if values[name] is not None and values[name] < 0:
+        if values[name] is not None and np.any(np.asarray(values[name]) < 0):
             fail(name, "must not be negative", "an error is a standard deviation or a "
                  "step, 0 or more")
     for name, column in THERMAL_COLUMNS.items():
@@ -179,7 +196,7 @@ def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) ->
 
     if "p_bottom" not in checked.input_columns:
         return None
-    model = error_model(checked, cells)
+    model = error_model(checked, cells, columns)
     has_div = "div" in checked.input_columns
     network = network_of(checked) if has_div else None
     thermal = _thermal_matrices(checked, model)
@@ -199,10 +216,10 @@ def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) ->
         layer_cov = chain["to_layers"] @ chain["covariance"] @ chain["to_layers"].T
         perturbation = network_members(network, model, chain, rng, members)
     elif has_div and model.div_error is not None:
-        layer_cov = err.layer_divergence_covariance(np.full(layer_count, model.div_error),
+        layer_cov = err.layer_divergence_covariance(_per_layer(model.div_error, layer_count),
                                                     model.level_correlation)
         perturbation = ens.draw_correlated_gaussian(
-            rng, members, np.full(layer_count, model.div_error), model.level_correlation)
+            rng, members, _per_layer(model.div_error, layer_count), model.level_correlation)
     if layer_cov is not None:
         omega = unc.omega_matrix(dp, integrate, adjust)
         adjusted = unc.adjustment_matrix(dp, adjust)
@@ -250,7 +267,7 @@ def _divergence_sensitivity(columns, row, model) -> list:
     surface row of the omega matrix) times that layer's sigma, largest first, with each
     layer's share of the tendency variance when the layers are independent. Layers that
     do not reach the tendency (integration from the surface) are left out."""
-    sigma = np.full(row.shape, model.div_error)
+    sigma = _per_layer(model.div_error, row.shape[0])
     ranked = err.rank_sensitivity(row, sigma)
     independent = model.level_correlation == 0.0
     return [(f"div of {columns['p_bottom'][k] / 100:g}-{columns['p_top'][k] / 100:g} hPa",
@@ -376,9 +393,14 @@ def _assess_variant(sheet, scenario):
 
 def check_error_model(checked, scenario: str | None = None) -> ErrorModel:
     """The error model of a variant, its values checked (for ``layercalc check``)."""
-    cells = {}
+    cells, columns = {}, {}
     if scenario not in (None, "base"):
         from layercalc.evaluation.scenarios import scenario_inputs
 
-        cells = scenario_inputs(checked, scenario)[2]
-    return error_model(checked, cells)
+        _, columns, cells = scenario_inputs(checked, scenario)
+    return error_model(checked, cells, columns)
+
+
+def _per_layer(sigma, layer_count: int) -> np.ndarray:
+    """A divergence sigma given once for every layer, or per layer (a column), per layer."""
+    return np.broadcast_to(np.asarray(sigma, dtype=float), (layer_count,)).copy()

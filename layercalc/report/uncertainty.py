@@ -33,7 +33,12 @@ def model_words(model, network) -> str:
             text += f", correlated {model.level_correlation:g} between adjacent levels"
         parts.append(text)
     if network is None and model.div_error is not None:
-        text = f"a divergence error of {model.div_error * 1e5:g}e-5 s^-1 in every layer"
+        if np.ndim(model.div_error):
+            sigma = np.asarray(model.div_error) * 1e5
+            text = (f"a divergence error of {sigma.min():g} to {sigma.max():g}e-5 s^-1 "
+                    "by layer (the div_error column)")
+        else:
+            text = f"a divergence error of {model.div_error * 1e5:g}e-5 s^-1 in every layer"
         if model.level_correlation:
             text += f", correlated {model.level_correlation:g} between adjacent layers"
         parts.append(text)

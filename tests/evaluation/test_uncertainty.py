@@ -150,3 +150,42 @@ def test_a_run_with_an_ensemble_does_not_import_numpy_ma(tmp_path):
                            cwd=tmp_path, timeout=300)
     assert found.returncode == 0, found.stderr
     assert found.stdout.strip() == "False"
+
+
+COLUMN_ERRORS = """title "Made-up column with a divergence error per layer"
+layers
+  p_bottom [hPa]  p_top [hPa]  T [degC]  div [1e-5 s^-1]  div_error [1e-5 s^-1]
+  1000  850   14.0  -1.0  0.1
+  850   700    6.0  -0.6  0.2
+  700   500   -6.0   0.0  0.3
+  500   300  -25.0   0.8  0.4
+end
+scenario worse
+  scale div_error by 2
+end
+"""
+
+
+def test_a_div_error_column_gives_each_layer_its_own_sigma():
+    # source: derived, from the top omega_s = -sum D_k dp_k, so for independent layers
+    # sigma^2 = sum (sigma_k dp_k)^2 = (1e-6 15000)^2 + (2e-6 15000)^2 + (3e-6 20000)^2
+    # + (4e-6 20000)^2 = 0.011125 (Pa/s)^2; a scenario scaling the column doubles it
+    sheet = layercalc.loads(COLUMN_ERRORS)
+    want = np.sqrt(0.011125)
+    base = assess_sheet(sheet)
+    assert_allclose(base.linear["surface_pressure_tendency"], want, rtol=1e-12)
+    assert_allclose(base.model.div_error, [1e-6, 2e-6, 3e-6, 4e-6], rtol=1e-12)
+    worse = assess_sheet(sheet, "worse")
+    assert_allclose(worse.linear["surface_pressure_tendency"], 2 * want, rtol=1e-12)
+
+
+@pytest.mark.parametrize("change, message", [
+    ("div_error [1e-5 s^-1]", "div_error [K]"),
+    ("title", "cell div_error = 0.2 [1e-5 s^-1]\ntitle"),
+])
+def test_a_div_error_column_of_the_wrong_kind_or_twice_is_refused(change, message):
+    # common practice, no source: a divergence error is a divergence; one place for it
+    text = COLUMN_ERRORS.replace(change, message, 1)
+    found = layercalc.problems(text, is_text=True)
+    assert len(found) == 1 and "div_error" in found[0].message
+    assert found[0].location.startswith("<string>:")

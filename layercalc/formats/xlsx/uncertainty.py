@@ -75,7 +75,9 @@ def _model_text(model, network) -> str:
                      f"and {model.speed_step / KNOT:g} kt")
     for name, (unit, factor) in SHOWN.items():
         value = getattr(model, name)
-        if name in model.declared and value:
+        if name in model.declared and getattr(value, "ndim", 0):  # a column, one per layer
+            parts.append(f"{name} per layer (the div_error column of the layers sheet)")
+        elif name in model.declared and value:
             parts.append(f"{name} {value * factor:g}{' ' + unit if unit else ''}")
     return "; ".join(parts) or "none declared"
 
