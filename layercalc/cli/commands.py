@@ -17,6 +17,11 @@ def command_run(args) -> int:
     from layercalc.formats import jsondoc as jsonout
     from layercalc.report import text as report
 
+    if args.units == "si" and args.heights == "dam":
+        raise UsageError("--heights dam and --units si contradict each other: SI heights "
+                         "and thicknesses are in metres",
+                         hint="drop --units si to get decametres, or drop --heights dam")
+    args.heights = args.heights or "m"
     if args.all_scenarios and args.csv:
         raise UsageError("--csv writes one variant's layer table; with --all-scenarios "
                           "there are several", hint="use --scenario NAME with --csv")
@@ -121,8 +126,8 @@ def command_demo(args) -> int:
 def command_plot(args) -> int:
     suffix = Path(args.output).suffix.lower()
     if suffix not in PLOT_SUFFIXES:
-        raise UsageError(f"cannot draw to '{args.output}': the picture must end in .png or "
-                         ".svg", hint=f"e.g. -o {Path(args.output).stem or 'profile'}.png")
+        raise UsageError(f"cannot draw to '{args.output}': the picture must end in .png, "
+                         ".svg or .pdf", hint=f"e.g. -o {Path(args.output).stem or 'profile'}.png")
     if args.dpi < 20 or args.dpi > 1200:
         raise UsageError(f"--dpi {args.dpi} is out of range", hint="use 20 to 1200")
     from layercalc.plots.profile import save_profile

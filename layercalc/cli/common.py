@@ -11,7 +11,7 @@ from pathlib import Path
 from layercalc.errors import InputError, OutputError, UsageError
 
 DEMO_CASE = "midlevel_warming"
-PLOT_SUFFIXES = (".png", ".svg")
+PLOT_SUFFIXES = (".png", ".svg", ".pdf")
 
 
 # Every command's file arguments, by argparse destination: what it reads and what it writes

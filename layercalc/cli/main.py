@@ -65,8 +65,9 @@ def build_parser() -> argparse.ArgumentParser:
                      help="also write the layer table (surface first, with a units row)")
     run.add_argument("--units", choices=("trade", "si"), default="trade",
                      help="units of the report and CSV: the trade's (default) or SI")
-    run.add_argument("--heights", choices=("m", "dam"), default="m",
-                     help="heights and thicknesses in metres (default) or decametres")
+    run.add_argument("--heights", choices=("m", "dam"), default=None,
+                     help="heights and thicknesses in metres (default) or decametres (the "
+                          "trade's units only: SI heights are in metres)")
     run.add_argument("--every-column", action="store_true",
                      help="also list every intermediate column (dp, p_mid, e, r, ...)")
     run.add_argument("-o", "--output", metavar="FILE",
@@ -97,7 +98,7 @@ def build_parser() -> argparse.ArgumentParser:
     demo.add_argument("--list", action="store_true", help="list the worked cases")
     demo.set_defaults(handler=command_demo)
 
-    plot = _command(sub, "plot", "draw the column profile to a PNG or SVG file",
+    plot = _command(sub, "plot", "draw the column profile to a PNG, SVG or PDF file",
                     "layercalc plot worked_cases/midlevel_warming.layers -o profile.png",
                     "Draw divergence by layer and omega at the interfaces against pressure "
                     "(log axis, heights on the right), with the level(s) of non-divergence "
@@ -108,7 +109,7 @@ def build_parser() -> argparse.ArgumentParser:
                     "and vorticity.")
     plot.add_argument("case", metavar="CASE", help="a .layers file (or an .xlsx workbook)")
     plot.add_argument("-o", "--output", metavar="FILE", required=True,
-                      help="the picture to write: FILE.png or FILE.svg")
+                      help="the picture to write: FILE.png, FILE.svg or FILE.pdf")
     plot.add_argument("--scenario", metavar="NAME", help="draw this scenario in the first "
                       "panel instead of the base")
     plot.add_argument("--dpi", type=int, default=100,
@@ -119,7 +120,18 @@ def build_parser() -> argparse.ArgumentParser:
     plot.set_defaults(handler=command_plot)
 
     export = _command(sub, "export", "write the sheet as an .xlsx workbook",
-                      "layercalc export my_column.layers -o my_column.xlsx")
+                      "layercalc export my_column.layers -o my_column.xlsx\n"
+                      "layercalc export worked_cases/three_stations.layers -o network.xlsx",
+                      "Write the sheet as a workbook whose results are live formulas: edit "
+                      "an input and the spreadsheet recalculates. Sheets: 'layers' (the "
+                      "inputs, one row per layer: edit these), 'settings' (surface height, "
+                      "boundary values, what-if cells, options), 'results' (every derived "
+                      "column and cell as a formula, the readable formula beside it, a "
+                      "chart), 'results_<scenario>' and 'compare' (per scenario, and side "
+                      "by side), 'values...' (the same as plain numbers, hidden), "
+                      "'uncertainty' (with an error model), 'formulas' (your formulas and "
+                      "scenarios as .layers text), 'notes' (formulas in words, references, "
+                      "constants). 'layercalc import' reads it back.")
     export.add_argument("case", metavar="CASE", help="a .layers file")
     export.add_argument("-o", "--output", metavar="FILE", required=True,
                         help="the workbook to write (.xlsx)")
@@ -128,7 +140,18 @@ def build_parser() -> argparse.ArgumentParser:
     read = _command(sub, "import", "turn a workbook or soundings into a .layers file",
                     "layercalc import filled_in.xlsx -o my_column.layers\n"
                     "layercalc import bulletin.txt --stations 99901 -o sounding.layers\n"
-                    "layercalc import obs.bufr --near 45.0,-30.0,400 -o network.layers")
+                    "layercalc import obs.bufr --near 45.0,-30.0,400 -o network.layers",
+                    "Write a .layers file from FILE (recognised by content, or say "
+                    "--format). A workbook: sheet 'layers' (or the first sheet) is read "
+                    "as the input table (header 'name [unit]', one row per layer), "
+                    "'settings' for the title, notes, options and input cells, and "
+                    "'formulas' for your formulas and scenario blocks; every other sheet "
+                    "(results, compare, values, notes) is recomputed, never read. A "
+                    "TEMP or PILOT bulletin, a BUFR file or a text table with a header "
+                    "row like 'p [hPa]  T [degC]': one station becomes a levels table, "
+                    "several become station blocks (pick them with --stations or "
+                    "--near). Nothing is written when FILE has an error; the message "
+                    "names its sheet!cell or line.")
     read.add_argument("workbook", metavar="FILE",
                       help="an .xlsx workbook, a TEMP/PILOT bulletin, a BUFR file or a text "
                            "table (recognised by content)")
@@ -157,11 +180,12 @@ def build_parser() -> argparse.ArgumentParser:
     sweep.add_argument("--scenario", metavar="NAME", help="sweep this scenario's sheet")
     sweep.add_argument("--show", metavar="CELL", action="append",
                        help="a result cell to tabulate (repeat for several; default: "
-                            "tendency, surface omega, strongest ascent, column thickness)")
+                            "tendency, surface omega, strongest ascent, column thickness; "
+                            "level_of_nondivergence gives the lowest such level)")
     sweep.add_argument("--csv", metavar="FILE", help="also write the table as CSV")
     sweep.add_argument("--xlsx", metavar="FILE", help="also write the table as a workbook")
     sweep.add_argument("--plot", metavar="FILE", help="also draw the first shown result "
-                       "(.png): a line for one range, a shaded grid for two")
+                       "(.png, .svg or .pdf): a line for one range, a shaded grid for two")
     sweep.add_argument("--quiet", action="store_true", help="do not print the table")
     sweep.set_defaults(handler=command_sweep)
 

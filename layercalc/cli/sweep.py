@@ -48,8 +48,8 @@ def sweep_command(args) -> int:
               "twice)", file=sys.stderr)
         return 2  # a usage error
     if args.plot and Path(args.plot).suffix.lower() not in PLOT_SUFFIXES:
-        raise UsageError(f"cannot draw to '{args.plot}': the picture must end in .png or "
-                          ".svg")
+        raise UsageError(f"cannot draw to '{args.plot}': the picture must end in .png, "
+                          ".svg or .pdf")
     if args.xlsx:
         need_suffix(args.xlsx, (".xlsx",), "the sweep table")
     sheet = load_case(args.case)

@@ -18,6 +18,7 @@ from layercalc.limits import LARGEST_VALUE
 MAX_POINTS = 2_000_000  # grid points in one sweep
 DEFAULT_OUTPUTS = ("surface_pressure_tendency", "omega_surface", "max_ascent",
                    "column_thickness")
+NONDIVERGENCE = "level_of_nondivergence"  # not a cell: the lowest level, per grid point
 _VARY = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*=\s*([^:]+):([^:]+):([^:]+)\s*$")
 
 
@@ -128,16 +129,41 @@ def sweep_table(sheet, ranges: list[Range], scenario: str | None = None,
         unit = checked.input_cells[r.name].unit
         data[r.name] = np.asarray(unit.from_si(points[r.name]), dtype=float)
         units[r.name] = r.unit
+    showable = [*evaluation.cells, *([NONDIVERGENCE] if "div_adjusted" in
+                                        evaluation.columns else [])]
     for name in outputs:
+        if name == NONDIVERGENCE and name in showable:
+            data[name] = _lowest_nondivergence(evaluation, n) / 100.0
+            units[name] = "hPa"
+            continue
         if name not in evaluation.cells:
-            close = close_names(name, evaluation.cells, 3)
+            close = close_names(name, showable, 3)
+            listed = "cells that can be shown: " + ", ".join(showable)
             raise UsageError(f"--show {name}: '{name}' is not a cell of this sheet",
-                             hint=did_you_mean(close) or None)
+                             hint=(did_you_mean(close) + "; " if close else "") + listed)
         unit = checked.unit_of(name, "cell")
         values = np.broadcast_to(evaluation.cells[name], (n, 1))[:, 0]
         data[name] = np.asarray(unit.from_si(values), dtype=float)
         units[name] = unit.text
     return SweepTable(data, units)
+
+
+def _lowest_nondivergence(evaluation, count: int) -> np.ndarray:
+    """Per grid point, the lowest level of non-divergence [Pa] (NaN when the profile has
+    none), as the run report's first level (physics.kinematic.nondivergence_levels)."""
+    from layercalc.physics.kinematic import nondivergence_levels
+
+    p_mid = np.broadcast_to(evaluation.columns["p_mid"], (count, evaluation.columns[
+        "p_mid"].shape[-1]))
+    div = np.broadcast_to(evaluation.columns["div_adjusted"], p_mid.shape)
+    out = np.full(count, np.nan)
+    with np.errstate(all="ignore"):
+        for k in range(count):
+            if np.any(div[k]):
+                levels = nondivergence_levels(p_mid[k], div[k])
+                if levels:
+                    out[k] = levels[0]
+    return out
 
 
 def run_sweep(sheet, ranges: list[Range], scenario: str | None = None,

@@ -280,14 +280,15 @@ def profile_figure(sheet, scenario: str | None = None,
 
 def save_profile(sheet, path: str | Path, scenario: str | None = None,
                  dpi: int = 100, station_level: float = DEFAULT_LEVEL_HPA) -> None:
-    """Draw the profile to a .png or .svg file (written whole, then renamed into place);
+    """Draw the profile to a .png, .svg or .pdf file (written whole, then renamed into place);
     `station_level` [hPa]: the level of the station panel's winds (the nearest level)."""
     from layercalc.files import write_atomic
 
     path = Path(path)
     suffix = path.suffix.lower().lstrip(".")
-    if suffix not in ("png", "svg"):
-        raise OutputError(f"cannot draw to '{path}': the picture must end in .png or .svg")
+    if suffix not in ("png", "svg", "pdf"):
+        raise OutputError(f"cannot draw to '{path}': the picture must end in .png, .svg or "
+                          ".pdf")
     figure = profile_figure(sheet, scenario, station_level)
     buffer = io.BytesIO()
     figure.savefig(buffer, format=suffix, dpi=dpi)

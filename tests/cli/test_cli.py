@@ -280,7 +280,7 @@ def test_demo_list_and_unknown(capsys):
 
 def test_plot_refuses_other_formats(capsys, tmp_path):
     code, _, err = cli(capsys, "plot", str(WARMING), "-o", str(tmp_path / "p.jpg"))
-    assert code == 2 and ".png or .svg" in err
+    assert code == 2 and ".png, .svg or .pdf" in err
     assert list(tmp_path.iterdir()) == []
 
 
@@ -508,3 +508,54 @@ def test_sweep_and_help_leave_the_heavy_libraries_alone():
     assert imported("--help") == "[]"  # no numpy for the help text
     assert imported("sweep", str(WARMING), "--vary", "warming=0:6:1", "--quiet") \
         == "['numpy']"  # a sweep needs numpy, not pandas
+
+
+# --- option rough edges -------------------------------------------------------------------
+def test_units_si_with_heights_dam_is_a_usage_error(capsys):
+    code, out, err = cli(capsys, "run", str(WARMING), "--units", "si", "--heights", "dam")
+    assert code == 2 and out == ""
+    assert "--heights dam and --units si contradict each other" in err
+    assert "usage: layercalc run" in err and "Traceback" not in err
+    for options in (("--units", "si"), ("--heights", "dam"), ("--units", "si", "--heights", "m")):
+        assert cli(capsys, "run", str(WARMING), *options)[0] == 0
+
+
+def test_sweep_show_unknown_lists_the_names_and_shows_nondivergence(capsys, tmp_path):
+    code, _, err = cli(capsys, "sweep", str(WARMING), "--vary", "warming=0:1:1",
+                       "--show", "level_of_nondivergenc")
+    assert code == 2
+    assert "did you mean 'level_of_nondivergence'" in err
+    assert "cells that can be shown:" in err and "surface_pressure_tendency" in err
+    target = tmp_path / "sweep.csv"
+    code, out, _ = cli(capsys, "sweep", str(WARMING), "--vary", "warming=2:4:1", "--show",
+                       "level_of_nondivergence", "--csv", str(target))
+    assert code == 0 and "level_of_nondivergence" in out
+    rows = list(csv.reader(target.open(encoding="utf-8")))
+    column = rows[0].index("level_of_nondivergence")
+    # the sheet's own warming is 3 K: that row equals the run's first (lowest) level
+    # (same code path as `run`; expected from layercalc's run, not an outside source)
+    levels = layercalc.load(WARMING).evaluate().summary["level_of_nondivergence"]
+    row = next(r for r in rows if r[0] in ("3", "3.0"))
+    assert_allclose(float(row[column]), levels[0] / 100.0, rtol=1e-9)
+
+
+@pytest.mark.parametrize("suffix, magic", [(".pdf", b"%PDF"), (".png", b"\x89PNG"),
+                                           (".svg", b"<?xml")])
+def test_plot_writes_pdf_png_and_svg(capsys, tmp_path, suffix, magic):
+    target = tmp_path / f"profile{suffix}"
+    assert cli(capsys, "plot", str(WARMING), "-o", str(target))[0] == 0
+    assert target.read_bytes().startswith(magic)
+    code, _, err = cli(capsys, "plot", str(WARMING), "-o", str(tmp_path / "p.jpg"))
+    assert code == 2 and "must end in .png, .svg or .pdf" in err
+
+
+def test_export_and_import_help_have_examples_and_say_what_is_in_each_sheet(capsys):
+    for command, words in (("export", ("example:", "'layers'", "'settings'", "'results'",
+                                       "'compare'", "'formulas'", "'notes'")),
+                           ("import", ("example:", "'layers'", "'settings'", "'formulas'",
+                                       "never read", "levels table", "station blocks"))):
+        with pytest.raises(SystemExit):
+            main([command, "--help"])
+        out = " ".join(capsys.readouterr().out.split())
+        for word in words:
+            assert word in out, (command, word)

@@ -310,7 +310,7 @@ OPTION_VALUES = {  # name -> (arguments after the case, words of the message)
                              "varied twice"),
     "show_unknown_cell": (["sweep", "--vary", "warming=0:1:1", "--show", "nosuch"],
                           "--show nosuch"),
-    "plot_jpg": (["plot", "-o", "p.jpg"], "must end in .png or .svg"),
+    "plot_jpg": (["plot", "-o", "p.jpg"], "must end in .png, .svg or .pdf"),
     "export_txt": (["export", "-o", "b.txt"], "must end in .xlsx"),
     "run_csv_and_output_on_one_file": (["run", "--csv", "X", "-o", "X"], "both name X"),
     "run_unknown_scenario": (["run", "--scenario", "nosuch"], "no scenario named 'nosuch'"),
