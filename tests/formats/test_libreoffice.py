@@ -440,3 +440,78 @@ def test_an_edit_in_settings_moves_every_height(tmp_path):
     rows = summary_cells(live["results"])
     assert abs(calc["results"].cell(rows["height_500hPa"], 2).value
                - sheet.evaluate().summary["standard_heights"]["500"] - 100.0) < 1e-6
+
+
+EASTMOOR_300 = "       300    -43.0     -51.5    9237    243     83"
+TURNED_DIRECTION = 248.0  # the case's comment: Eastmoor's 300 hPa wind turned 243 -> 248 deg
+
+
+def station_wind_cell(ws, station: str, pressure: float, column: str) -> str:
+    """The coordinate of a station's typed value on the stations sheet."""
+    from layercalc.formats.xlsx.stations import STATION_MARK
+
+    mark = [c.row for c in ws["A"] if c.value == STATION_MARK and ws.cell(c.row, 2).value == station]
+    assert len(mark) == 1
+    header = {ws.cell(mark[0] + 1, j).value.split(" [")[0]: j
+              for j in range(1, ws.max_column + 1) if ws.cell(mark[0] + 1, j).value}
+    row = mark[0] + 2
+    while ws.cell(row, header["p"]).value != pressure:
+        row += 1
+    return ws.cell(row, header[column]).coordinate
+
+
+def fit_column(ws, title: str) -> list[str]:
+    from layercalc.formats.xlsx.stations import FIT_MARK
+
+    mark = [c.row for c in ws["A"] if c.value == FIT_MARK][0]
+    header = mark + 3
+    column = [j for j in range(1, ws.max_column + 1) if ws.cell(header, j).value == title][0]
+    rows = range(header + 1, ws.max_row + 1)
+    return [ws.cell(r, column).coordinate for r in rows if ws.cell(r, 1).value is not None]
+
+
+def test_a_station_wind_turned_in_the_workbook_moves_divergence_omega_and_the_tendency(tmp_path):
+    # Eastmoor's 300 hPa wind turned by 5 degrees on the stations sheet; LibreOffice
+    # recalculates the fit, the layers' div and every result.
+    sheet = case_sheet("three_stations")
+    path = tmp_path / "stations.xlsx"
+    write_workbook(sheet, path)
+    workbook = load_workbook(path)
+    cell = station_wind_cell(workbook["stations"], "Eastmoor", 300, "dir")
+    assert workbook["stations"][cell].value == 243
+    workbook["stations"][cell].value = TURNED_DIRECTION
+    workbook.save(path)
+    calc_path = convert([path], tmp_path / "out", tmp_path / "profile")[path]
+    from tests.formats.test_xlsx_export import worked_cases_folder
+
+    text = (worked_cases_folder() / "three_stations.layers").read_text()
+    assert text.count(EASTMOOR_300) == 1
+    edited = layercalc.loads(text.replace(EASTMOOR_300, EASTMOOR_300.replace("243", "248")),
+                             name="edited.layers")
+    result, before = edited.evaluate(), sheet.evaluate()
+    calc = load_workbook(calc_path, data_only=True)
+    live = load_workbook(path)
+    # source for every expectation below: layercalc's evaluation of the .layers file with
+    # the same wind turned in its station block
+    levels = edited.checked.soundings.network.levels
+    stations_cells = fit_column(live["stations"], "divergence [s^-1]")
+    assert len(stations_cells) == levels.pressure.size
+    assert_recalculated(calc["stations"], stations_cells, levels.divergence, "level divergence")
+    vorticity_cells = fit_column(live["stations"], "vorticity [s^-1]")
+    assert_recalculated(calc["stations"], vorticity_cells, levels.vorticity, "level vorticity")
+    layers = calc["layers"]
+    div_column = [c.column for c in layers[1] if c.value == "div [1e-5 s^-1]"][0]
+    div_cells = [layers.cell(2 + k, div_column).coordinate for k in range(sheet.checked.layer_count)]
+    assert_recalculated(layers, div_cells, result.layers["div"].to_numpy(), "layer div")
+    moved = set()
+    for formula, cells in derived_places(edited, live["results"]):
+        want = (result.layers[formula.name].to_numpy() if formula.kind == "column"
+                else np.array([result.cells[formula.name]]))
+        old = (before.layers[formula.name].to_numpy() if formula.kind == "column"
+               else np.array([before.cells[formula.name]]))
+        assert_recalculated(calc["results"], cells, want, formula.name)
+        if np.any(np.abs(old - want) / relative_scale(want) > 1e-6):
+            moved.add(formula.name)
+    # the turn reaches omega and the tendency (about 7 hPa/3h, the case's comment)
+    assert {"omega_bottom", "omega_top", "surface_pressure_tendency"} <= moved, moved
+    assert_summary(calc["results"], live["results"], result.summary, 1)

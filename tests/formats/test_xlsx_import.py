@@ -24,7 +24,7 @@ from tests.formats.test_xlsx_export import ALL_CASES, case_sheet
 # a workbook stores 16 (openpyxl writes "%.16g"), so these re-import within 1e-16
 # (relative); omega near the ground is a small remainder of large terms there (Dines ratio
 # 0.02), which makes that about 1e-14 in the results, hence 1e-12 for these cases.
-COMPUTED_INPUTS = {"three_stations", "three_stations_uncertainty"}
+NETWORK_CASES = {"three_stations", "three_stations_uncertainty"}
 
 HEADER = ["p_bottom [hPa]", "p_top [hPa]", "T", "Td [degC]", "div [1e-5 s^-1]"]
 ROWS_TOP_FIRST = [[300, 200, -45.0, -55.0, 0.4], [500, 300, -22.0, -35.0, 0.8],
@@ -97,10 +97,9 @@ def test_own_export_imports_to_the_same_sheet(tmp_path, name):
     again = import_workbook(path, layercalc.loads).sheet
     assert again.title == sheet.title and again.notes == sheet.notes
     assert again.options == sheet.options and again.scenarios == sheet.scenarios
-    # source: layercalc's evaluation of the original case; identical bit for bit, except
-    # inputs layercalc computed itself (see COMPUTED_INPUTS)
-    rtol = 1e-12 if name in COMPUTED_INPUTS else 0.0
-    assert_same_results(sheet, again, sheet.scenarios, rtol=rtol)
+    # source: layercalc's evaluation of the original case; identical bit for bit (a
+    # station network comes back as its stations and is computed again the same way)
+    assert_same_results(sheet, again, sheet.scenarios, rtol=0.0)
 
 
 def sheet_contents(path: Path) -> dict:
@@ -116,19 +115,15 @@ def test_export_import_export_gives_the_same_workbook(tmp_path, name):
     second = tmp_path / "second.xlsx"
     write_workbook(import_workbook(first, layercalc.loads).sheet, second)
     a, b = sheet_contents(first), sheet_contents(second)
-    if name in COMPUTED_INPUTS:
-        # a station network comes back as a plain div column, which has no error model
-        # unless div_error is declared (README, uncertainty), so its uncertainty sheet
-        # (layercalc's numbers about the network) is not written again
-        assert "uncertainty" in a and "uncertainty" not in b
-        del a["uncertainty"]
+    if name in NETWORK_CASES:
+        # a station network comes back as its stations (the stations sheet), so the
+        # network, its live fit and its uncertainty sheet are all written again
+        assert "stations" in a and "uncertainty" in a
     assert a.keys() == b.keys()
     for sheet in a:
         if sheet == "settings":  # the note column says "default" before the round trip
             a[sheet] = [row[:3] for row in a[sheet]]
             b[sheet] = [row[:3] for row in b[sheet]]
-        if name in COMPUTED_INPUTS and sheet.startswith(("values", "compare")):
-            continue  # last-digit differences from the 16-digit inputs, checked above
         assert a[sheet] == b[sheet], sheet
 
 

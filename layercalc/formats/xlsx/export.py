@@ -2,6 +2,8 @@
 
 Sheets, in order:
     layers            inputs, header `name [unit]`, one row per layer, surface layer first
+    stations          a live station network only (stations.py): positions, winds as
+                      typed, the fit per level; `layers`' div is then its formula
     settings          `name | value | unit | note`: title, notes, options, input cells
     results           every derived column and cell as a live formula (xlsx_layout.py)
     results_<name>    one per scenario, with its own input block (changed inputs shaded)
@@ -56,7 +58,7 @@ def variants(sheet) -> list[Variant]:
     results += [(name, sheet.evaluate(scenario=name)) for name in sheet.scenarios]
     described = _scenario_descriptions(sheet.checked)
     taken = {"results", "values", "compare", "values_compare", "layers", "settings",
-             "formulas", "notes"}
+             "formulas", "notes", "stations"}
     out = []
     for name, result in results:
         if name == "base":
@@ -85,7 +87,13 @@ def build_workbook(sheet) -> "Built":
     workbook = Workbook()
     layers = workbook.active
     layers.title = "layers"
-    letters = _layers_sheet(layers, checked, base.columns)
+    from layercalc.formats.xlsx.stations import live_network, stations_sheet
+
+    network = live_network(checked)
+    divergence_cells = None
+    if network is not None:
+        divergence_cells = stations_sheet(workbook.create_sheet("stations"), checked, network)
+    letters = _layers_sheet(layers, checked, base.columns, divergence_cells)
     settings_rows = _settings_sheet(workbook.create_sheet("settings"), checked, base.cells)
     links = Links(letters, 2, settings_rows,
                   {n: base.columns[n] for n in checked.input_columns},
@@ -113,6 +121,8 @@ def build_workbook(sheet) -> "Built":
     notes_sheet(workbook.create_sheet("notes"), checked, found, __version__, CAUTION)
     page_setup(layers, CAUTION, "1:1")
     page_setup(workbook["settings"], CAUTION, "1:1")
+    if "stations" in workbook.sheetnames:
+        page_setup(workbook["stations"], CAUTION)
     wrap_columns(workbook["settings"], {1: 18, 2: 30, 3: 12, 4: 70},
                  workbook["settings"].max_row)  # all top aligned: names beside values
     page_setup(workbook["formulas"], CAUTION, "1:1")
@@ -153,13 +163,20 @@ class Built:
 
 
 # ---------------------------------------------------------------- input sheets
-def _layers_sheet(ws, checked, columns_si) -> dict[str, str]:
+def _layers_sheet(ws, checked, columns_si, divergence_cells=None) -> dict[str, str]:
+    """The inputs; with a live station network (`divergence_cells`, see stations.py) the
+    div column is the mean of its two levels' divergence on the stations sheet."""
+    from layercalc.formats.xlsx.stations import layer_divergence_formula
+
     letters = {}
     for j, (name, column) in enumerate(checked.input_columns.items(), start=1):
         letters[name] = letter(j)
         put_text(ws.cell(1, j), f"{name} [{column.unit.text}]")
         style(ws.cell(1, j), "header")
         for k, si in enumerate(columns_si[name]):
+            if name == "div" and divergence_cells is not None:
+                ws.cell(2 + k, j, layer_divergence_formula(divergence_cells, k, column.unit))
+                continue
             ws.cell(2 + k, j, display_input(column.unit, float(si)))
     lines = ("One row per layer, SURFACE LAYER FIRST (row 2 is the lowest layer).", None,
              "Header: name [unit]. Edit the values here and the results sheets recalculate.",

@@ -167,7 +167,8 @@ class _RawWorkbook:
                     raise SpreadsheetError("the workbook has no sheets", path=str(path))
                 lower = {n.lower(): n for n in names}
                 layers = lower.get("layers", names[0])
-                wanted = [layers] + [lower[n] for n in ("settings", "formulas") if n in lower]
+                wanted = [layers] + [lower[n] for n in ("settings", "formulas", "stations")
+                                      if n in lower]
                 sheets, count = {}, 0
                 for name in wanted:
                     ws = workbook[name]
@@ -290,10 +291,16 @@ class _TextBuilder:
         formula_lines = self.formula_lines()
         read_names = {m for line, _, _ in formula_lines for m in IDENTIFIER.findall(line)}
         settings = self.settings(read_names)
-        table = self.layers()
+        stations = self._named("stations")
+        if stations is not None:  # the layers come from the stations (formats/xlsx/stations.py)
+            from layercalc.formats.xlsx.stations import station_blocks
+
+            table = station_blocks(self, stations, self.raw.sheets[stations])
+        else:
+            table = self.layers()
         layers = len(table) - 3  # the lines `layers`, header, ..., `end`
         exported = self.raw.exported_layers
-        if exported is not None and layers != exported:
+        if stations is None and exported is not None and layers != exported:
             self.notice(f"the table has {layers} layers but this workbook's own formulas "
                         f"(the results sheets) cover the {exported} it was exported with: "
                         f"the sheets and layercalc now give two answers; layercalc computes "

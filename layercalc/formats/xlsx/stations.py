@@ -1,0 +1,273 @@
+"""The `stations` sheet of a station-network workbook: the winds as typed, the fit live.
+
+Written for a sheet whose layers come from `station` blocks alone (no top-level `levels`
+table) with a wind at every station and level; otherwise the workbook keeps the layer
+means as inputs (see README). Layout, rows from the top:
+    notes; the geometry block `station | latitude [deg] | longitude [deg] | x [m] | y [m]
+    | north angle [deg] | x - mean [m] | y - mean [m]` (latitude and longitude as typed,
+    read back on import; x, y and the north angle are FIXED values layercalc computed:
+    the stereographic plane about the spherical centroid and the bearing of each
+    station's north on it, physics.stations.tangent_plane_coordinates); the sums of the
+    centred positions; then each station's levels table as typed (`station | name`, the
+    header `name [unit]`, one row per level, SURFACE FIRST, blank for a missing value);
+    then the fit, one row per level: u, v (east, north) from each station's dir and speed
+    (or u and v), turned to the plane by the north angle, the least-squares plane
+    u = u0 + du/dx x + du/dy y (the same for v) in closed form from centred sums, and
+    divergence du/dx + dv/dy and vorticity dv/dx - du/dy, all live.
+The `layers` sheet's div is then the mean of its two levels' divergence (a live formula).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from layercalc.formats.xlsx.cells import letter, put_text, style
+from layercalc.formats.xlsx.formulas import from_si, number_text, to_si
+
+SHEET = "stations"
+GEOMETRY_HEADER_ROW = 5
+GEOMETRY_HEADER = ("station", "latitude [deg]", "longitude [deg]", "x [m]", "y [m]",
+                   "north angle [deg]", "x - mean [m]", "y - mean [m]")
+STATION_MARK = "station"
+FIT_MARK = "fit per level"
+
+
+def live_network(checked) -> tuple | None:
+    """(stations nodes, network details) when the workbook can hold the fit live."""
+    details = checked.soundings
+    document = checked.document
+    if details is None or details.network is None or document is None:
+        return None
+    from layercalc.language.nodes import Station, Table
+
+    statements = document.statements
+    if any(isinstance(s, Table) and s.kind == "levels" for s in statements):
+        return None
+    stations = [s for s in statements if isinstance(s, Station)]
+    network = details.network
+    winds = np.array([np.concatenate([st.u, st.v]) for st in network.stations])
+    if not np.isfinite(winds).all() or "div" not in checked.input_columns:
+        return None
+    if not np.isfinite(network.levels.divergence).all():
+        return None
+    return stations, network
+
+
+def _heading_text(heading) -> str:
+    span = heading.span
+    return " ".join(span.source.text[span.start:span.end].split())
+
+
+def stations_sheet(ws, checked, found) -> list[str]:
+    """Fill `ws`; returns, per level surface first, the cell (on this sheet) of the
+    level's divergence in s^-1."""
+    from layercalc.physics import stations as station_physics
+
+    stations, network = found
+    n = len(stations)
+    notes = ("Station network: the winds are live. Change a station's dir or speed (or u, v) "
+             "in its table below and divergence, vorticity, the layers' div, omega and the "
+             "tendency recalculate.",
+             "x, y and the north angle are FIXED values layercalc computed from the positions "
+             "(stereographic plane about the stations' centroid): editing a latitude or "
+             "longitude does not move a station here; edit the .layers file and export again.",
+             "Each station's levels are listed surface first; T, Td and z are read back on "
+             "import (the layers sheet's T and Td are their station means, as values).")
+    for row, text in enumerate(notes, start=1):
+        put_text(ws.cell(row, 1), text)
+        style(ws.cell(row, 1), "note")
+    lat = np.array([s.latitude for s in stations])
+    lon = np.array([s.longitude for s in stations])
+    x, y, angle = station_physics.tangent_plane_coordinates(
+        lat, lon, network.centroid_latitude, network.centroid_longitude)
+    top = GEOMETRY_HEADER_ROW
+    for j, text in enumerate(GEOMETRY_HEADER, start=1):
+        put_text(ws.cell(top, j), text)
+        style(ws.cell(top, j), "header")
+    first, last = top + 1, top + n
+    for i, st in enumerate(stations):
+        r = top + 1 + i
+        put_text(ws.cell(r, 1), st.name)
+        ws.cell(r, 2, st.latitude)
+        ws.cell(r, 3, st.longitude)
+        ws.cell(r, 4, float(x[i]))
+        ws.cell(r, 5, float(y[i]))
+        ws.cell(r, 6, float(np.rad2deg(angle[i])))
+        ws.cell(r, 7, f"=D{r}-AVERAGE(D${first}:D${last})")
+        ws.cell(r, 8, f"=E{r}-AVERAGE(E${first}:E${last})")
+    sums = last + 2
+    texts = (("Sxx [m^2]", f"=SUMPRODUCT(G{first}:G{last},G{first}:G{last})"),
+             ("Syy [m^2]", f"=SUMPRODUCT(H{first}:H{last},H{first}:H{last})"),
+             ("Sxy [m^2]", f"=SUMPRODUCT(G{first}:G{last},H{first}:H{last})"),
+             ("Sxx Syy - Sxy^2 [m^4]", f"=B{sums}*B{sums + 1}-B{sums + 2}^2"))
+    for k, (label, formula) in enumerate(texts):
+        put_text(ws.cell(sums + k, 1), label)
+        ws.cell(sums + k, 2, formula)
+    sxx, syy, sxy, det = (f"$B${sums + k}" for k in range(4))
+    row = sums + len(texts) + 1
+    levels = network.levels.pressure.size
+    wind_cells = []  # per station: (kind, unit a, unit b, letter a, letter b, first row)
+    for st in stations:
+        put_text(ws.cell(row, 1), STATION_MARK)
+        style(ws.cell(row, 1), "header")
+        put_text(ws.cell(row, 2), st.name)
+        row += 1
+        names = [h.name for h in st.table.headings]
+        for j, heading in enumerate(st.table.headings, start=1):
+            put_text(ws.cell(row, j), _heading_text(heading))
+            style(ws.cell(row, j), "header")
+        data = np.array(st.table.rows, dtype=float).reshape(len(st.table.rows), len(names))
+        order = np.argsort(-data[:, names.index("p")], kind="stable")
+        for k, i in enumerate(order):
+            for j, value in enumerate(data[i], start=1):
+                if np.isfinite(value):
+                    ws.cell(row + 1 + k, j, float(value))
+        units = _units(st.table)
+        pair = ("dir", "speed") if "dir" in names else ("u", "v")
+        wind_cells.append((pair[0], units[pair[0]], units[pair[1]],
+                           letter(names.index(pair[0]) + 1), letter(names.index(pair[1]) + 1),
+                           row + 1))
+        row += levels + 2
+    put_text(ws.cell(row, 1), FIT_MARK)
+    style(ws.cell(row, 1), "header")
+    # the centred positions as rows, so that SUMPRODUCT pairs them with a level's winds
+    up0 = 2 + 2 * n  # first column of the plane u
+    vp0 = up0 + n
+    for offset, source in ((0, "G"), (1, "H")):
+        put_text(ws.cell(row + 1 + offset, 1), ("x - mean [m]", "y - mean [m]")[offset])
+        for i in range(n):
+            for start in (up0, vp0):
+                ws.cell(row + 1 + offset, start + i, f"={source}{first + i}")
+    xrow, yrow = row + 1, row + 2
+    header = row + 3
+    titles = (["p [hPa]"] + [f"u {s.name} [m/s]" for s in stations]
+              + [f"v {s.name} [m/s]" for s in stations]
+              + [f"u plane {s.name} [m/s]" for s in stations]
+              + [f"v plane {s.name} [m/s]" for s in stations]
+              + ["du/dx [s^-1]", "du/dy [s^-1]", "dv/dx [s^-1]", "dv/dy [s^-1]",
+                 "divergence [s^-1]", "vorticity [s^-1]",
+                 "divergence [1e-5 s^-1]", "vorticity [1e-5 s^-1]"])
+    for j, text in enumerate(titles, start=1):
+        put_text(ws.cell(header, j), text)
+        style(ws.cell(header, j), "header")
+    fit0 = vp0 + n
+    L = letter
+    divergence_cells = []
+    p_letter = letter([h.name for h in stations[0].table.headings].index("p") + 1)
+    for k in range(levels):
+        r = header + 1 + k
+        ws.cell(r, 1, f"={p_letter}{wind_cells[0][5] + k}")
+        for i, (kind, unit_a, unit_b, la, lb, row0) in enumerate(wind_cells):
+            a, b = to_si(f"{la}{row0 + k}", unit_a), to_si(f"{lb}{row0 + k}", unit_b)
+            if kind == "dir":
+                u, v = f"=-{b}*SIN({a})", f"=-{b}*COS({a})"
+            else:
+                u, v = f"={a}", f"={b}"
+            ws.cell(r, 2 + i, u)
+            ws.cell(r, 2 + n + i, v)
+            gamma = f"RADIANS($F${first + i})"
+            ue, vn = f"{L(2 + i)}{r}", f"{L(2 + n + i)}{r}"
+            ws.cell(r, up0 + i, f"={ue}*COS({gamma})+{vn}*SIN({gamma})")
+            ws.cell(r, vp0 + i, f"=-{ue}*SIN({gamma})+{vn}*COS({gamma})")
+        urow = f"{L(up0)}{r}:{L(up0 + n - 1)}{r}"
+        vrow = f"{L(vp0)}{r}:{L(vp0 + n - 1)}{r}"
+        xs_u = f"${L(up0)}${xrow}:${L(up0 + n - 1)}${xrow}"
+        ys_u = f"${L(up0)}${yrow}:${L(up0 + n - 1)}${yrow}"
+        xs_v = f"${L(vp0)}${xrow}:${L(vp0 + n - 1)}${xrow}"
+        ys_v = f"${L(vp0)}${yrow}:${L(vp0 + n - 1)}${yrow}"
+        sxu, syu = f"SUMPRODUCT({xs_u},{urow})", f"SUMPRODUCT({ys_u},{urow})"
+        sxv, syv = f"SUMPRODUCT({xs_v},{vrow})", f"SUMPRODUCT({ys_v},{vrow})"
+        ws.cell(r, fit0, f"=({syy}*{sxu}-{sxy}*{syu})/{det}")
+        ws.cell(r, fit0 + 1, f"=({sxx}*{syu}-{sxy}*{sxu})/{det}")
+        ws.cell(r, fit0 + 2, f"=({syy}*{sxv}-{sxy}*{syv})/{det}")
+        ws.cell(r, fit0 + 3, f"=({sxx}*{syv}-{sxy}*{sxv})/{det}")
+        ws.cell(r, fit0 + 4, f"={L(fit0)}{r}+{L(fit0 + 3)}{r}")
+        ws.cell(r, fit0 + 5, f"={L(fit0 + 2)}{r}-{L(fit0 + 1)}{r}")
+        ws.cell(r, fit0 + 6, f"={L(fit0 + 4)}{r}/{number_text(1e-5)}")
+        ws.cell(r, fit0 + 7, f"={L(fit0 + 5)}{r}/{number_text(1e-5)}")
+        divergence_cells.append(f"{L(fit0 + 4)}{r}")
+    from layercalc.formats.xlsx.cells import size_columns
+
+    size_columns(ws, {j: 16 for j in range(1, len(titles) + 1)})
+    return divergence_cells
+
+
+def _units(table) -> dict:
+    """Each heading's unit, as the checker reads it (documented defaults included)."""
+    from layercalc.language import units as U
+    from layercalc.language.defaults import INPUT_UNITS
+    from layercalc.language.unit_text import parse_unit_string, written_unit
+
+    return {h.name: written_unit(h.unit) if h.unit is not None else
+            parse_unit_string(INPUT_UNITS[h.name]) if h.name in INPUT_UNITS else U.ONE
+            for h in table.headings}
+
+
+def layer_divergence_formula(cells: list[str], k: int, unit) -> str:
+    """The layers sheet's div of layer k (surface first): the mean of its two levels."""
+    return "=" + from_si(f"('{SHEET}'!{cells[k]}+'{SHEET}'!{cells[k + 1]})/2", unit)
+
+
+# ---------------------------------------------------------------- reading it back
+def station_blocks(builder, sheet: str, rows: list) -> list:
+    """The `station` blocks of a stations sheet as `.layers` lines of (text, sheet, cell)
+    pieces (reader._TextBuilder.add); the fit block is derived and not read."""
+    from layercalc.formats.xlsx.cells import blank, cell_name, number_text
+
+    def at(r: int, c: int):
+        row = rows[r - 1] if r - 1 < len(rows) else ()
+        return row[c - 1] if c - 1 < len(row) else None
+
+    header = GEOMETRY_HEADER_ROW
+    if at(header, 1) != GEOMETRY_HEADER[0] or at(header, 2) != GEOMETRY_HEADER[1]:
+        raise builder.error(f"the stations sheet has no station list: expected "
+                            f"'{GEOMETRY_HEADER[0]}' and '{GEOMETRY_HEADER[1]}' here", sheet,
+                            cell_name(header, 1),
+                            hint="keep the layout layercalc exported, or delete the sheet")
+    places, r = {}, header + 1
+    while not blank(at(r, 1)):
+        name = str(at(r, 1)).strip()
+        places[name] = (builder.number(at(r, 2), sheet, r, 2, f"latitude of {name}"),
+                        builder.number(at(r, 3), sheet, r, 3, f"longitude of {name}"), r)
+        r += 1
+    lines, seen = [], set()
+    for r in range(r, len(rows) + 1):
+        if at(r, 1) == FIT_MARK:
+            break
+        if at(r, 1) != STATION_MARK:
+            continue
+        name = str(at(r, 2) or "").strip()
+        if name not in places:
+            raise builder.error(f"station '{name}' is not in the station list above", sheet,
+                                cell_name(r, 2), hint="add it to the list with its position")
+        seen.add(name)
+        latitude, longitude, place_row = places[name]
+        lines.append([("station", None, None), ('"' + name.replace('"', "'") + '"', sheet,
+                                                cell_name(r, 2)),
+                      ("latitude", None, None),
+                      (number_text(latitude), sheet, cell_name(place_row, 2)),
+                      ("longitude", None, None),
+                      (number_text(longitude), sheet, cell_name(place_row, 3))])
+        lines.append([("  levels", None, None)])
+        headings, c = [], 1
+        while not blank(at(r + 1, c)):
+            headings.append((str(at(r + 1, c)).strip(), sheet, cell_name(r + 1, c)))
+            c += 1
+        lines.append([("   ", None, None)] + headings)
+        k = r + 2
+        while not blank(at(k, 1)):
+            pieces = [("   ", None, None)]
+            for c in range(1, len(headings) + 1):
+                value = at(k, c)
+                pieces.append(("-", sheet, cell_name(k, c)) if blank(value) else
+                              (number_text(builder.number(value, sheet, k, c, headings[c - 1][0])),
+                               sheet, cell_name(k, c)))
+            lines.append(pieces)
+            k += 1
+        lines.append([("  end", None, None)])
+        lines.append([("end", None, None)])
+    missing = [n for n in places if n not in seen]
+    if missing:
+        raise builder.error(f"station '{missing[0]}' has no levels table on the sheet", sheet,
+                            cell_name(places[missing[0]][2], 1))
+    return lines

@@ -1,0 +1,80 @@
+"""The stations sheet of a station-network workbook (formats/xlsx/stations.py): what is live,
+what falls back to layer means, and how a bad stations sheet is reported on import. The
+numbers are checked by LibreOffice in test_libreoffice.py
+(test_a_station_wind_turned_in_the_workbook_moves_divergence_omega_and_the_tendency)."""
+
+from __future__ import annotations
+
+import re
+
+import pytest
+from openpyxl import load_workbook
+
+import layercalc
+from layercalc.errors import SpreadsheetError
+from layercalc.formats.xlsx.export import write_workbook
+from layercalc.formats.xlsx.reader import import_workbook
+from layercalc.formats.xlsx.stations import FIT_MARK, GEOMETRY_HEADER_ROW, STATION_MARK
+
+from tests.formats.test_xlsx_export import case_sheet, worked_cases_folder
+
+
+def exported(tmp_path, text=None):
+    sheet = case_sheet("three_stations") if text is None else layercalc.loads(text, name="n.layers")
+    path = tmp_path / "book.xlsx"
+    write_workbook(sheet, path)
+    return path, load_workbook(path)
+
+
+def test_the_layers_div_is_the_mean_of_two_live_level_divergences(tmp_path):
+    _, workbook = exported(tmp_path)
+    layers, stations = workbook["layers"], workbook["stations"]
+    column = [c.column for c in layers[1] if c.value == "div [1e-5 s^-1]"][0]
+    first = layers.cell(2, column).value
+    assert re.fullmatch(r"=\('stations'!R55\+'stations'!R56\)/2/1E-05", first), first
+    fit = [c.row for c in stations["A"] if c.value == FIT_MARK][0]
+    assert stations["R54"].value == "divergence [s^-1]"
+    assert stations["R55"].value == "=N55+Q55"  # du/dx + dv/dy
+    # Northfield's u at the lowest level from its typed speed [kt] and dir [deg]:
+    # u = -speed sin(dir) (common practice, no source), 1 kt = 463/900 m/s
+    u_cell = stations.cell(fit + 4, 2).value
+    assert re.fullmatch(r"=-\(F17\*\(463/900\)\)\*SIN\(\(E17\*0\.0174532925199\d*\)\)", u_cell), u_cell
+    typed = [c.row for c in stations["A"]
+             if c.value == STATION_MARK and c.row > GEOMETRY_HEADER_ROW]  # not the list's header
+    assert [stations.cell(r, 2).value for r in typed] == ["Northfield", "Eastmoor", "Southvale"]
+    assert stations.cell(typed[0] + 2, 5).value == 143  # the 1000 hPa dir as typed
+
+
+def test_a_network_with_a_missing_wind_keeps_its_layer_means_as_inputs(tmp_path):
+    text = (worked_cases_folder() / "three_stations.layers").read_text()
+    old = "       850      5.8       3.4    1453    202     32"
+    assert text.count(old) == 1
+    _, workbook = exported(tmp_path, text.replace(old, old[:-12] + "  -      -"))
+    assert "stations" not in workbook.sheetnames
+    layers = workbook["layers"]
+    column = [c.column for c in layers[1] if c.value == "div [1e-5 s^-1]"][0]
+    assert isinstance(layers.cell(2, column).value, float)
+
+
+def test_text_in_a_wind_cell_is_reported_at_its_cell(tmp_path):
+    path, workbook = exported(tmp_path)
+    stations = workbook["stations"]
+    row = [c.row for c in stations["A"] if c.value == STATION_MARK][2] + 2  # Eastmoor 1000
+    stations.cell(row, 5).value = "calm"
+    workbook.save(path)
+    with pytest.raises(SpreadsheetError) as caught:
+        import_workbook(path, layercalc.loads)
+    assert f"stations!E{row}" in caught.value.format()
+    assert "'calm' is not a number" in caught.value.format()
+
+
+def test_a_station_missing_from_the_list_is_reported(tmp_path):
+    path, workbook = exported(tmp_path)
+    stations = workbook["stations"]
+    row = [c.row for c in stations["A"] if c.value == STATION_MARK][3]  # Southvale's table
+    stations.cell(row, 2).value = "Westvale"
+    workbook.save(path)
+    with pytest.raises(SpreadsheetError) as caught:
+        import_workbook(path, layercalc.loads)
+    assert f"stations!B{row}" in caught.value.format()
+    assert "station 'Westvale' is not in the station list" in caught.value.format()
