@@ -354,6 +354,28 @@ def _csv_number(value) -> str:
         return ""
     return f"{value + 0.0:.12g}"  # + 0.0 turns -0.0 into 0.0
 
+# The default columns in the order the report's layer table reads: the layer's pressures
+# and temperatures, then the rest of the thermodynamics (dp, p_mid, humidity, Tv,
+# thickness, the heights bottom before top), then kinematics (div, adjusted, omega and w,
+# bottom before top).
+TABLE_ORDER = ("p_bottom", "p_top", "T", "Td", "RH", "dp", "p_mid", "e", "r", "Tv",
+               "thickness", "z_bottom", "z_top", "div", "div_adjusted", "omega_bottom",
+               "omega_top", "w_bottom", "w_top")
+
+
+def table_order(checked, names: list[str]) -> list[str]:
+    """`names` in table order: the defaults as TABLE_ORDER, then the other input columns
+    as given, then the user's columns as written in the file (the sheet itself keeps
+    its formulas in evaluation order, which put z_top before z_bottom)."""
+    known = [n for n in TABLE_ORDER if n in names]
+    inputs = [n for n in checked.input_columns if n in names and n not in known]
+    written = {f.name: (f.span.start if f.span is not None else -1)
+               for f in checked.formulas if f.kind == "column"}
+    rest = sorted((n for n in names if n not in known and n not in inputs),
+                  key=lambda n: written.get(n, -1))
+    return known + inputs + rest
+
+
 def layer_table_csv(result, system: str = "trade", heights: str = "m") -> str:
     """The layer table as CSV text: a row of names, a row of units, one row per layer from
     the surface upward."""
@@ -362,7 +384,7 @@ def layer_table_csv(result, system: str = "trade", heights: str = "m") -> str:
 
     checked = result.sheet
     columns = result.si_columns
-    names = [n for n in checked.column_names if n in columns]
+    names = table_order(checked, [n for n in checked.column_names if n in columns])
     units = [output_unit(checked, n, "column", system, heights) for n in names]
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")

@@ -559,3 +559,25 @@ def test_export_and_import_help_have_examples_and_say_what_is_in_each_sheet(caps
         out = " ".join(capsys.readouterr().out.split())
         for word in words:
             assert word in out, (command, word)
+
+
+def test_run_csv_columns_follow_the_table_order(capsys, tmp_path):
+    """Heights bottom before top, Tv with the thermodynamics, omega and w after them, the
+    user's columns last as written (order of the report's layer table)."""
+    target = tmp_path / "moist.csv"
+    case = CASES / "moist_summer.layers"
+    assert cli(capsys, "run", str(case), "--csv", str(target))[0] == 0
+    header = target.read_text(encoding="utf-8").splitlines()[0].split(",")
+    assert header[:4] == ["p_bottom", "p_top", "T", "Td"]
+    position = {name: header.index(name) for name in header}
+    assert position["Td"] < position["dp"] < position["p_mid"] < position["e"] < position["r"] < position["Tv"]
+    assert position["Tv"] < position["thickness"] < position["z_bottom"] < position["z_top"]
+    assert position["z_top"] < position["div"] < position["div_adjusted"]
+    assert position["omega_bottom"] < position["omega_top"] < position["w_bottom"] < position["w_top"]
+    user = [name for name in ("dry_thickness", "virtual_excess") if name in header]
+    assert user and all(position[name] > position["w_top"] for name in user)
+    text = case.read_text(encoding="utf-8")
+    assert [n for n in header if n in user] == sorted(user, key=lambda n: text.index(f"column {n}"))
+    sheet = layercalc.load(case)
+    computed = sheet.evaluate().si_columns
+    assert sorted(header) == sorted(n for n in sheet.checked.column_names if n in computed)
