@@ -75,11 +75,21 @@ def sweep_command(args) -> int:
             files.append((args.plot, drawn.read_bytes()))
     write_files(files)
     if not args.quiet:
-        columns = [TableColumn(name, units.get(name, ""), auto(frame[name]))
-                   for name in frame.columns[1:]]
-        first = frame.columns[0]
-        lines = table_lines(first, units.get(first, ""), auto(frame[first]),
-                            columns)
+        varied = [r.name for r in ranges]
+
+        def texts(name: str) -> list[str]:
+            shown = auto(frame[name])
+            if name in ("max_ascent", "max_ascent_pressure"):  # NaN: no ascent, as run says
+                shown = ["none" if v != v else t for v, t in zip(frame[name], shown)]
+            return shown
+
+        columns = [TableColumn(name, units.get(name, ""), texts(name))
+                   for name in frame.columns if name not in varied]
+        # both varied cells in the first column, so that every block of a table too wide
+        # for the screen says which grid point each row is
+        labels = [", ".join(row) for row in zip(*(auto(frame[n]) for n in varied))]
+        lines = table_lines(", ".join(varied), ", ".join(units.get(n, "") for n in varied),
+                            labels, columns)
         from layercalc.caution import CAUTION
 
         lines += ["", f"{len(frame)} points", *wrap("caution: " + CAUTION)]

@@ -144,6 +144,11 @@ def sweep_table(sheet, ranges: list[Range], scenario: str | None = None,
         unit = checked.unit_of(name, "cell")
         values = np.broadcast_to(evaluation.cells[name], (n, 1))[:, 0]
         data[name] = np.asarray(unit.from_si(values), dtype=float)
+        if name in ("max_ascent", "max_ascent_pressure") and "max_ascent" in evaluation.cells:
+            # no ascent (omega nowhere negative): none, as the run report and JSON say
+            # (evaluation.summary.strongest_ascent), empty in the CSV
+            omega = np.broadcast_to(evaluation.cells["max_ascent"], (n, 1))[:, 0]
+            data[name] = np.where(omega < 0, data[name], np.nan)
         units[name] = unit.text
     return SweepTable(data, units)
 
@@ -173,6 +178,38 @@ def run_sweep(sheet, ranges: list[Range], scenario: str | None = None,
     return sweep_table(sheet, ranges, scenario, outputs).to_frame()
 
 
+# Words for the result cells a sweep shows most; any other name reads with spaces.
+DISPLAY_NAMES = {
+    "surface_pressure_tendency": "surface pressure tendency",
+    "omega_surface": "omega at the surface", "omega_top": "omega at the top",
+    "max_ascent": "strongest ascent (omega)", "max_ascent_pressure": "level of strongest ascent",
+    "column_thickness": "column thickness", "column_mean_divergence": "column-mean divergence",
+    "level_of_nondivergence": "lowest level of non-divergence", "dines_ratio": "Dines ratio",
+    "top_mismatch": "top mismatch", "surface_height": "surface height",
+}
+
+
+def display_name(name: str) -> str:
+    return DISPLAY_NAMES.get(name, name.replace("_", " "))
+
+
+def axis_label(name: str, unit: str) -> str:
+    """'surface pressure tendency [hPa/(3 h)]'; a plain number has no unit brackets."""
+    return display_name(name) + (f" [{unit}]" if unit not in ("", "1") else "")
+
+
+def map_colours(values) -> dict:
+    """pcolormesh colours: a signed quantity (values on both sides of zero) gets the
+    diverging map centred on zero, so white is zero and red/blue are the signs; one sign
+    only gets a sequential map over its range (common practice, no source)."""
+    finite = np.asarray(values, dtype=float)
+    finite = finite[np.isfinite(finite)]
+    if finite.size and finite.min() < 0.0 < finite.max():
+        largest = float(np.abs(finite).max())
+        return {"cmap": "RdBu_r", "vmin": -largest, "vmax": largest}
+    return {"cmap": "viridis"}
+
+
 def plot_sweep(frame, ranges: list[Range], output: str, path) -> None:
     """A line (one varied cell) or a shaded grid (two) of one output column."""
     import matplotlib
@@ -182,21 +219,21 @@ def plot_sweep(frame, ranges: list[Range], output: str, path) -> None:
 
     units = frame.attrs.get("units", {})
     fig, ax = plt.subplots(figsize=(6.4, 4.4), dpi=100)
-    label = f"{output} [{units.get(output, '')}]"
+    label = axis_label(output, units.get(output, ""))
     if len(ranges) == 1:
         x = ranges[0].name
         ax.plot(frame[x], frame[output], marker="o", ms=3)
-        ax.set_xlabel(f"{x} [{units.get(x, '')}]")
+        ax.set_xlabel(axis_label(x, units.get(x, "")))
         ax.set_ylabel(label)
         ax.axhline(0.0, color="0.6", lw=0.8)
     else:
         a, b = ranges
-        z = np.asarray(frame[output]).reshape(a.values.size, b.values.size)
-        mesh = ax.pcolormesh(b.values, a.values, z, shading="nearest", cmap="RdBu_r")
+        z = np.asarray(frame[output], dtype=float).reshape(a.values.size, b.values.size)
+        mesh = ax.pcolormesh(b.values, a.values, z, shading="nearest", **map_colours(z))
         fig.colorbar(mesh, ax=ax, label=label)
-        ax.set_xlabel(f"{b.name} [{b.unit}]")
-        ax.set_ylabel(f"{a.name} [{a.unit}]")
-    ax.set_title(f"Sweep: {output}")
+        ax.set_xlabel(axis_label(b.name, b.unit))
+        ax.set_ylabel(axis_label(a.name, a.unit))
+    ax.set_title(f"Sweep: {display_name(output)}")
     fig.tight_layout()
     fig.savefig(path)
     plt.close(fig)

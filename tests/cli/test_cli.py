@@ -581,3 +581,58 @@ def test_run_csv_columns_follow_the_table_order(capsys, tmp_path):
     sheet = layercalc.load(case)
     computed = sheet.evaluate().si_columns
     assert sorted(header) == sorted(n for n in sheet.checked.column_names if n in computed)
+
+
+NO_ASCENT_SHEET = """\
+title "uniform omega"
+cell omega_top [hPa/h] = -1 [hPa/h]
+layers
+  p_bottom [hPa]  p_top [hPa]  T [degC]  div [1e-5 s^-1]
+  1000  850  10  0
+   850  700   2  0
+end
+"""
+
+
+def test_sweep_gives_no_ascent_as_none_and_keeps_both_varied_cells_in_every_block(
+        capsys, tmp_path):
+    """div = 0 everywhere: omega equals omega_top in every layer (integration from the top,
+    derived), so omega_top >= 0 has no ascent: none in the table, empty in the CSV, as
+    `run` says none."""
+    case = tmp_path / "uniform.layers"
+    case.write_text(NO_ASCENT_SHEET, encoding="utf-8")
+    target = tmp_path / "s.csv"
+    code, out, _ = cli(capsys, "sweep", str(case), "--vary", "omega_top=-1:1:1",
+                       "--vary", "surface_height=0:100:100", "--show", "max_ascent",
+                       "--show", "max_ascent_pressure", "--show", "surface_pressure_tendency",
+                       "--show", "omega_surface", "--show", "column_thickness",
+                       "--show", "column_mean_divergence", "--csv", str(target))
+    assert code == 0
+    blocks = [b for b in out.split("\n\n") if "omega_top, surface_height" in b]
+    assert len(blocks) >= 2                      # wrapped: every block names both cells
+    for block in blocks:
+        assert block.splitlines()[2].startswith("-1.000, 0.0 ")
+    first = blocks[0].splitlines()
+    assert first[2].split()[2] == "-1.000" and first[-1].split()[2] == "none"
+    rows = list(csv.reader(target.open(encoding="utf-8")))
+    column = rows[0].index("max_ascent")
+    assert [r[column] for r in rows[2:]] == ["-1.0", "-1.0", "", "", "", ""]
+    assert [r[column + 1] for r in rows[2:]][-1] == ""
+    case.write_text(NO_ASCENT_SHEET.replace("= -1 [hPa/h]", "= 1 [hPa/h]"), encoding="utf-8")
+    code, run_out, _ = cli(capsys, "run", str(case))
+    assert code == 0 and "none: omega is nowhere negative" in run_out
+
+
+def test_sweep_heat_map_is_centred_on_zero_with_display_labels(capsys, tmp_path):
+    from layercalc.evaluation.sweep import axis_label, map_colours
+
+    # signed: symmetric limits, so zero is the map's centre (white)
+    assert map_colours([-1.0, 3.0]) == {"cmap": "RdBu_r", "vmin": -3.0, "vmax": 3.0}
+    assert map_colours([1.0, 3.0]) == {"cmap": "viridis"}          # one sign: sequential
+    assert axis_label("surface_pressure_tendency", "hPa/(3 h)") == (
+        "surface pressure tendency [hPa/(3 h)]")
+    assert axis_label("div_scale", "1") == "div scale"              # no '[1]'
+    target = tmp_path / "map.png"
+    assert cli(capsys, "sweep", str(WARMING), "--vary", "omega_top=-2:2:1", "--vary",
+               "surface_height=0:100:50", "--plot", str(target), "--quiet")[0] == 0
+    assert target.read_bytes().startswith(b"\x89PNG")
