@@ -4,6 +4,7 @@ bad cell, bad file and oversized file gives a SpreadsheetError that names sheet!
 from __future__ import annotations
 
 import hashlib
+import re
 import zipfile
 from pathlib import Path
 
@@ -400,3 +401,28 @@ def test_a_row_added_in_the_workbook_is_said_not_silently_computed_twice(tmp_pat
     for name in ("results", "results_warmed"):
         assert "COUNT('layers'!$A$2:$A$1048576)=12" in workbook[name]["B4"].value
         assert any("B4" in str(rng.sqref) for rng in workbook[name].conditional_formatting)
+
+
+@pytest.mark.parametrize("name", ["midlevel_warming", "three_stations"])
+def test_imported_text_is_laid_out_as_one_writes_it(tmp_path, name):
+    """Tables aligned (every number right-aligned under its header, indented under the word
+    that opens the table) and a plain number written as one: `1.1`, not `1.1 [1]`."""
+    path = tmp_path / "book.xlsx"
+    write_workbook(case_sheet(name), path)
+    text = import_workbook(path, layercalc.loads).text
+    assert " [1]" not in text
+    if name == "midlevel_warming":
+        assert "\ncell div_scale = 1.1\n" in text
+    lines = text.splitlines()
+    blocks = [k for k, line in enumerate(lines) if line.strip() in ("layers", "levels")]
+    assert blocks
+    for start in blocks:
+        end = next(k for k in range(start + 1, len(lines)) if lines[k].strip() == "end")
+        rows = lines[start + 1:end]
+        opener = len(lines[start]) - len(lines[start].lstrip())
+        assert all(row.startswith(" " * (opener + 2)) for row in rows)
+        # right edges of the header's columns = right edges of every row's numbers
+        edges = {tuple(m.end() for m in re.finditer(r"\S+(?: \[[^\]]*\])?",
+                                                                  rows[0]))}
+        for row in rows[1:]:
+            assert tuple(m.end() for m in re.finditer(r"\S+", row)) in edges, row

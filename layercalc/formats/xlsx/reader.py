@@ -53,6 +53,31 @@ def read_workbook(path, compile_text) -> str:
     return import_workbook(path, compile_text).text
 
 
+def aligned_tables(lines: list) -> list:
+    """(pieces, widths, indent) per line: the header and rows of every `layers` or `levels`
+    table right-aligned in columns and indented under the word that opens it, as one writes
+    a table by hand; other lines as they are (widths None)."""
+    out, block, indent = [], None, ""
+    for line in lines:
+        word = line[0][0].strip() if line else ""
+        if block is None:
+            out.append((line, None, ""))
+            if word in ("layers", "levels"):
+                block, indent = [], line[0][0][:len(line[0][0]) - len(line[0][0].lstrip())]
+            continue
+        if word == "end" and len(line) == 1:
+            rows = [[piece for piece in row if piece[1] is not None or piece[0].strip()]
+                    for row in block]
+            widths = [max(len(row[k][0]) for row in rows if k < len(row))
+                      for k in range(max((len(row) for row in rows), default=0))]
+            out += [(row, widths, indent + "  ") for row in rows]
+            out.append((line, None, ""))
+            block = None
+            continue
+        block.append(line)
+    return out
+
+
 @dataclass
 class ImportedWorkbook:
     """The text, the checked sheet built from it, and notices placed at sheet!cell."""
@@ -264,16 +289,20 @@ class _TextBuilder:
             raise self.error(message, sheet, cell, hint=exc.hint) from None
 
     # -- text with places ---------------------------------------------------------
-    def add(self, pieces: list[tuple[str, str | None, str | None]]) -> None:
-        """One line from (text, sheet, cell) pieces joined by spaces."""
+    def add(self, pieces: list[tuple[str, str | None, str | None]],
+            widths: list[int] | None = None, indent: str = "") -> None:
+        """One line from (text, sheet, cell) pieces joined by spaces; with `widths`, each
+        piece right-aligned in its column, columns two spaces apart (an aligned table)."""
         line_number = len(self.lines) + 1
-        parts, column, marks = [], 1, []
-        for text, sheet, cell in pieces:
+        separator = "  " if widths else " "
+        parts, column, marks = [], 1 + len(indent), []
+        for k, (text, sheet, cell) in enumerate(pieces):
+            pad = max(widths[k] - len(text), 0) if widths else 0
             if sheet is not None:
-                marks.append((column, column + len(text), sheet, cell))
-            parts.append(text)
-            column += len(text) + 1
-        self.lines.append(" ".join(parts))
+                marks.append((column + pad, column + pad + len(text), sheet, cell))
+            parts.append(" " * pad + text)
+            column += pad + len(text) + len(separator)
+        self.lines.append(indent + separator.join(parts))
         self.marks[line_number] = marks
 
     def place(self, span) -> tuple[str | None, str | None]:
@@ -313,8 +342,8 @@ class _TextBuilder:
             self.add([(f"# {where}: {notice.message}", None, None)])
         for line in settings:
             self.add(line)
-        for line in table:
-            self.add(line)
+        for line, widths, indent in aligned_tables(table):
+            self.add(line, widths, indent)
         for text, sheet, cell in formula_lines:
             self.add([(text, sheet, cell)])
         return "\n".join(self.lines) + "\n"
@@ -424,8 +453,11 @@ class _TextBuilder:
         else:
             unit_text = str(unit).strip()
             self.unit(unit_text, name, unit_cell)
-        return [("cell", None, None), (key, name, cell_name(r, 1)), ("=", None, None),
-                (number_text(number), name, value_cell), (f"[{unit_text}]", name, unit_cell)]
+        line = [("cell", None, None), (key, name, cell_name(r, 1)), ("=", None, None),
+                (number_text(number), name, value_cell)]
+        if unit_text not in ("1", ""):  # a plain number is written as one: `2`, not `2 [1]`
+            line.append((f"[{unit_text}]", name, unit_cell))
+        return line
 
     def layers(self) -> list:
 
