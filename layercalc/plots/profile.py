@@ -102,16 +102,51 @@ def _height_axis(ax, p_hpa: np.ndarray, z_km: np.ndarray) -> None:
     right.set_ylabel("height (km)")
 
 
+# Ticks closer than this ratio of pressures would print over each other at the figure's
+# height (own choice: 3 % of ln p is about 10 pixels over a 1000-100 hPa axis)
+TICK_CLEARANCE = 1.03
+# Between two labelled ticks further apart than this ratio, 50 hPa steps are added (own
+# choice: just above the 850-700 hPa gap, 1.214, the widest of the standard ticks below
+# 500 hPa, so that a column from 1000 hPa keeps the standard ticks alone)
+TICK_GAP = 1.22
+# ... only in the lower troposphere, where a high surface leaves the axis bare; aloft the
+# standard ticks are as a forecaster reads them (own choice)
+FILL_BELOW_HPA = 600.0
+
+
+def pressure_ticks(surface_hpa: float, top_hpa: float) -> tuple[list[float], list[str]]:
+    """Pressure ticks [hPa] and their labels for an axis from the surface to the top:
+    the standard pressures within it, the surface pressure itself (labelled 'NNN sfc'),
+    the top when it is no standard pressure, and 50 hPa steps where the standard ones
+    leave a wide gap below 600 hPa (a surface at 862 hPa otherwise has only 700 hPa below
+    600 hPa)."""
+    ticks = {round(surface_hpa, 1): f"{surface_hpa:.0f} sfc"}
+    standard = [t for t in STANDARD_TICKS if top_hpa <= t <= surface_hpa]
+    if not standard or min(standard) / top_hpa > TICK_GAP:
+        standard.append(round(top_hpa, 1))
+    for t in standard:
+        if surface_hpa / t > TICK_CLEARANCE:
+            ticks[float(t)] = f"{t:g}"
+    ordered = sorted(ticks, reverse=True)
+    for lower, upper in zip(ordered, ordered[1:]):
+        if lower >= FILL_BELOW_HPA and lower / upper > TICK_GAP:
+            for step in np.arange(np.floor(lower / 50.0) * 50.0, upper, -50.0):
+                if lower / step > TICK_CLEARANCE and step / upper > TICK_CLEARANCE:
+                    ticks[float(step)] = f"{step:g}"
+    ordered = sorted(ticks, reverse=True)
+    return ordered, [ticks[t] for t in ordered]
+
+
 def _pressure_axis(ax, p_hpa: np.ndarray) -> None:
     from matplotlib.ticker import FixedLocator, NullFormatter, NullLocator, ScalarFormatter
 
+    from matplotlib.ticker import FixedFormatter
+
     ax.set_yscale("log")
     ax.set_ylim(p_hpa.max(), p_hpa.min())  # pressure increasing downward
-    ticks = [t for t in STANDARD_TICKS if p_hpa.min() <= t <= p_hpa.max()]
-    ax.yaxis.set_major_locator(FixedLocator(ticks or [p_hpa.max(), p_hpa.min()]))
-    formatter = ScalarFormatter()
-    formatter.set_scientific(False)
-    ax.yaxis.set_major_formatter(formatter)
+    ticks, labels = pressure_ticks(float(p_hpa.max()), float(p_hpa.min()))
+    ax.yaxis.set_major_locator(FixedLocator(ticks))
+    ax.yaxis.set_major_formatter(FixedFormatter(labels))
     ax.yaxis.set_minor_locator(NullLocator())
     ax.yaxis.set_minor_formatter(NullFormatter())
     ax.set_ylabel("pressure (hPa)")

@@ -254,3 +254,39 @@ def test_a_station_without_wind_at_the_level_has_no_arrow():
 def test_a_bad_station_level_is_our_error(case, level):
     with pytest.raises(OutputError, match="above 0 hPa"):
         profile_figure(layercalc.load(case), station_level=level)
+
+
+HIGH_SURFACE = """\
+title "Highland station (made-up)"
+cell surface_height = 1350 m
+layers
+  p_bottom [hPa]  p_top [hPa]  T [degC]  div [1e-5 s^-1]
+     862           800          12.0      -1.0
+     800           700           6.0      -0.6
+     700           600          -1.0      -0.2
+     600           500          -9.0       0.3
+     500           400         -19.0       0.6
+     400           300         -32.0       0.8
+     300           250         -44.0       0.4
+     250           200         -52.0       0.2
+end
+"""
+
+
+def test_a_high_surface_is_labelled_with_enough_pressure_ticks():
+    """Surface at 862 hPa: its own label, then 800 and 750 hPa (50 hPa steps) before the
+    standard 700 hPa, where before only 850 hPa (beside the surface) and 700 hPa were
+    labelled. A column from 1000 hPa keeps the standard ticks (nothing added aloft)."""
+    from layercalc.plots.profile import pressure_ticks
+
+    figure = profile_figure(layercalc.loads(HIGH_SURFACE, name="high.layers"))
+    axis = figure.axes[0]
+    labels = [t.get_text() for t in axis.get_yticklabels()]
+    ticks = list(axis.get_yticks())
+    assert labels[:4] == ["862 sfc", "800", "750", "700"]
+    assert_allclose(ticks[:4], [862.0, 800.0, 750.0, 700.0])
+    assert "850" not in labels          # beside the surface label it would print over it
+    ticks, labels = pressure_ticks(1000.0, 100.0)
+    assert labels == ["1000 sfc", "925", "850", "700", "600", "500", "400", "300", "250",
+                      "200", "150", "100"]
+    assert pressure_ticks(780.0, 150.0)[1][:3] == ["780 sfc", "700", "600"]
