@@ -9,6 +9,7 @@ its position, no traceback, nothing written and the input unchanged.
 from __future__ import annotations
 
 import builtins
+import re
 import zipfile
 from pathlib import Path
 
@@ -139,3 +140,26 @@ def test_a_huge_inline_string_is_refused_with_its_cell(capsys, tmp_path):
                lambda data: data.replace(b"short title", b"x" * 300_000))
     refused(capsys, tmp_path, path, f"{path}:settings!B1: spreadsheet error: the cell holds "
             "300,000 characters, more than the 200,000 layercalc reads in one cell")
+
+
+# ---------------------------------------------------------------- 2. formulas in input cells
+@pytest.mark.parametrize("formula", ['WEBSERVICE("http://example.invalid/t")',
+                                     "[1]Sheet1!A1", 'HYPERLINK("http://example.invalid",5.5)'])
+def test_an_input_cell_holding_a_formula_is_named_in_a_warning(capsys, tmp_path, book,
+                                                               formula):
+    from xml.sax.saxutils import escape
+
+    def put_formula(data: bytes) -> bytes:
+        found = re.search(rb'<c r="C2"[^>]*>', data)
+        assert found, "the exported layers sheet has its T value in C2"
+        return (data[:found.end()] + b"<f>" + escape(formula).encode() + b"</f>"
+                + data[found.end():])
+
+    patch_part(book, "xl/worksheets/sheet1.xml", put_formula)
+    for args in (["check", book], ["run", book]):
+        code, out, err = cli(capsys, *args)
+        assert code == 0, out + err
+        text = "".join((out + err).split())  # the report wraps its warnings, even the path
+        want = f"{book}:layers!C2: warning: the input cell holds the formula ={formula}"
+        assert "".join(want.split()) in text
+        assert "neverevaluatestheformula" in text

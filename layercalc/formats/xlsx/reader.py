@@ -12,7 +12,8 @@ Reads layercalc's own export and hand-entered workbooks:
 - sheet `formulas` (optional): one line of the layers language per row in column A (user
   formulas and scenario blocks), parsed by layercalc's own parser, never evaluated as code.
 
-The workbook is opened read-only (data_only: a formula cell gives its saved value) and is
+The workbook is opened read-only (data_only: a formula cell gives its saved value, and an
+input cell holding a formula gets a warning naming it; formulas are never evaluated) and is
 never modified. The read is bounded before openpyxl sees the file (size, zip entries,
 decompressed size; then `scan`: the rows and columns the sheets read declare, the shared
 strings' size) and while reading (cell count, a blank row counting as one).
@@ -38,6 +39,8 @@ MAX_FILE_BYTES = 50_000_000           # the .xlsx file on disk
 MAX_UNCOMPRESSED_BYTES = 200_000_000  # sum of the zip entries' declared sizes
 MAX_ZIP_ENTRIES = 5_000
 MAX_CELLS = 500_000                   # cells read over the sheets used
+OTHER_SHEETS = ("settings", "formulas", "stations")  # read beside the layers sheet
+MAX_FORMULA_NOTICES = 10              # input cells holding formulas named one by one
 # Input cells the default formulas may read (layercalc.names: the canonical input cells).
 KNOWN_CELLS = INPUT_CELLS
 TEXT_SETTINGS = ("title", "note")
@@ -151,12 +154,13 @@ def _guard(path: Path) -> dict:
 
 
 def sheets_read(names: list[str]) -> list[str]:
-    """The sheets the reader uses: `layers` (or the first sheet), `settings`, `formulas`."""
+    """The sheets the reader uses: `layers` (or the first sheet), `settings`, `formulas`,
+    `stations`; the same list `_RawWorkbook.read` reads."""
     if not names:
         return []
     lower = {n.lower(): n for n in names}
-    return [lower.get("layers", names[0])] + [lower[n] for n in ("settings", "formulas")
-                                              if n in lower and lower[n] != lower.get("layers")]
+    first = lower.get("layers", names[0])
+    return [first] + [lower[n] for n in OTHER_SHEETS if n in lower and lower[n] != first]
 
 
 # Exceptions openpyxl raises on damaged files (its own, zip, XML, and value errors).
@@ -192,8 +196,7 @@ class _RawWorkbook:
                     raise SpreadsheetError("the workbook has no sheets", path=str(path))
                 lower = {n.lower(): n for n in names}
                 layers = lower.get("layers", names[0])
-                wanted = [layers] + [lower[n] for n in ("settings", "formulas", "stations")
-                                      if n in lower]
+                wanted = sheets_read(names)
                 sheets, count = {}, 0
                 for name in wanted:
                     ws = workbook[name]
@@ -249,6 +252,7 @@ class _TextBuilder:
         self.lines: list[str] = []
         self.marks: dict[int, list[tuple[int, int, str, str]]] = {}  # line -> pieces
         self.notices: list[Notice] = []
+        self.formula_cells: set[tuple[str, str]] = set()
 
     # -- errors and notices -----------------------------------------------------
     def error(self, message: str, sheet: str, cell: str | None, hint: str | None = None):
@@ -257,9 +261,24 @@ class _TextBuilder:
     def notice(self, message: str, sheet: str, cell: str) -> None:
         self.notices.append(Notice(message, location=f"{self.path}:{sheet}!{cell}"))
 
+    def formula_warning(self, sheet: str, cell: str) -> None:
+        """A notice for an input cell that holds a formula: its saved value is taken as it
+        is; layercalc never evaluates it (a web request, a link to another file)."""
+        formula = self.raw.formula_at(sheet, cell)
+        if formula is None or (sheet, cell) in self.formula_cells:
+            return
+        self.formula_cells.add((sheet, cell))
+        if len(self.formula_cells) > MAX_FORMULA_NOTICES:
+            return
+        shown = formula if len(formula) <= 60 else formula[:57] + "..."
+        self.notice(f"the input cell holds the formula {shown}: layercalc takes the value "
+                    "the spreadsheet saved and never evaluates the formula (nor fetches what "
+                    "it links to); type the number to make the input plain", sheet, cell)
+
     def number(self, value, sheet: str, row: int, column: int, what: str) -> float:
         """A cell that must hold a number."""
         cell = cell_name(row, column)
+        self.formula_warning(sheet, cell)
         if blank(value):
             formula = self.raw.formula_at(sheet, cell) if value is None else None
             if formula:
@@ -281,6 +300,7 @@ class _TextBuilder:
     def unit(self, text: str, sheet: str, cell: str):
         from layercalc.language.unit_text import parse_unit_string
 
+        self.formula_warning(sheet, cell)
         try:
             return parse_unit_string(text, where=f"{sheet}!{cell}")
         except LayercalcError as exc:
@@ -327,6 +347,11 @@ class _TextBuilder:
             table = station_blocks(self, stations, self.raw.sheets[stations])
         else:
             table = self.layers()
+        extra = len(self.formula_cells) - MAX_FORMULA_NOTICES
+        if extra > 0:
+            sheet, cell = sorted(self.formula_cells)[0]
+            self.notice(f"{extra} more input cells hold formulas; their saved values are "
+                        "taken, never evaluated", sheet, cell)
         layers = len(table) - 3  # the lines `layers`, header, ..., `end`
         exported = self.raw.exported_layers
         if stations is None and exported is not None and layers != exported:
@@ -388,6 +413,7 @@ class _TextBuilder:
             if not isinstance(value, str):
                 raise self.error("a formula must be text in the layers language", name,
                                  cell_name(r, 1))
+            self.formula_warning(name, cell_name(r, 1))
             if r == 1 and value.strip().lower().startswith("definition"):
                 continue
             out += [(line.rstrip(), name, cell_name(r, 1)) for line in value.splitlines()
@@ -429,9 +455,11 @@ class _TextBuilder:
     def setting(self, name: str, r: int, key: str, value, unit, known_cells: set[str]):
         value_cell = cell_name(r, 2)
         if key in TEXT_SETTINGS:
+            self.formula_warning(name, value_cell)
             text = "" if value is None else str(value)
             return [(key, None, None), (_quote(text), name, value_cell)]
         if key in OPTIONS:
+            self.formula_warning(name, value_cell)
             choice = "" if value is None else str(value).strip()
             if choice not in OPTIONS[key]:
                 raise self.error(f"setting {key} cannot be '{choice}'", name, value_cell,
