@@ -10,7 +10,7 @@ from layercalc.cli.common import (
     PLOT_SUFFIXES, case_summary, emit, load_case, need_scenario, need_suffix, refuse_overwrite,
     worked_cases, worked_cases_folder, write_files,
 )
-from layercalc.errors import InputError, OutputError, UsageError
+from layercalc.errors import InputError, LayercalcError, OutputError, UsageError
 
 
 def command_run(args) -> int:
@@ -152,7 +152,6 @@ def command_export(args) -> int:
 
 def command_import(args) -> int:
     from layercalc.api import loads
-    from layercalc.files import write_text_atomic
     from layercalc.formats.xlsx import reader as module
 
     need_suffix(args.output, (".layers",), "the sheet")
@@ -165,13 +164,32 @@ def command_import(args) -> int:
     if not is_book:
         text = _soundings_text(args)
         loads(text, name=args.output)  # refuse to write a sheet that would not load
-        write_text_atomic(args.output, text)
-        print(f"wrote {args.output}", file=sys.stderr)
-        return 0
-    text = module.read_workbook(Path(args.workbook), loads)  # compiled there: it loads
-    write_text_atomic(args.output, text)
+    else:
+        text = module.read_workbook(Path(args.workbook), loads)  # compiled there
+    write_loadable(args.output, text)
     print(f"wrote {args.output}", file=sys.stderr)
     return 0
+
+
+def write_loadable(path, text: str) -> None:
+    """Write an imported sheet only if the bytes written load again, read back from the
+    file as `layercalc run` reads it (a text that compiles in memory may still not load
+    from disk: a lone carriage return inside quotes ends the line when read)."""
+    from layercalc.api import load
+    from layercalc.files import write_through_temporary
+
+    def written_and_read_back(temporary: str) -> None:
+        Path(temporary).write_bytes(text.encode("utf-8"))
+        try:
+            load(temporary)
+        except LayercalcError as exc:
+            raise OutputError(
+                f"cannot write {path}: the sheet made from the input does not load again "
+                f"({exc.kind}: {exc.message}); nothing was written",
+                hint="this is a fault in layercalc's import; please report it with the "
+                     "input file") from None
+
+    write_through_temporary(path, written_and_read_back)
 
 
 def _soundings_text(args) -> str:

@@ -163,3 +163,52 @@ def test_an_input_cell_holding_a_formula_is_named_in_a_warning(capsys, tmp_path,
         want = f"{book}:layers!C2: warning: the input cell holds the formula ={formula}"
         assert "".join(want.split()) in text
         assert "neverevaluatestheformula" in text
+
+
+# ---------------------------------------------------------------- 3. what import writes loads
+def _title_with(book: Path, xml_text: bytes) -> None:
+    """Put `xml_text` (XML, so &#13; is a carriage return that survives parsing) at the
+    start of the exported settings sheet's title, B2."""
+    def change(data: bytes) -> bytes:
+        found = re.search(rb'<c r="B2"[^>]*><is><t>', data)
+        assert found, "the exported settings sheet has its title in B2"
+        return data[:found.end()] + xml_text + data[found.end():]
+
+    patch_part(book, "xl/worksheets/sheet2.xml", change)
+
+
+@pytest.mark.parametrize("xml_text, title", [(b"one&#13;two ", "one\ntwo Northfield"),
+                                             (b"one&#13;&#10;two ", "one\ntwo Northfield"),
+                                             (b"one&#9;two ", "one\ttwo Northfield")])
+def test_import_of_a_title_with_a_line_break_writes_a_sheet_that_loads(capsys, tmp_path, book,
+                                                                       xml_text, title):
+    import layercalc
+
+    _title_with(book, xml_text)
+    out_path = tmp_path / "n.layers"
+    code, out, err = cli(capsys, "import", book, "-o", out_path)
+    assert code == 0, out + err
+    assert b"\r" not in out_path.read_bytes()
+    assert layercalc.load(out_path).checked.title == title
+    code, out, err = cli(capsys, "check", out_path)
+    assert code == 0, out + err
+
+
+def test_import_refuses_to_write_a_sheet_that_does_not_load_from_disk(capsys, tmp_path, book,
+                                                                      monkeypatch):
+    from layercalc.formats.xlsx import reader
+
+    # the quoting as it was: a lone carriage return stayed raw, which compiled in memory but
+    # ended the line when the file was read back
+    def old_quote(text: str) -> str:
+        escaped = text.replace("\\", "\\\\").replace('"', '\\"')
+        return '"' + escaped.replace("\r\n", "\\n").replace("\n", "\\n") + '"'
+
+    monkeypatch.setattr(reader, "_quote", old_quote)
+    _title_with(book, b"one&#13;two ")
+    held = snapshot(tmp_path)
+    code, out, err = cli(capsys, "import", book, "-o", tmp_path / "n.layers")
+    assert_our_error(code, out, err, f"output error: cannot write {tmp_path / 'n.layers'}: the "
+                     "sheet made from the input does not load again (syntax error", "nothing "
+                     "was written")
+    assert snapshot(tmp_path) == held

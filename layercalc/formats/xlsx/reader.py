@@ -238,8 +238,11 @@ def _exported_layers(workbook) -> int | None:
 
 
 def _quote(text: str) -> str:
+    """Text in double quotes as the layers language reads it back: a line break of any
+    kind (CR LF, a lone CR as old spreadsheets write it, LF) becomes \\n, a tab \\t."""
     escaped = text.replace("\\", "\\\\").replace('"', '\\"')
-    return '"' + escaped.replace("\r\n", "\\n").replace("\n", "\\n").replace("\t", "\\t") + '"'
+    escaped = escaped.replace("\r\n", "\n").replace("\r", "\n")
+    return '"' + escaped.replace("\n", "\\n").replace("\t", "\\t") + '"'
 
 
 class _TextBuilder:
