@@ -3,6 +3,7 @@
 
 from __future__ import annotations
 
+import math
 import sys
 from pathlib import Path
 
@@ -10,6 +11,10 @@ from layercalc.cli.common import (
     PLOT_SUFFIXES, load_case, need_scenario, need_suffix, write_files,
 )
 from layercalc.errors import UsageError
+from layercalc.formats.xlsx.sheetxml import ILLEGAL
+
+FIRST_VALUE_ROW = 6  # the sweep sheet: title, caution, blank, header, units, values
+MAX_SHEET_ROWS = 1_048_576  # a worksheet's last row (Excel, LibreOffice)
 
 
 def _sweep_workbook(frame, units: dict, title: str) -> bytes:
@@ -25,13 +30,15 @@ def _sweep_workbook(frame, units: dict, title: str) -> bytes:
     sheet = book.active
     sheet.title = "sweep"
     for row, text in ((1, title or "layercalc sweep"), (2, CAUTION)):
-        cell = sheet.cell(row=row, column=1, value=text)
+        # characters XML cannot hold (a control character in the title) become spaces,
+        # as in the exported workbook
+        cell = sheet.cell(row=row, column=1, value=ILLEGAL.sub(" ", text))
         cell.data_type = "s"  # text as text, never a formula
     sheet.cell(row=1, column=1).font = Font(bold=True)
     for column, name in enumerate(frame.columns, start=1):
         sheet.cell(row=4, column=column, value=str(name)).font = Font(bold=True)
         sheet.cell(row=5, column=column, value=units.get(name, "")).data_type = "s"
-        for row, value in enumerate(frame[name].tolist(), start=6):
+        for row, value in enumerate(frame[name].tolist(), start=FIRST_VALUE_ROW):
             sheet.cell(row=row, column=column, value=float(value))
     sheet.freeze_panes = "A6"
     buffer = io.BytesIO()
@@ -55,6 +62,11 @@ def sweep_command(args) -> int:
     sheet = load_case(args.case)
     need_scenario(sheet, args.scenario)
     ranges = [parse_range(text, sheet) for text in args.vary]
+    points = math.prod(len(r.values) for r in ranges)
+    if args.xlsx and points > MAX_SHEET_ROWS - FIRST_VALUE_ROW + 1:
+        raise UsageError(f"--xlsx {args.xlsx}: the sweep has {points:,} points, more than the "
+                         f"{MAX_SHEET_ROWS - FIRST_VALUE_ROW + 1:,} rows a worksheet holds "
+                         "under its header", hint="write it with --csv, or take fewer points")
     frame = sweep_table(sheet, ranges, scenario=args.scenario, outputs=args.show)
     units = frame.attrs.get("units", {})
     files = []  # every file is made before the first one is written

@@ -52,7 +52,13 @@ def parse_range(text: str, sheet) -> Range:
         raise UsageError(f"{where}: START, STOP and STEP must be finite numbers")
     if step == 0 or (stop - start) / step < 0:
         raise UsageError(f"{where}: STEP must be non-zero and lead from START to STOP")
-    count = int(np.floor((stop - start) / step + 1e-9)) + 1
+    steps = (stop - start) / step  # inf when the steps are too many for a float
+    if not steps < MAX_POINTS:
+        shown = "more than 1e308" if not np.isfinite(steps) else f"{steps + 1:.6g}"
+        raise UsageError(f"{where}: the range has {shown} values; a sweep takes at most "
+                         f"{MAX_POINTS:,}",
+                         hint="take a larger STEP or a shorter range")
+    count = int(np.floor(steps + 1e-9)) + 1
     if count > MAX_POINTS:
         raise UsageError(f"{where}: {count} values is more than {MAX_POINTS}")
     values = start + step * np.arange(count)

@@ -212,3 +212,48 @@ def test_import_refuses_to_write_a_sheet_that_does_not_load_from_disk(capsys, tm
                      "sheet made from the input does not load again (syntax error", "nothing "
                      "was written")
     assert snapshot(tmp_path) == held
+
+
+# ---------------------------------------------------------------- 4. sweeps
+def _case_titled(tmp_path, title: str) -> Path:
+    path = tmp_path / "case.layers"
+    path.write_text(f'title "{title}"\n' + SMALL_TABLE + "cell omega_top = 0 [hPa/h]\n",
+                    encoding="utf-8")
+    return path
+
+
+def test_a_control_character_in_the_title_does_not_break_the_sweep_workbook(capsys, tmp_path):
+    from openpyxl import load_workbook
+
+    path = _case_titled(tmp_path, "Station\x01A")
+    book = tmp_path / "sweep.xlsx"
+    code, out, err = cli(capsys, "sweep", path, "--vary", "omega_top=0:1:1", "--xlsx", book,
+                         "--quiet")
+    assert code == 0, out + err
+    assert load_workbook(book)["sweep"]["A1"].value == "Station A"  # as export writes it
+
+
+@pytest.mark.parametrize("vary, words", [
+    ("omega_top=0:1e308:1e-308", "the range has more than 1e308 values; a sweep takes at "
+                                 "most 2,000,000"),
+    ("omega_top=-1e308:1e308:1", "the range has more than 1e308 values"),
+    ("omega_top=0:1:1e-7", "the range has 1e+07 values; a sweep takes at most 2,000,000")])
+def test_a_sweep_range_too_long_is_a_usage_error(capsys, tmp_path, vary, words):
+    path = _case_titled(tmp_path, "Northfield")
+    held = snapshot(tmp_path)
+    code, out, err = cli(capsys, "sweep", path, "--vary", vary, "--csv", tmp_path / "s.csv")
+    assert code == 2 and "Traceback" not in out + err
+    assert f"usage error: --vary '{vary}': {words}" in out + err
+    assert snapshot(tmp_path) == held
+
+
+def test_a_sweep_longer_than_a_worksheet_is_refused_for_xlsx_up_front(capsys, tmp_path):
+    path = _case_titled(tmp_path, "Northfield")
+    held = snapshot(tmp_path)
+    # 1,100,001 points: within the sweep limit, beyond a worksheet's 1,048,576 rows
+    code, out, err = cli(capsys, "sweep", path, "--vary", "omega_top=0:1.1:0.000001",
+                         "--xlsx", tmp_path / "s.xlsx", "--quiet")
+    assert code == 2 and "Traceback" not in out + err
+    assert (f"usage error: --xlsx {tmp_path / 's.xlsx'}: the sweep has 1,100,001 points, more "
+            "than the 1,048,571 rows a worksheet holds under its header") in out + err
+    assert snapshot(tmp_path) == held
