@@ -12,6 +12,8 @@ from layercalc.cli.common import (
 )
 from layercalc.errors import InputError, LayercalcError, OutputError, UsageError
 
+MAX_STATION_LEVEL_HPA = 1100.0  # the highest pressure any input may have (plausibility)
+
 
 def command_run(args) -> int:
     from layercalc.formats import jsondoc as jsonout
@@ -25,6 +27,7 @@ def command_run(args) -> int:
     if args.all_scenarios and args.csv:
         raise UsageError("--csv writes one variant's layer table; with --all-scenarios "
                           "there are several", hint="use --scenario NAME with --csv")
+    units, heights = args.units or "trade", args.heights or "m"  # None when not given
     sheet = load_case(args.case)
     need_scenario(sheet, args.scenario)
     if args.all_scenarios:
@@ -32,21 +35,21 @@ def command_run(args) -> int:
         if args.json:
             text = jsonout.dumps(jsonout.scenarios_document(sheet, names))
         elif len(names) == 1:
-            text = report.render(sheet, sheet.evaluate(), args.units, args.heights,
+            text = report.render(sheet, sheet.evaluate(), units, heights,
                                  args.every_column)
             text += "\n(this sheet has no scenarios)\n"
         else:
-            text = report.render_comparison(sheet, names, args.units)
+            text = report.render_comparison(sheet, names, units)
         emit(text, args.output)
         return 0
     result = sheet.evaluate(args.scenario)
     if args.json:
         text = jsonout.dumps(jsonout.result_document(sheet, result))
     else:
-        text = report.render(sheet, result, args.units, args.heights, args.every_column)
+        text = report.render(sheet, result, units, heights, args.every_column)
     files = []  # everything is computed before the first file is written
     if args.csv:
-        table = jsonout.layer_table_csv(result, args.units, args.heights)
+        table = jsonout.layer_table_csv(result, units, heights)
         files.append((args.csv, table.encode("utf-8")))
     if args.output:
         files.append((args.output, text.encode("utf-8")))
@@ -130,6 +133,10 @@ def command_plot(args) -> int:
                          ".svg or .pdf", hint=f"e.g. -o {Path(args.output).stem or 'profile'}.png")
     if args.dpi < 20 or args.dpi > 1200:
         raise UsageError(f"--dpi {args.dpi} is out of range", hint="use 20 to 1200")
+    if not 0 < args.station_level <= MAX_STATION_LEVEL_HPA:  # NaN fails too
+        raise UsageError(f"--station-level {args.station_level:g} is out of range: it is a "
+                         f"pressure in hPa, above 0 and at most {MAX_STATION_LEVEL_HPA:g}",
+                         hint="e.g. --station-level 500")
     from layercalc.plots.profile import save_profile
 
     sheet = load_case(args.case)

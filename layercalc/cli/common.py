@@ -31,6 +31,30 @@ def same_file(a: str, b: str) -> bool:
         return os.path.realpath(a) == os.path.realpath(b)
 
 
+def refuse_ignored_options(args) -> None:
+    """Before any work: an option the command would silently ignore is a usage error (an
+    empty file name, --force with nothing to replace, report options beside --json)."""
+    for dest, flag in OUTPUT_DESTS.items():
+        if getattr(args, dest, None) == "":
+            raise UsageError(f"{flag} '': an empty file name", hint=f"give {flag} a file name, "
+                             "or leave the option out")
+    if getattr(args, "force", False) and not getattr(args, "output", None):
+        raise UsageError("--force without -o: there is no file to replace",
+                         hint="give -o FILE, or leave --force out")
+    if getattr(args, "command", None) != "run":
+        return
+    if not args.json:
+        return
+    ignored = [flag for flag, given in (
+        ("--every-column", args.every_column),
+        ("--units", args.units is not None and not args.csv),
+        ("--heights", args.heights is not None and not args.csv)) if given]
+    if ignored:
+        csv = "" if ignored[0] == "--every-column" else "; with --csv FILE it applies to the CSV"
+        raise UsageError(f"{ignored[0]} has no effect with --json: the JSON document holds "
+                         "every column, in SI units", hint=f"leave {ignored[0]} out{csv}")
+
+
 def refuse_clashing_paths(args) -> None:
     """Before any work: an output that is one of the inputs (it would replace the input), or
     two outputs on one path (one would be lost), is a usage error."""

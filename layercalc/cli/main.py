@@ -12,12 +12,13 @@ from __future__ import annotations
 
 import argparse
 import os
+import re
 import sys
 from layercalc.cli.commands import (
     command_check, command_demo, command_export, command_import, command_new, command_plot,
     command_run,
 )
-from layercalc.cli.common import DEMO_CASE, refuse_clashing_paths
+from layercalc.cli.common import DEMO_CASE, refuse_clashing_paths, refuse_ignored_options
 from layercalc.cli.sweep import sweep_command as command_sweep
 from layercalc.errors import LayercalcError
 
@@ -26,11 +27,18 @@ class _Formatter(argparse.RawDescriptionHelpFormatter):
     """Keeps the line breaks of descriptions and examples."""
 
 
+NEGATIVE_NUMBER = re.compile(r"^-(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$|^-(inf|nan)$", re.IGNORECASE)
+
+
 def _command(subparsers, name: str, summary: str, example: str, description: str = ""):
     command = subparsers.add_parser(
         name, help=summary, description=(description or summary),
         epilog="example:\n  " + example.replace("\n", "\n  "), formatter_class=_Formatter)
     command.set_defaults(command_parser=command)  # its usage line, for our usage errors
+    # argparse takes a value such as -1e308 for an option (its pattern for negative numbers
+    # has no exponent) and reports "expected one argument"; with this one the value reaches
+    # the option, whose range check then says what is wrong with it
+    command._negative_number_matcher = NEGATIVE_NUMBER
     return command
 
 
@@ -63,7 +71,7 @@ def build_parser() -> argparse.ArgumentParser:
                      help="print one JSON document (SI units) instead of the report")
     run.add_argument("--csv", metavar="FILE",
                      help="also write the layer table (surface first, with a units row)")
-    run.add_argument("--units", choices=("trade", "si"), default="trade",
+    run.add_argument("--units", choices=("trade", "si"), default=None,
                      help="units of the report and CSV: the trade's (default) or SI")
     run.add_argument("--heights", choices=("m", "dam"), default=None,
                      help="heights and thicknesses in metres (default) or decametres (the "
@@ -207,6 +215,7 @@ def main(argv: list[str] | None = None) -> int:
         # absurd but accepted values (1e308 Pa/s) overflow in unit conversions: the report
         # shows them as '-', and numpy's warnings would only add noise on stderr
         with np.errstate(all="ignore"):
+            refuse_ignored_options(args)
             refuse_clashing_paths(args)
             return args.handler(args)
     except LayercalcError as err:

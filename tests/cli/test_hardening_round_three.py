@@ -257,3 +257,57 @@ def test_a_sweep_longer_than_a_worksheet_is_refused_for_xlsx_up_front(capsys, tm
     assert (f"usage error: --xlsx {tmp_path / 's.xlsx'}: the sweep has 1,100,001 points, more "
             "than the 1,048,571 rows a worksheet holds under its header") in out + err
     assert snapshot(tmp_path) == held
+
+
+# ---------------------------------------------------------------- 5. options ignored silently
+IGNORED_OPTIONS = {  # name -> (arguments after the case or command, words of the message)
+    "empty_report_name": (["run", "{case}", "-o", ""], "usage error: -o '': an empty file name"),
+    "empty_csv_name": (["run", "{case}", "--csv", ""],
+                       "usage error: --csv '': an empty file name"),
+    "force_without_output": (["new", "--force"],
+                             "usage error: --force without -o: there is no file to replace"),
+    "every_column_with_json": (["run", "{case}", "--json", "--every-column"],
+                               "usage error: --every-column has no effect with --json"),
+    "units_with_json": (["run", "{case}", "--json", "--units", "si"],
+                        "usage error: --units has no effect with --json"),
+    "heights_with_json": (["run", "{case}", "--json", "--heights", "dam"],
+                          "usage error: --heights has no effect with --json"),
+    "station_level_huge_negative": (
+        ["plot", "{case}", "-o", "{out}", "--station-level", "-1e308"],
+        "usage error: --station-level -1e+308 is out of range: it is a pressure in hPa, "
+        "above 0 and at most 1100"),
+    "station_level_not_a_number": (
+        ["plot", "{case}", "-o", "{out}", "--station-level", "nan"],
+        "usage error: --station-level nan is out of range"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(IGNORED_OPTIONS))
+def test_an_option_that_would_be_ignored_is_a_usage_error(name, capsys, tmp_path,
+                                                          monkeypatch):
+    monkeypatch.chdir(tmp_path)  # `new` without -o would print; nothing may be written
+    case_path = _case_titled(tmp_path, "Northfield")
+    arguments, words = IGNORED_OPTIONS[name]
+    arguments = [a.format(case=case_path, out=tmp_path / "p.png") for a in arguments]
+    held = snapshot(tmp_path)
+    code, out, err = cli(capsys, *arguments)
+    assert code == 2 and "Traceback" not in out + err, out + err
+    assert words in err
+    assert snapshot(tmp_path) == held
+
+
+def test_units_and_heights_with_json_still_apply_to_the_csv(capsys, tmp_path):
+    case_path = _case_titled(tmp_path, "Northfield")
+    code, out, err = cli(capsys, "run", case_path, "--json", "--csv", tmp_path / "t.csv",
+                         "--heights", "dam")
+    assert code == 0, out + err
+    header, units = (tmp_path / "t.csv").read_text(encoding="utf-8").splitlines()[:2]
+    assert dict(zip(header.split(","), units.split(",")))["thickness"] == "dam"
+
+
+def test_a_negative_number_with_an_exponent_reaches_its_option():
+    from layercalc.cli.main import build_parser
+
+    args = build_parser().parse_args(["plot", "case.layers", "-o", "p.png",
+                                      "--station-level", "-1e308"])
+    assert args.station_level == -1e308
