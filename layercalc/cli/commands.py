@@ -83,7 +83,7 @@ def command_new(args) -> int:
 
     if args.output:
         refuse_overwrite(args.output, args.force)
-        emit(TEMPLATE, args.output)
+        emit(TEMPLATE, args.output, force=args.force)
         print(f"wrote {args.output}; edit it, then: layercalc run {args.output}",
               file=sys.stderr)
     else:
@@ -173,12 +173,12 @@ def command_import(args) -> int:
         loads(text, name=args.output)  # refuse to write a sheet that would not load
     else:
         text = module.read_workbook(Path(args.workbook), loads)  # compiled there
-    write_loadable(args.output, text)
+    write_loadable(args.output, text, force=args.force)
     print(f"wrote {args.output}", file=sys.stderr)
     return 0
 
 
-def write_loadable(path, text: str) -> None:
+def write_loadable(path, text: str, force: bool = False) -> None:
     """Write an imported sheet only if the bytes written load again, read back from the
     file as `layercalc run` reads it (a text that compiles in memory may still not load
     from disk: a lone carriage return inside quotes ends the line when read)."""
@@ -196,7 +196,7 @@ def write_loadable(path, text: str) -> None:
                 hint="this is a fault in layercalc's import; please report it with the "
                      "input file") from None
 
-    write_through_temporary(path, written_and_read_back)
+    write_through_temporary(path, written_and_read_back, replace_read_only=force)
 
 
 def _soundings_text(args) -> str:

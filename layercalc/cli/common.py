@@ -86,11 +86,12 @@ def load_case(path: str):
     return load(path, reuse_checks=True)
 
 
-def emit(text: str, output: str | None) -> None:
+def emit(text: str, output: str | None, force: bool = False) -> None:
+    """Text to `output` (a read-only file replaced only with `force`) or to the screen."""
     if output:
         from layercalc.files import write_text_atomic
 
-        write_text_atomic(output, text)
+        write_text_atomic(output, text, replace_read_only=force)
     else:
         sys.stdout.write(text)
 

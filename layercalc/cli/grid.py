@@ -139,7 +139,7 @@ def command_grid_column(args) -> int:
     if args.output:
         from layercalc.files import write_text_atomic
 
-        write_text_atomic(args.output, text)
+        write_text_atomic(args.output, text, replace_read_only=args.force)
         print(f"wrote {args.output}", file=sys.stderr)
     else:
         sys.stdout.write(text)

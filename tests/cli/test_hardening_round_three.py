@@ -311,3 +311,90 @@ def test_a_negative_number_with_an_exponent_reaches_its_option():
     args = build_parser().parse_args(["plot", "case.layers", "-o", "p.png",
                                       "--station-level", "-1e308"])
     assert args.station_level == -1e308
+
+
+# ---------------------------------------------------------------- 6. files
+def test_a_killed_writers_temporary_is_removed_on_the_next_write(tmp_path):
+    import os
+    import subprocess
+    import sys
+    import time
+
+    from layercalc.files import write_text_atomic
+
+    # a process that has ended stands for a writer killed with kill -9
+    ended = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                           capture_output=True, text=True, check=True)
+    pid = int(ended.stdout)
+    dead = tmp_path / f".out.txt.{pid}.abcd1234.tmp"
+    old = tmp_path / ".report.txt.k2j4h5g6.tmp"  # the naming before the pid was added
+    alive = tmp_path / f".out.txt.{os.getpid()}.zzzz9999.tmp"  # a write still going on
+    young = tmp_path / ".report.txt.a1b2c3d4.tmp"
+    foreign = tmp_path / ".notes.tmp"  # not our naming
+    for path in (dead, old, alive, young, foreign):
+        path.write_bytes(b"half")
+    hour_ago = time.time() - 3700
+    os.utime(old, (hour_ago, hour_ago))
+    os.utime(foreign, (hour_ago, hour_ago))
+    write_text_atomic(tmp_path / "other.txt", "whole\n")
+    left = sorted(p.name for p in tmp_path.iterdir())
+    assert left == sorted([alive.name, young.name, foreign.name, "other.txt"])
+
+
+def test_a_killed_cli_write_leaves_nothing_behind_after_the_next(capsys, tmp_path):
+    import os
+    import signal
+    import subprocess
+    import sys
+
+    case_path = _case_titled(tmp_path, "Northfield")
+    # a writer that stops for good between creating its temporary file and the rename
+    code = ("import os, sys, layercalc.files as f\n"
+            "real = os.replace\n"
+            "def stop(source, target):\n"
+            "    if str(target).endswith('r.txt'):\n        os.kill(os.getpid(), 9)\n"
+            "    return real(source, target)\n"
+            "f.os.replace = stop\n"
+            "from layercalc.cli.main import main\n"
+            f"main(['run', {str(case_path)!r}, '-o', {str(tmp_path / 'r.txt')!r}])\n")
+    result = subprocess.run([sys.executable, "-c", code], capture_output=True,
+                            env={**os.environ, "PYTHONPATH": os.pathsep.join(sys.path)})
+    assert result.returncode == -signal.SIGKILL
+    assert [p.name for p in tmp_path.glob(".r.txt.*.tmp")]  # the leftover
+    code, out, err = cli(capsys, "run", case_path, "-o", tmp_path / "r.txt")
+    assert code == 0, out + err
+    assert not list(tmp_path.glob(".*.tmp"))
+
+
+def _read_only(path: Path) -> bool:
+    path.chmod(0o444)
+    return True
+
+
+@pytest.mark.parametrize("arguments", [["run", "{case}", "-o", "{target}"],
+                                       ["run", "{case}", "--csv", "{target}"],
+                                       ["export", "{case}", "-o", "{target}.xlsx"]])
+def test_a_read_only_target_is_not_replaced(arguments, capsys, tmp_path):
+    case_path = _case_titled(tmp_path, "Northfield")
+    target = tmp_path / "locked.txt"
+    arguments = [a.format(case=case_path, target=target) for a in arguments]
+    target = Path(arguments[-1])
+    target.write_bytes(b"kept\n")
+    target.chmod(0o444)
+    held = snapshot(tmp_path)
+    code, out, err = cli(capsys, *arguments)
+    assert_our_error(code, out, err, f"output error: cannot write {target}: the file is "
+                     "read-only, so layercalc does not replace it; nothing was written")
+    assert snapshot(tmp_path) == held
+
+
+def test_force_replaces_a_read_only_file_where_the_command_has_it(capsys, tmp_path):
+    target = tmp_path / "new.layers"
+    target.write_bytes(b"kept\n")
+    target.chmod(0o444)
+    code, out, err = cli(capsys, "new", "-o", target)
+    assert code == 1 and "exists" in out + err  # without --force: the overwrite rule
+    assert target.read_bytes() == b"kept\n"
+    code, out, err = cli(capsys, "new", "-o", target, "--force")
+    assert code == 0, out + err
+    assert target.read_bytes() != b"kept\n"
