@@ -311,6 +311,64 @@ def ensemble_benchmark():
     return (t_layercalc, t_kernel, worst, got["sigma"], kernel_out[0], members, walls, cpus)
 
 
+def sweep_section(sheet, sweep_rows, note: str = "") -> list[str]:
+    """The Sweeps section of RESULTS.md (`note`: a sentence on how it was measured)."""
+    lines = []
+    lines.append("## Sweeps\n")
+    lines.append(
+        f"Case `worked_cases/midlevel_warming.layers` ({sheet.checked.layer_count} layers), "
+        f"scenario `{SCENARIO}` (warms 500-300 hPa by the cell `warming`, scales the "
+        "divergence above 500 hPa by `div_scale`), both cells varied over the scenarios, "
+        "evaluated by `Sheet.evaluate_many`. The baseline is `benchmarks/kernels.py` "
+        "`sweep_kernel`: a tight hand-written numpy kernel with the layers on the outer axis "
+        "and the scenarios contiguous, writing in place into preallocated arrays, one pass "
+        "per quantity and layer (running sums as one add per layer), computing every "
+        "quantity the sheet's defaults compute for each scenario (T, div, Tv, thickness, "
+        "z_top, z_bottom, omega_bottom, omega_top, w_bottom, w_top, and the cells "
+        "column_thickness, omega_surface, net and gross mass divergence, column mean "
+        "divergence, Dines ratio, strongest ascent); the largest relative difference of "
+        "all of them (against the largest value of each quantity where it crosses zero) is "
+        "in the last column. layercalc also checks that every formula's values are finite "
+        "and within 1e100 (one read of each array), which the kernel does not.\n")
+    if note:
+        lines.append(note)
+    lines.append("| scenarios | repetitions | layercalc [s] | kernel [s] | ratio | target "
+                 "| | max rel. diff |")
+    lines.append("|---|---|---|---|---|---|---|---|")
+    for size, repeats, t_l, t_k, worst, _, _ in sweep_rows:
+        lines.append(f"| {size:,} | {repeats} | {summary(t_l)} | {summary(t_k)} | "
+                     f"{ratio_cells(t_l, t_k, 1.3)} | {worst:.1e} |")
+    lines.append("")
+    lines.append("Peak memory (tracemalloc, one evaluation each):\n")
+    lines.append("| scenarios | layercalc [MiB] | kernel [MiB] | ratio | target | |")
+    lines.append("|---|---|---|---|---|---|")
+    for size, _, _, _, _, peak_l, peak_k in sweep_rows:
+        lines.append(f"| {size:,} | {peak_l / 2**20:.1f} | {peak_k / 2**20:.1f} | "
+                     f"{peak_l / peak_k:.2f} | <= 1.2 | {verdict(peak_l / peak_k, 1.2)} |")
+    lines.append("")
+
+    return lines
+
+
+def sweeps_only() -> int:
+    """`run.py --sweeps`: measure the sweeps again and replace only their section of
+    RESULTS.md (the other sections keep the figures of the run that wrote them)."""
+    load_average = os.getloadavg()[0]
+    sheet = layercalc.load(CASE)
+    rows = sweeps(sheet)
+    note = (f"Measured again alone by `python benchmarks/run.py --sweeps` on "
+            f"{time.strftime('%Y-%m-%d %H:%M')} UTC (load average {load_average:.1f} at the "
+            f"start, {os.getloadavg()[0]:.1f} at the end); the other sections are from the "
+            "run named at the top.\n")
+    path = ROOT / "benchmarks" / "RESULTS.md"
+    old = path.read_text(encoding="utf-8")
+    start, end = old.index("## Sweeps\n"), old.index("## A table of")
+    section = "\n".join(sweep_section(sheet, rows, note)) + "\n"
+    path.write_text(old[:start] + section + old[end:], encoding="utf-8")
+    print(section)
+    return 0
+
+
 def main() -> int:
     load_average = os.getloadavg()[0]
     sheet = layercalc.load(CASE)
@@ -335,36 +393,7 @@ def main() -> int:
         "repetitions with their range in brackets, and a ratio is the ratio of the medians "
         "with the range of the ratios of the paired (interleaved) repetitions.\n")
 
-    lines.append("## Sweeps\n")
-    lines.append(
-        f"Case `worked_cases/midlevel_warming.layers` ({sheet.checked.layer_count} layers), "
-        f"scenario `{SCENARIO}` (warms 500-300 hPa by the cell `warming`, scales the "
-        "divergence above 500 hPa by `div_scale`), both cells varied over the scenarios, "
-        "evaluated by `Sheet.evaluate_many`. The baseline is `benchmarks/kernels.py` "
-        "`sweep_kernel`: a tight hand-written numpy kernel with the layers on the outer axis "
-        "and the scenarios contiguous, writing in place into preallocated arrays, one pass "
-        "per quantity and layer (running sums as one add per layer), computing every "
-        "quantity the sheet's defaults compute for each scenario (T, div, Tv, thickness, "
-        "z_top, z_bottom, omega_bottom, omega_top, w_bottom, w_top, and the cells "
-        "column_thickness, omega_surface, net and gross mass divergence, column mean "
-        "divergence, Dines ratio, strongest ascent); the largest relative difference of "
-        "all of them (against the largest value of each quantity where it crosses zero) is "
-        "in the last column. layercalc also checks every value is finite, which the "
-        "kernel does not.\n")
-    lines.append("| scenarios | repetitions | layercalc [s] | kernel [s] | ratio | target "
-                 "| | max rel. diff |")
-    lines.append("|---|---|---|---|---|---|---|---|")
-    for size, repeats, t_l, t_k, worst, _, _ in sweep_rows:
-        lines.append(f"| {size:,} | {repeats} | {summary(t_l)} | {summary(t_k)} | "
-                     f"{ratio_cells(t_l, t_k, 1.3)} | {worst:.1e} |")
-    lines.append("")
-    lines.append("Peak memory (tracemalloc, one evaluation each):\n")
-    lines.append("| scenarios | layercalc [MiB] | kernel [MiB] | ratio | target | |")
-    lines.append("|---|---|---|---|---|---|")
-    for size, _, _, _, _, peak_l, peak_k in sweep_rows:
-        lines.append(f"| {size:,} | {peak_l / 2**20:.1f} | {peak_k / 2**20:.1f} | "
-                     f"{peak_l / peak_k:.2f} | <= 1.2 | {verdict(peak_l / peak_k, 1.2)} |")
-    lines.append("")
+    lines += sweep_section(sheet, sweep_rows)
 
     t_script, t_run, t_check, t_writer, t_dumps, t_load, t_loadtxt = table_times
     lines.append(f"## A table of {BIG_LAYERS:,} layers\n")
@@ -471,4 +500,4 @@ def main() -> int:
 
 
 if __name__ == "__main__":
-    raise SystemExit(main())
+    raise SystemExit(sweeps_only() if sys.argv[1:] == ["--sweeps"] else main())

@@ -40,6 +40,8 @@ class CheckedSheet:
     option_variants: dict = field(default_factory=dict, repr=False)
     # uncertainty assessments by variant name (evaluation/uncertainty.assess_sheet)
     uncertainty: dict = field(default_factory=dict, repr=False)
+    # the evaluator's plan of shared subexpressions, by id of `formulas` (evaluation/engine)
+    evaluation_plans: dict = field(default_factory=dict, repr=False)
 
     def unit_of(self, name: str, kind: str | None = None) -> U.Unit:
         """The display unit of a column or cell (columns first when `kind` is not given)."""

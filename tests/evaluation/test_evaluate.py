@@ -187,3 +187,49 @@ def test_many_variants_in_one_pass_equal_one_at_a_time():
         one = sheet(f"cell surface_height = {h} m\ncell shift = 0 K\n"
                     "column T2 = T + shift\n").evaluate().si_columns["z_top"]
         assert_allclose(many.columns["z_top"][i], one, rtol=1e-15)
+
+
+def test_shared_subexpressions_are_computed_once_and_change_nothing_else():
+    from layercalc.evaluation.engine import shared_subexpressions
+
+    body = """
+        cell shift = 0 K
+        column a = T
+        column f1 = -(a * dp)
+        column f2 = T * dp * 2
+        column f3 = upward_sum(T * dp) - T * dp
+        column f4 = T + shift - T
+        scenario warm "the middle layers warmer"
+          add shift to T between 850 hPa and 500 hPa
+        end
+    """
+    s = sheet(body)
+    shared, last_use = shared_subexpressions(s.checked)
+    product = ("*", ("name", "column", "T"), ("name", "column", "dp"))
+    assert list(shared.values()).count(product) == 4  # a * dp counts as T * dp
+    names = [f.name for f in s.checked.formulas]
+    assert product in last_use[max(names.index(n) for n in ("f1", "f2", "f3"))]
+    shifts = np.linspace(0.0, 3.0, 40)  # a sweep of a scenario: the layers-outer layout
+    many = s.evaluate_many({"shift": shifts}, scenario="warm")
+    warmed = T + np.where((PB <= 85000) & (PT >= 50000), shifts[7], 0.0)
+    cases = [(s.evaluate().si_columns, T),
+             ({n: np.broadcast_to(v, (40, 5))[7] for n, v in many.columns.items()}, warmed)]
+    for got, t in cases:  # plain numpy, as every expectation in this file
+        flux = t * (PB - PT)
+        assert_allclose(got["T"], t, rtol=1e-15)  # inputs are never written into
+        assert_allclose(got["f1"], -flux, rtol=1e-15)
+        assert_allclose(got["f2"], flux * 2, rtol=1e-15)
+        assert_allclose(got["f3"], np.cumsum(flux) - flux, rtol=1e-15)
+    assert_allclose(s.evaluate().si_columns["T"], T, rtol=0)
+    assert_allclose(many.columns["f4"], many.columns["T"] + shifts[:, None] - many.columns["T"],
+                    rtol=1e-15)
+
+
+def test_sweep_error_names_formula_layer_and_variant():
+    s = sheet("cell shift = 0 K\ncolumn bad = T / (shift - 5 K)\n")
+    shifts = np.linspace(0.0, 10.0, 20_001)  # 10,000th step is exactly 5 K
+    with pytest.raises(layercalc.EvaluationError) as info:
+        s.evaluate_many({"shift": shifts})
+    assert "column 'bad' is infinite" in info.value.message
+    assert "layer 1 from the surface" in info.value.message
+    assert "scenario variant 10001" in info.value.message
