@@ -515,3 +515,43 @@ def test_a_station_wind_turned_in_the_workbook_moves_divergence_omega_and_the_te
     # the turn reaches omega and the tendency (about 7 hPa/3h, the case's comment)
     assert {"omega_bottom", "omega_top", "surface_pressure_tendency"} <= moved, moved
     assert_summary(calc["results"], live["results"], result.summary, 1)
+
+
+def test_a_level_edited_in_the_workbook_moves_its_two_layers_and_the_results(tmp_path):
+    # the 700 hPa temperature -4 -> 1 degC on the levels sheet: the two layers that share
+    # the level, their thickness, every height above and the summary follow.
+    from tests.formats.test_xlsx_levels import LEVELS
+
+    old_row, new_row = "  700    -4.0  -12.0", "  700     1.0  -12.0"
+    assert LEVELS.count(old_row) == 1
+    sheet = layercalc.loads(LEVELS, name="levels.layers")
+    path = tmp_path / "levels.xlsx"
+    write_workbook(sheet, path)
+    workbook = load_workbook(path)
+    levels = workbook["levels"]
+    row = [c.row for c in levels["A"] if c.value == 700][0]
+    assert levels.cell(row, 2).value == -4
+    levels.cell(row, 2).value = 1.0
+    workbook.save(path)
+    calc_path = convert([path], tmp_path / "out", tmp_path / "profile")[path]
+    edited = layercalc.loads(LEVELS.replace(old_row, new_row), name="edited.layers")
+    result, before = edited.evaluate(), sheet.evaluate()
+    calc = load_workbook(calc_path, data_only=True)
+    live = load_workbook(path)
+    # source for every expectation below: layercalc's evaluation of the .layers file with
+    # the same value edited in its levels table
+    layers = calc["layers"]
+    for j, name in enumerate(sheet.checked.input_columns, start=1):
+        cells = [layers.cell(2 + k, j).coordinate for k in range(sheet.checked.layer_count)]
+        assert_recalculated(layers, cells, result.layers[name].to_numpy(), name)
+    moved = set()
+    for formula, cells in derived_places(edited, live["results"]):
+        want = (result.layers[formula.name].to_numpy() if formula.kind == "column"
+                else np.array([result.cells[formula.name]]))
+        old = (before.layers[formula.name].to_numpy() if formula.kind == "column"
+               else np.array([before.cells[formula.name]]))
+        assert_recalculated(calc["results"], cells, want, formula.name)
+        if np.any(np.abs(old - want) / relative_scale(want) > 1e-6):
+            moved.add(formula.name)
+    assert {"thickness", "z_top", "Tv"} <= moved, moved
+    assert_summary(calc["results"], live["results"], result.summary, 1)

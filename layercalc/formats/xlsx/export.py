@@ -2,6 +2,8 @@
 
 Sheets, in order:
     layers            inputs, header `name [unit]`, one row per layer, surface layer first
+    levels            a live levels table only (levels.py): the levels as typed; every
+                      column of `layers` is then a formula of them
     stations          a live station network only (stations.py): positions, winds as
                       typed, the fit per level; `layers`' div is then its formula
     settings          `name | value | unit | note`: title, notes, options, input cells
@@ -58,7 +60,7 @@ def variants(sheet) -> list[Variant]:
     results += [(name, sheet.evaluate(scenario=name)) for name in sheet.scenarios]
     described = _scenario_descriptions(sheet.checked)
     taken = {"results", "values", "compare", "values_compare", "layers", "settings",
-             "formulas", "notes", "stations"}
+             "formulas", "notes", "stations", "levels"}
     out = []
     for name, result in results:
         if name == "base":
@@ -87,13 +89,10 @@ def build_workbook(sheet) -> "Built":
     workbook = Workbook()
     layers = workbook.active
     layers.title = "layers"
-    from layercalc.formats.xlsx.stations import live_network, stations_sheet
+    from layercalc.formats.xlsx.levels import live_inputs
 
-    network = live_network(checked)
-    divergence_cells = None
-    if network is not None:
-        divergence_cells = stations_sheet(workbook.create_sheet("stations"), checked, network)
-    letters = _layers_sheet(layers, checked, base.columns, divergence_cells)
+    live = live_inputs(workbook, checked)  # a stations or levels sheet, when it can be live
+    letters = _layers_sheet(layers, checked, base.columns, live)
     settings_rows = _settings_sheet(workbook.create_sheet("settings"), checked, base.cells)
     links = Links(letters, 2, settings_rows,
                   {n: base.columns[n] for n in checked.input_columns},
@@ -121,8 +120,9 @@ def build_workbook(sheet) -> "Built":
     notes_sheet(workbook.create_sheet("notes"), checked, found, __version__, CAUTION)
     page_setup(layers, CAUTION, "1:1")
     page_setup(workbook["settings"], CAUTION, "1:1")
-    if "stations" in workbook.sheetnames:
-        page_setup(workbook["stations"], CAUTION)
+    for name in ("stations", "levels"):
+        if name in workbook.sheetnames:
+            page_setup(workbook[name], CAUTION)
     wrap_columns(workbook["settings"], {1: 18, 2: 30, 3: 12, 4: 70},
                  workbook["settings"].max_row)  # all top aligned: names beside values
     page_setup(workbook["formulas"], CAUTION, "1:1")
@@ -163,19 +163,18 @@ class Built:
 
 
 # ---------------------------------------------------------------- input sheets
-def _layers_sheet(ws, checked, columns_si, divergence_cells=None) -> dict[str, str]:
-    """The inputs; with a live station network (`divergence_cells`, see stations.py) the
-    div column is the mean of its two levels' divergence on the stations sheet."""
-    from layercalc.formats.xlsx.stations import layer_divergence_formula
-
+def _layers_sheet(ws, checked, columns_si, live=None) -> dict[str, str]:
+    """The inputs; `live(name, k, unit)` gives a formula for an input computed from a
+    stations or levels sheet (levels.live_inputs), or None for a plain value."""
     letters = {}
     for j, (name, column) in enumerate(checked.input_columns.items(), start=1):
         letters[name] = letter(j)
         put_text(ws.cell(1, j), f"{name} [{column.unit.text}]")
         style(ws.cell(1, j), "header")
         for k, si in enumerate(columns_si[name]):
-            if name == "div" and divergence_cells is not None:
-                ws.cell(2 + k, j, layer_divergence_formula(divergence_cells, k, column.unit))
+            formula = live and live(name, k, column.unit)
+            if formula:
+                ws.cell(2 + k, j, formula)
                 continue
             ws.cell(2 + k, j, display_input(column.unit, float(si)))
     lines = ("One row per layer, SURFACE LAYER FIRST (row 2 is the lowest layer).", None,

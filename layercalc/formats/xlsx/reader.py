@@ -39,7 +39,7 @@ MAX_FILE_BYTES = 50_000_000           # the .xlsx file on disk
 MAX_UNCOMPRESSED_BYTES = 200_000_000  # sum of the zip entries' declared sizes
 MAX_ZIP_ENTRIES = 5_000
 MAX_CELLS = 500_000                   # cells read over the sheets used
-OTHER_SHEETS = ("settings", "formulas", "stations")  # read beside the layers sheet
+OTHER_SHEETS = ("settings", "formulas", "stations", "levels")  # read beside the layers sheet
 MAX_FORMULA_NOTICES = 10              # input cells holding formulas named one by one
 # Input cells the default formulas may read (layercalc.names: the canonical input cells).
 KNOWN_CELLS = INPUT_CELLS
@@ -155,7 +155,7 @@ def _guard(path: Path) -> dict:
 
 def sheets_read(names: list[str]) -> list[str]:
     """The sheets the reader uses: `layers` (or the first sheet), `settings`, `formulas`,
-    `stations`; the same list `_RawWorkbook.read` reads."""
+    `stations`, `levels`; the same list `_RawWorkbook.read` reads."""
     if not names:
         return []
     lower = {n.lower(): n for n in names}
@@ -348,6 +348,10 @@ class _TextBuilder:
             from layercalc.formats.xlsx.stations import station_blocks
 
             table = station_blocks(self, stations, self.raw.sheets[stations])
+        elif self._named("levels") is not None:  # the layers come from it (levels.py)
+            from layercalc.formats.xlsx.levels import levels_block
+
+            table = levels_block(self, self._named("levels"))  # layers = len - 3 below
         else:
             table = self.layers()
         extra = len(self.formula_cells) - MAX_FORMULA_NOTICES

@@ -53,7 +53,7 @@ def live_network(checked) -> tuple | None:
     return stations, network
 
 
-def _heading_text(heading) -> str:
+def heading_text(heading) -> str:
     span = heading.span
     return " ".join(span.source.text[span.start:span.end].split())
 
@@ -114,7 +114,7 @@ def stations_sheet(ws, checked, found) -> list[str]:
         row += 1
         names = [h.name for h in st.table.headings]
         for j, heading in enumerate(st.table.headings, start=1):
-            put_text(ws.cell(row, j), _heading_text(heading))
+            put_text(ws.cell(row, j), heading_text(heading))
             style(ws.cell(row, j), "header")
         data = np.array(st.table.rows, dtype=float).reshape(len(st.table.rows), len(names))
         order = np.argsort(-data[:, names.index("p")], kind="stable")
@@ -122,7 +122,7 @@ def stations_sheet(ws, checked, found) -> list[str]:
             for j, value in enumerate(data[i], start=1):
                 if np.isfinite(value):
                     ws.cell(row + 1 + k, j, float(value))
-        units = _units(st.table)
+        units = heading_units(st.table)
         pair = ("dir", "speed") if "dir" in names else ("u", "v")
         wind_cells.append((pair[0], units[pair[0]], units[pair[1]],
                            letter(names.index(pair[0]) + 1), letter(names.index(pair[1]) + 1),
@@ -192,7 +192,7 @@ def stations_sheet(ws, checked, found) -> list[str]:
     return divergence_cells
 
 
-def _units(table) -> dict:
+def heading_units(table) -> dict:
     """Each heading's unit, as the checker reads it (documented defaults included)."""
     from layercalc.language import units as U
     from layercalc.language.defaults import INPUT_UNITS
@@ -249,25 +249,38 @@ def station_blocks(builder, sheet: str, rows: list) -> list:
                       ("longitude", None, None),
                       (number_text(longitude), sheet, cell_name(place_row, 3))])
         lines.append([("  levels", None, None)])
-        headings, c = [], 1
-        while not blank(at(r + 1, c)):
-            headings.append((str(at(r + 1, c)).strip(), sheet, cell_name(r + 1, c)))
-            c += 1
-        lines.append([("   ", None, None)] + headings)
-        k = r + 2
-        while not blank(at(k, 1)):
-            pieces = [("   ", None, None)]
-            for c in range(1, len(headings) + 1):
-                value = at(k, c)
-                pieces.append(("-", sheet, cell_name(k, c)) if blank(value) else
-                              (number_text(builder.number(value, sheet, k, c, headings[c - 1][0])),
-                               sheet, cell_name(k, c)))
-            lines.append(pieces)
-            k += 1
+        lines += table_lines(builder, sheet, rows, r + 1)
         lines.append([("  end", None, None)])
         lines.append([("end", None, None)])
     missing = [n for n in places if n not in seen]
     if missing:
         raise builder.error(f"station '{missing[0]}' has no levels table on the sheet", sheet,
                             cell_name(places[missing[0]][2], 1))
+    return lines
+
+
+def table_lines(builder, sheet: str, rows: list, header_row: int) -> list:
+    """A levels table as typed on a sheet (header `name [unit]` at `header_row`, one row per
+    level until a blank first cell; blank for '-') as `.layers` lines of pieces."""
+    from layercalc.formats.xlsx.cells import blank, cell_name, number_text
+
+    def at(r: int, c: int):
+        row = rows[r - 1] if r - 1 < len(rows) else ()
+        return row[c - 1] if c - 1 < len(row) else None
+
+    headings, c = [], 1
+    while not blank(at(header_row, c)):
+        headings.append((str(at(header_row, c)).strip(), sheet, cell_name(header_row, c)))
+        c += 1
+    lines = [[("   ", None, None)] + headings]
+    k = header_row + 1
+    while any(not blank(at(k, c)) for c in range(1, len(headings) + 1)):
+        pieces = [("   ", None, None)]
+        for c in range(1, len(headings) + 1):
+            value = at(k, c)
+            pieces.append(("-", sheet, cell_name(k, c)) if blank(value) else
+                          (number_text(builder.number(value, sheet, k, c, headings[c - 1][0])),
+                           sheet, cell_name(k, c)))
+        lines.append(pieces)
+        k += 1
     return lines
