@@ -366,11 +366,6 @@ def test_a_killed_cli_write_leaves_nothing_behind_after_the_next(capsys, tmp_pat
     assert not list(tmp_path.glob(".*.tmp"))
 
 
-def _read_only(path: Path) -> bool:
-    path.chmod(0o444)
-    return True
-
-
 @pytest.mark.parametrize("arguments", [["run", "{case}", "-o", "{target}"],
                                        ["run", "{case}", "--csv", "{target}"],
                                        ["export", "{case}", "-o", "{target}.xlsx"]])
