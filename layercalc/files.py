@@ -113,29 +113,13 @@ def write_atomic(path: str | Path, data: bytes, replace_read_only: bool = False)
     """Write bytes to `path` through a temporary file in the same folder, then rename.
     Any failure (a full disk, an interrupt) removes the temporary file and leaves the target
     untouched; OS errors become OutputError naming the path."""
-    path = Path(path)
-    folder = _prepare(path, replace_read_only)
-    try:
-        handle, temporary = tempfile.mkstemp(prefix=temporary_prefix(path), suffix=".tmp",
-                                             dir=folder)
-    except OSError as exc:
-        raise OutputError(f"cannot write {path}: {exc.strerror or exc}", hint=_HINT) from None
-    try:
-        with os.fdopen(handle, "wb") as stream:
+    def write_bytes(temporary: str) -> None:
+        with os.fdopen(os.open(temporary, os.O_WRONLY | os.O_TRUNC), "wb") as stream:
             stream.write(data)
             stream.flush()
             os.fsync(stream.fileno())
-        os.chmod(temporary, file_mode(path))
-        os.replace(temporary, path)
-    except BaseException as exc:
-        try:
-            os.unlink(temporary)
-        except OSError:
-            pass
-        if isinstance(exc, OSError):
-            raise OutputError(f"cannot write {path}: {exc.strerror or exc}",
-                              hint=_HINT) from None
-        raise
+
+    write_through_temporary(path, write_bytes, replace_read_only)
 
 
 def write_text_atomic(path: str | Path, text: str, replace_read_only: bool = False) -> None:
