@@ -78,3 +78,16 @@ def optional(*modules: str):
             pytest.skip(f"needs {name} (pip install 'layercalc[grib]')",
                         allow_module_level=True)
     return loaded[0] if len(loaded) == 1 else loaded
+
+
+def refused_in_both_places(text: str, words: str, evaluate) -> None:
+    """`evaluate(sheet)` of `text` raises our error with `words` and a position, and
+    `layercalc check` (layercalc.problems) finds exactly that problem too."""
+    import pytest
+
+    with pytest.raises(layercalc.LayercalcError) as caught:
+        evaluate(layercalc.loads(text, "case.layers"))
+    assert words in caught.value.message
+    assert caught.value.span is not None
+    found = layercalc.problems(text, is_text=True)
+    assert [words in p.message for p in found] == [True]

@@ -12,6 +12,7 @@ import pytest
 from numpy.testing import assert_allclose
 
 import layercalc
+from tests.helpers import refused_in_both_places
 from layercalc.errors import LayercalcError
 from layercalc.evaluation.uncertainty import assess_sheet
 from layercalc.physics import ensembles as ens
@@ -100,14 +101,8 @@ def test_a_scenario_changes_the_error_model():
      "div_error must not be negative"),
 ])
 def test_bad_error_model_values_are_refused_with_their_position(old, line, words):
-    text = HAND.replace(old, line)
-    with pytest.raises(LayercalcError) as caught:
-        assess_sheet(layercalc.loads(text, "case.layers"))
-    assert words in caught.value.message
-    assert caught.value.span is not None
     # layercalc check finds it too, at the cell's line
-    found = layercalc.problems(text, is_text=True)
-    assert [words in p.message for p in found] == [True]
+    refused_in_both_places(HAND.replace(old, line), words, assess_sheet)
 
 
 def test_error_model_units_are_checked_like_any_cell():

@@ -15,6 +15,7 @@ import pytest
 from numpy.testing import assert_allclose
 
 import layercalc
+from tests.helpers import refused_in_both_places
 from layercalc.constants import G0, RD
 from layercalc.errors import LayercalcError
 from layercalc.evaluation.uncertainty import assess_sheet
@@ -205,13 +206,7 @@ def test_report_shows_heights_and_the_hydrostatic_sigma(capsys):
     ("cell T_error = 80 K", "T_error is 80 K, more than 50 K"),
 ])
 def test_bad_thermal_errors_are_refused_with_their_position(line, words):
-    text = DRY.replace("cell T_error = 0.5 K", line)
-    with pytest.raises(LayercalcError) as caught:
-        assess_sheet(layercalc.loads(text, "case.layers"))
-    assert words in caught.value.message
-    assert caught.value.span is not None
-    found = layercalc.problems(text, is_text=True)
-    assert [words in p.message for p in found] == [True]
+    refused_in_both_places(DRY.replace("cell T_error = 0.5 K", line), words, assess_sheet)
 
 
 def test_thermal_error_units_are_checked_like_any_cell():
