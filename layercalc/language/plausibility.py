@@ -21,6 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from layercalc.names import did_you_mean
 from layercalc.constants import G0, RD
 from layercalc.language import units as U
 from layercalc.language.unit_text import parse_unit_string
@@ -153,8 +154,7 @@ def check_values(name: str, values_si, unit: U.Unit) -> Finding | None:
                    f"({bound.why[0 if side == 'low' else 1]})")
         likely = slips(bound, written, unit)
         if likely:
-            message += (f"; these look like {' or '.join(likely)} values: did you mean "
-                        + " or ".join(f"[{u}]" for u in likely) + "?")
+            message += _slip_words("these look like", likely, " values")
             hint = f"write the header as {name} [{likely[0]}]"
         else:
             hint = f"check this value and the unit in the header ({name} [{unit.text}])"
@@ -183,8 +183,7 @@ def vapour_pressure_finding(vapour_pressure, pressure, made_from: str,
                f"above the pressure, {p[i] / 100.0:.4g} hPa: no air holds that much water "
                "vapour (the mixing ratio would come out negative)")
     if likely:
-        message += (f"; the pressures look like {' or '.join(likely)}: did you mean "
-                    + " or ".join(f"[{u}]" for u in likely) + "?")
+        message += _slip_words("the pressures look like", likely)
         hint = f"write the pressures' unit as [{likely[0]}]"
     return Finding("error", i, message, hint)
 
@@ -224,8 +223,7 @@ def height_finding(pressure, height_si, unit: U.Unit) -> Finding | None:
                f"to the highest they imply a mean virtual temperature of {_text(tv)} K "
                "(no air is that cold or warm)")
     if likely:
-        message += (f"; these look like {' or '.join(likely)}: did you mean "
-                    + " or ".join(f"[{u}]" for u in likely) + "?")
+        message += _slip_words("these look like", likely)
         hint = f"write the header as z [{likely[0]}]"
     else:
         hint = "check the heights and the unit in the header"
@@ -261,8 +259,7 @@ def surface_height_finding(height_si: float, bottom_pressure_si: float,
                f"in the standard atmosphere ({expected:.0f} m): weather moves a pressure "
                "surface a few hundred metres, not that far")
     if likely:
-        message += (f"; this looks like {' or '.join(likely)}: did you mean "
-                    + " or ".join(f"[{u}]" for u in likely) + "?")
+        message += _slip_words("this looks like", likely)
     return Finding("warning", 0, message)
 
 
@@ -286,3 +283,9 @@ def readme_table() -> list[str]:
         rows.append(f"| {b.quantity} ({', '.join(b.names)}) | {shown(b.error)} | "
                     f"{shown(b.warning)} | {', '.join(b.slips)} | {b.source} |")
     return rows
+
+
+def _slip_words(subject: str, likely: list[str], what: str = "") -> str:
+    """"; these look like hPa values: did you mean [hPa]?" for the likely unit slips."""
+    return (f"; {subject} {' or '.join(likely)}{what}: "
+            + did_you_mean([f"[{unit}]" for unit in likely], quoted=False))
