@@ -464,10 +464,13 @@ def fit_column(ws, title: str) -> list[str]:
     from layercalc.formats.xlsx.stations import FIT_MARK
 
     mark = [c.row for c in ws["A"] if c.value == FIT_MARK][0]
-    header = mark + 3
-    column = [j for j in range(1, ws.max_column + 1) if ws.cell(header, j).value == title][0]
-    rows = range(header + 1, ws.max_row + 1)
-    return [ws.cell(r, column).coordinate for r in rows if ws.cell(r, 1).value is not None]
+    header, column = [(r, j) for r in range(mark, ws.max_row + 1)
+                      for j in range(1, ws.max_column + 1) if ws.cell(r, j).value == title][0]
+    cells, row = [], header + 1
+    while ws.cell(row, 1).value is not None:  # the block's levels, down to its blank row
+        cells.append(ws.cell(row, column).coordinate)
+        row += 1
+    return cells
 
 
 def test_a_station_wind_turned_in_the_workbook_moves_divergence_omega_and_the_tendency(tmp_path):

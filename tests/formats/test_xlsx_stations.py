@@ -31,13 +31,13 @@ def test_the_layers_div_is_the_mean_of_two_live_level_divergences(tmp_path):
     layers, stations = workbook["layers"], workbook["stations"]
     column = [c.column for c in layers[1] if c.value == "div [1e-5 s^-1]"][0]
     first = layers.cell(2, column).value
-    assert re.fullmatch(r"=\('stations'!R55\+'stations'!R56\)/2/1E-05", first), first
+    assert re.fullmatch(r"=\('stations'!F77\+'stations'!F78\)/2/1E-05", first), first
     fit = [c.row for c in stations["A"] if c.value == FIT_MARK][0]
-    assert stations["R54"].value == "divergence [s^-1]"
-    assert stations["R55"].value == "=N55+Q55"  # du/dx + dv/dy
+    assert stations["F76"].value == "divergence [s^-1]"
+    assert stations["F77"].value == "=B77+E77"  # du/dx + dv/dy
     # Northfield's u at the lowest level from its typed speed [kt] and dir [deg]:
     # u = -speed sin(dir) (common practice, no source), 1 kt = 463/900 m/s
-    u_cell = stations.cell(fit + 4, 2).value
+    u_cell = stations.cell(fit + 2, 2).value
     assert re.fullmatch(r"=-\(F17\*\(463/900\)\)\*SIN\(\(E17\*0\.0174532925199\d*\)\)", u_cell), u_cell
     typed = [c.row for c in stations["A"]
              if c.value == STATION_MARK and c.row > GEOMETRY_HEADER_ROW]  # not the list's header
@@ -78,3 +78,28 @@ def test_a_station_missing_from_the_list_is_reported(tmp_path):
         import_workbook(path, layercalc.loads)
     assert f"stations!B{row}" in caught.value.format()
     assert "station 'Westvale' is not in the station list" in caught.value.format()
+
+
+def test_the_stations_sheet_prints_at_full_size_with_every_computed_cell_formatted(tmp_path):
+    # the fit is stacked in blocks no wider than the page, so fit-to-width does not
+    # shrink the sheet; every computed number is shown with a number format (display only)
+    from openpyxl.utils import column_index_from_string
+
+    from layercalc.formats.xlsx.printing import print_scale
+
+    _, workbook = exported(tmp_path)
+    stations = workbook["stations"]
+    area = stations.print_area.split("!")[1].replace("$", "")
+    last_column = column_index_from_string(re.match(r"A1:([A-Z]+)\d+", area).group(1))
+    widths = [stations.column_dimensions[letter].width
+              for letter in "ABCDEFGHIJKLMNOPQRSTUVWXYZ"[:last_column]]
+    assert print_scale(widths) == 1.0, widths
+    computed = [c for row in stations.iter_rows() for c in row
+                if isinstance(c.value, str) and c.value.startswith("=") and c.column > 1]
+    assert len(computed) > 100
+    assert [c.coordinate for c in computed if c.number_format == "General"] == []
+    fit = [c.row for c in stations["A"] if c.value == FIT_MARK][0]
+    assert stations.cell(fit + 2, 2).number_format == "0.00"  # a wind in m/s
+    assert stations["F77"].number_format == "0.000E+00"  # divergence in s^-1
+    assert stations["H77"].number_format == "0.000"  # divergence in 1e-5 s^-1
+    assert stations["H77"].value == "=F77/1E-05"  # the stored formula in full

@@ -64,6 +64,16 @@ def red_when(ws, reference: str, condition: str) -> None:
         font=Font(bold=True, color="FFFFFF")))
 
 
+SCIENTIFIC = "0.000E+00"  # for quantities like 1e-5 s^-1 or 1e11 m^2
+
+
+def put_number(cell, value, number_format: str) -> None:
+    """A number or formula cell shown with `number_format` (display only: the stored
+    value and the formula keep full precision)."""
+    cell.value = value
+    cell.number_format = number_format
+
+
 def size_columns(ws, widths: dict[int, float]) -> None:
     for column, width in widths.items():
         ws.column_dimensions[letter(column)].width = width

@@ -91,3 +91,60 @@ def wrap_columns(ws, columns: dict[int, float], rows: int) -> None:
     for row, count in lines.items():
         if count > 1:
             ws.row_dimensions[row].height = 14.5 * count
+
+
+PAGE_ROWS = 34  # default rows (15 pt) a landscape page holds between its margins
+ROW_POINTS = 14.5  # a line of wrapped text
+
+
+def wrapped_lines(text: str, width: float) -> int:
+    """Lines `text` wraps into in a column `width` characters wide (word wrap; bold
+    headers are a little wider than plain text)."""
+    import textwrap
+
+    return max(1, len(textwrap.wrap(text, max(4, int(width * 0.9)))))
+
+
+def fit_rows(ws, rows, last_column: int) -> None:
+    """Each of `rows` as high as its longest wrapped text in columns 1..`last_column`
+    (LibreOffice does not grow a row with wrapped text on load)."""
+    from openpyxl.utils import get_column_letter
+
+    for row in rows:
+        lines = max(wrapped_lines(value, ws.column_dimensions[get_column_letter(j)].width
+                                  or 8.43)
+                    for j in range(1, last_column + 1)
+                    if isinstance(value := ws.cell(row, j).value, str))
+        if lines > 1:
+            ws.row_dimensions[row].height = ROW_POINTS * lines
+
+
+def keep_together(ws, blocks: list[tuple[int, int]]) -> None:
+    """Page breaks so that no block of rows (first, last), in order down the sheet, is
+    split over two pages when it fits on one (row heights as set on the sheet)."""
+    from openpyxl.worksheet.pagebreak import Break
+
+    used, page_height = 0.0, PAGE_ROWS * 15.0
+    for first, last in blocks:
+        height = sum(ws.row_dimensions[r].height or 15.0 for r in range(first, last + 2))
+        if used and used + height > page_height:
+            ws.row_breaks.append(Break(id=first - 1))
+            used = 0.0
+        used += height
+
+
+def wrap_notes(ws, rows, last_column: int) -> None:
+    """Each note row's text (in column A) wrapped over columns A to `last_column`, merged,
+    the row as high as the wrapped text, so that a long note neither widens the printed
+    page nor runs off it."""
+    from openpyxl.styles import Alignment
+    from openpyxl.utils import get_column_letter
+
+    width = sum(ws.column_dimensions[get_column_letter(j)].width or 8.43
+                for j in range(1, last_column + 1))
+    for row in rows:
+        cell = ws.cell(row, 1)
+        text = cell.value if isinstance(cell.value, str) else ""
+        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_column)
+        cell.alignment = Alignment(wrap_text=True, vertical="top")
+        ws.row_dimensions[row].height = ROW_POINTS * wrapped_lines(text, width)

@@ -10,10 +10,13 @@ means as inputs (see README). Layout, rows from the top:
     station's north on it, physics.stations.tangent_plane_coordinates); the sums of the
     centred positions; then each station's levels table as typed (`station | name`, the
     header `name [unit]`, one row per level, SURFACE FIRST, blank for a missing value);
-    then the fit, one row per level: u, v (east, north) from each station's dir and speed
-    (or u and v), turned to the plane by the north angle, the least-squares plane
-    u = u0 + du/dx x + du/dy y (the same for v) in closed form from centred sums, and
-    divergence du/dx + dv/dy and vorticity dv/dx - du/dy, all live.
+    then the fit, in three blocks stacked (one row per level each, so that the sheet
+    prints at full size): u, v (east, north) from each station's dir and speed (or u and
+    v); the centred positions as two rows over the winds turned to the plane by the north
+    angle; the least-squares plane u = u0 + du/dx x + du/dy y (the same for v) in closed
+    form from centred sums, and divergence du/dx + dv/dy and vorticity dv/dx - du/dy, all
+    live. Computed cells carry number formats (display only: values and formulas are
+    stored in full), and page breaks keep each table on one page.
 The `layers` sheet's div is then the mean of its two levels' divergence (a live formula).
 """
 
@@ -21,8 +24,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from layercalc.formats.xlsx.cells import letter, put_text, style
-from layercalc.formats.xlsx.formulas import from_si, number_text, to_si
+from layercalc.formats.xlsx.cells import SCIENTIFIC, letter, put_number, put_text, style
+from layercalc.formats.xlsx.formulas import from_si, number_format, number_text, to_si
 
 SHEET = "stations"
 GEOMETRY_HEADER_ROW = 5
@@ -90,11 +93,11 @@ def stations_sheet(ws, checked, found) -> list[str]:
         put_text(ws.cell(r, 1), st.name)
         ws.cell(r, 2, st.latitude)
         ws.cell(r, 3, st.longitude)
-        ws.cell(r, 4, float(x[i]))
-        ws.cell(r, 5, float(y[i]))
-        ws.cell(r, 6, float(np.rad2deg(angle[i])))
-        ws.cell(r, 7, f"=D{r}-AVERAGE(D${first}:D${last})")
-        ws.cell(r, 8, f"=E{r}-AVERAGE(E${first}:E${last})")
+        put_number(ws.cell(r, 4), float(x[i]), "0")  # shown to the metre, stored in full
+        put_number(ws.cell(r, 5), float(y[i]), "0")
+        put_number(ws.cell(r, 6), float(np.rad2deg(angle[i])), "0.000")
+        put_number(ws.cell(r, 7), f"=D{r}-AVERAGE(D${first}:D${last})", "0")
+        put_number(ws.cell(r, 8), f"=E{r}-AVERAGE(E${first}:E${last})", "0")
     sums = last + 2
     texts = (("Sxx [m^2]", f"=SUMPRODUCT(G{first}:G{last},G{first}:G{last})"),
              ("Syy [m^2]", f"=SUMPRODUCT(H{first}:H{last},H{first}:H{last})"),
@@ -102,12 +105,14 @@ def stations_sheet(ws, checked, found) -> list[str]:
              ("Sxx Syy - Sxy^2 [m^4]", f"=B{sums}*B{sums + 1}-B{sums + 2}^2"))
     for k, (label, formula) in enumerate(texts):
         put_text(ws.cell(sums + k, 1), label)
-        ws.cell(sums + k, 2, formula)
+        put_number(ws.cell(sums + k, 2), formula, SCIENTIFIC)
     sxx, syy, sxy, det = (f"$B${sums + k}" for k in range(4))
     row = sums + len(texts) + 1
     levels = network.levels.pressure.size
     wind_cells = []  # per station: (kind, unit a, unit b, letter a, letter b, first row)
+    blocks = [(1, sums + len(texts) - 1)]  # rows kept on one page when printed
     for st in stations:
+        blocks.append((row, row + 1 + levels))
         put_text(ws.cell(row, 1), STATION_MARK)
         style(ws.cell(row, 1), "header")
         put_text(ws.cell(row, 2), st.name)
@@ -130,65 +135,84 @@ def stations_sheet(ws, checked, found) -> list[str]:
         row += levels + 2
     put_text(ws.cell(row, 1), FIT_MARK)
     style(ws.cell(row, 1), "header")
-    # the centred positions as rows, so that SUMPRODUCT pairs them with a level's winds
-    up0 = 2 + 2 * n  # first column of the plane u
-    vp0 = up0 + n
+    names = [s.name for s in stations]
+    wind_format = number_format(np.concatenate([np.ravel(st.u) for st in network.stations]
+                                               + [np.ravel(st.v) for st in network.stations]))
+    # three blocks stacked, each at most 2n + 1 columns wide, so that the sheet prints
+    # at a readable size: the winds east and north, the winds on the plane (under the
+    # centred positions as rows, so that SUMPRODUCT pairs them with a level's winds),
+    # and the fit with divergence and vorticity
+    east = row + 1
+    block_titles = (["p [hPa]"] + [f"u {name} [m/s]" for name in names]
+                    + [f"v {name} [m/s]" for name in names])
+    positions = east + levels + 2
+    plane = positions + 2
+    plane_titles = (["p [hPa]"] + [f"u plane {name} [m/s]" for name in names]
+                    + [f"v plane {name} [m/s]" for name in names])
+    fit = plane + levels + 2
+    fit_titles = ["p [hPa]", "du/dx [s^-1]", "du/dy [s^-1]", "dv/dx [s^-1]", "dv/dy [s^-1]",
+                  "divergence [s^-1]", "vorticity [s^-1]", "divergence [1e-5 s^-1]",
+                  "vorticity [1e-5 s^-1]"]
+    for header, titles in ((east, block_titles), (plane, plane_titles), (fit, fit_titles)):
+        for j, text in enumerate(titles, start=1):
+            put_text(ws.cell(header, j), text)
+            style(ws.cell(header, j), "header")
     for offset, source in ((0, "G"), (1, "H")):
-        put_text(ws.cell(row + 1 + offset, 1), ("x - mean [m]", "y - mean [m]")[offset])
+        put_text(ws.cell(positions + offset, 1), ("x - mean [m]", "y - mean [m]")[offset])
         for i in range(n):
-            for start in (up0, vp0):
-                ws.cell(row + 1 + offset, start + i, f"={source}{first + i}")
-    xrow, yrow = row + 1, row + 2
-    header = row + 3
-    titles = (["p [hPa]"] + [f"u {s.name} [m/s]" for s in stations]
-              + [f"v {s.name} [m/s]" for s in stations]
-              + [f"u plane {s.name} [m/s]" for s in stations]
-              + [f"v plane {s.name} [m/s]" for s in stations]
-              + ["du/dx [s^-1]", "du/dy [s^-1]", "dv/dx [s^-1]", "dv/dy [s^-1]",
-                 "divergence [s^-1]", "vorticity [s^-1]",
-                 "divergence [1e-5 s^-1]", "vorticity [1e-5 s^-1]"])
-    for j, text in enumerate(titles, start=1):
-        put_text(ws.cell(header, j), text)
-        style(ws.cell(header, j), "header")
-    fit0 = vp0 + n
+            for start in (2, 2 + n):
+                put_number(ws.cell(positions + offset, start + i), f"={source}{first + i}",
+                           "0")
+    xrow, yrow = positions, positions + 1
     L = letter
     divergence_cells = []
     p_letter = letter([h.name for h in stations[0].table.headings].index("p") + 1)
+    shown = number_format(network.levels.divergence / 1e-5)
     for k in range(levels):
-        r = header + 1 + k
+        r, rp, rf = east + 1 + k, plane + 1 + k, fit + 1 + k
         ws.cell(r, 1, f"={p_letter}{wind_cells[0][5] + k}")
+        ws.cell(rp, 1, f"=A{r}")
+        ws.cell(rf, 1, f"=A{r}")
         for i, (kind, unit_a, unit_b, la, lb, row0) in enumerate(wind_cells):
             a, b = to_si(f"{la}{row0 + k}", unit_a), to_si(f"{lb}{row0 + k}", unit_b)
             if kind == "dir":
                 u, v = f"=-{b}*SIN({a})", f"=-{b}*COS({a})"
             else:
                 u, v = f"={a}", f"={b}"
-            ws.cell(r, 2 + i, u)
-            ws.cell(r, 2 + n + i, v)
+            put_number(ws.cell(r, 2 + i), u, wind_format)
+            put_number(ws.cell(r, 2 + n + i), v, wind_format)
             gamma = f"RADIANS($F${first + i})"
             ue, vn = f"{L(2 + i)}{r}", f"{L(2 + n + i)}{r}"
-            ws.cell(r, up0 + i, f"={ue}*COS({gamma})+{vn}*SIN({gamma})")
-            ws.cell(r, vp0 + i, f"=-{ue}*SIN({gamma})+{vn}*COS({gamma})")
-        urow = f"{L(up0)}{r}:{L(up0 + n - 1)}{r}"
-        vrow = f"{L(vp0)}{r}:{L(vp0 + n - 1)}{r}"
-        xs_u = f"${L(up0)}${xrow}:${L(up0 + n - 1)}${xrow}"
-        ys_u = f"${L(up0)}${yrow}:${L(up0 + n - 1)}${yrow}"
-        xs_v = f"${L(vp0)}${xrow}:${L(vp0 + n - 1)}${xrow}"
-        ys_v = f"${L(vp0)}${yrow}:${L(vp0 + n - 1)}${yrow}"
+            put_number(ws.cell(rp, 2 + i), f"={ue}*COS({gamma})+{vn}*SIN({gamma})",
+                       wind_format)
+            put_number(ws.cell(rp, 2 + n + i), f"=-{ue}*SIN({gamma})+{vn}*COS({gamma})",
+                       wind_format)
+        urow = f"{L(2)}{rp}:{L(1 + n)}{rp}"
+        vrow = f"{L(2 + n)}{rp}:{L(1 + 2 * n)}{rp}"
+        xs_u, ys_u = f"$B${xrow}:${L(1 + n)}${xrow}", f"$B${yrow}:${L(1 + n)}${yrow}"
+        xs_v = f"${L(2 + n)}${xrow}:${L(1 + 2 * n)}${xrow}"
+        ys_v = f"${L(2 + n)}${yrow}:${L(1 + 2 * n)}${yrow}"
         sxu, syu = f"SUMPRODUCT({xs_u},{urow})", f"SUMPRODUCT({ys_u},{urow})"
         sxv, syv = f"SUMPRODUCT({xs_v},{vrow})", f"SUMPRODUCT({ys_v},{vrow})"
-        ws.cell(r, fit0, f"=({syy}*{sxu}-{sxy}*{syu})/{det}")
-        ws.cell(r, fit0 + 1, f"=({sxx}*{syu}-{sxy}*{sxu})/{det}")
-        ws.cell(r, fit0 + 2, f"=({syy}*{sxv}-{sxy}*{syv})/{det}")
-        ws.cell(r, fit0 + 3, f"=({sxx}*{syv}-{sxy}*{sxv})/{det}")
-        ws.cell(r, fit0 + 4, f"={L(fit0)}{r}+{L(fit0 + 3)}{r}")
-        ws.cell(r, fit0 + 5, f"={L(fit0 + 2)}{r}-{L(fit0 + 1)}{r}")
-        ws.cell(r, fit0 + 6, f"={L(fit0 + 4)}{r}/{number_text(1e-5)}")
-        ws.cell(r, fit0 + 7, f"={L(fit0 + 5)}{r}/{number_text(1e-5)}")
-        divergence_cells.append(f"{L(fit0 + 4)}{r}")
+        for j, formula in enumerate((f"=({syy}*{sxu}-{sxy}*{syu})/{det}",
+                                     f"=({sxx}*{syu}-{sxy}*{sxu})/{det}",
+                                     f"=({syy}*{sxv}-{sxy}*{syv})/{det}",
+                                     f"=({sxx}*{syv}-{sxy}*{sxv})/{det}",
+                                     f"=B{rf}+E{rf}", f"=D{rf}-C{rf}"), start=2):
+            put_number(ws.cell(rf, j), formula, SCIENTIFIC)
+        put_number(ws.cell(rf, 8), f"=F{rf}/{number_text(1e-5)}", shown)
+        put_number(ws.cell(rf, 9), f"=G{rf}/{number_text(1e-5)}", shown)
+        divergence_cells.append(f"F{rf}")
     from layercalc.formats.xlsx.cells import size_columns
+    from layercalc.formats.xlsx.printing import fit_rows, keep_together, wrap_notes
 
-    size_columns(ws, {j: 16 for j in range(1, len(titles) + 1)})
+    last_column = max(len(GEOMETRY_HEADER), 1 + 2 * n, len(fit_titles))
+    size_columns(ws, {j: 13 for j in range(1, last_column + 1)})
+    wrap_notes(ws, range(1, len(notes) + 1), last_column)
+    fit_rows(ws, [top, east, plane, fit] + [b[0] + 1 for b in blocks[1:]], last_column)
+    keep_together(ws, blocks + [(row, east + levels), (positions, plane + levels),
+                                (fit, fit + levels)])
+    ws.print_area = f"A1:{letter(last_column)}{fit + levels}"
     return divergence_cells
 
 
