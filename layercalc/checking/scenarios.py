@@ -6,6 +6,8 @@ Selections, in terms of each layer's own bounds (base pressures):
     above P             the layer lies wholly above P   (p_bottom <= P)
     below P             the layer lies wholly below P   (p_top >= P)
     where CONDITION     the condition holds for the layer (row by row)
+A change `at "Station"`, `at every station` or `at levels` changes level values instead
+(checking/level_changes.py: levels picked by their pressure, both ends inclusive).
 Temperatures added with `add` are differences: `add 3 degC to T` equals `add 3 K to T`.
 """
 
@@ -15,6 +17,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from layercalc.checking import level_changes as LC
 from layercalc.language import units as U
 from layercalc.names import PRESSURE_BOUNDS, close_names
 from layercalc.errors import DefinitionError, LayercalcError, Notice, UnitError, UnknownNameError
@@ -35,6 +38,8 @@ class CheckedChange:
     condition: TExpr | None = None
     text: str = ""
     span: object = None  # the change's line in the file
+    place: object = None  # nodes.Place for a change to level values (level_changes.py)
+    tables: tuple[int, ...] = ()  # the soundings it changes: levels table first, stations
 
 
 @dataclass
@@ -122,7 +127,28 @@ def _check_one(checker, sheet, sc: Scenario) -> CheckedScenario:
                            option_spans)
 
 
+def _check_level_change(checker, sheet, ch) -> CheckedChange:
+    """A change `at` a station or the levels table (checking/level_changes.py)."""
+    indices, soundings = LC.tables_of(sheet, ch)
+    LC.check_target(sheet, ch, soundings)
+    amount = LC.check_amount(checker, sheet, ch, soundings[0].units[ch.target])
+    bounds = ()
+    if ch.selection is not None:
+        if ch.selection.kind == "where":
+            raise DefinitionError("'where' selects layers; a change at "
+                                  f"{LC.place_text(ch.place)} picks levels by pressure",
+                                  ch.selection.span,
+                                  hint="use between P1 and P2, above P or below P")
+        bounds = LC.pressure_bounds(checker, ch.selection)
+    text = ch.span.source.text[ch.span.start:ch.span.end].strip()
+    return CheckedChange(ch.action, ch.target, amount,
+                         None if ch.selection is None else ch.selection.kind, bounds, None,
+                         text, ch.span, ch.place, indices)
+
+
 def _check_change(checker, sheet, ch) -> CheckedChange:
+    if ch.place is not None:
+        return _check_level_change(checker, sheet, ch)
     if ch.target in FIXED_INPUTS:
         raise DefinitionError(f"a scenario cannot change {ch.target}: layers keep their "
                               "pressures", ch.target_span,
@@ -157,16 +183,7 @@ def _check_change(checker, sheet, ch) -> CheckedChange:
             _inputs_only(condition, ch.selection.first.span)
             checker.need_condition(condition, "where")
         else:
-            parts = [p for p in (ch.selection.first, ch.selection.second) if p is not None]
-            values = []
-            for part in parts:
-                typed = checker.expr(part, prefer_columns=True)
-                if not U.same_dimension(typed.meta.dimension, U.PRESSURE):
-                    raise UnitError(f"'{selection}' needs a pressure, not "
-                                    f"{U.dimension_name(typed.meta.dimension)}", part.span,
-                                    hint="e.g. between 500 hPa and 300 hPa")
-                values.append(typed.value)
-            bounds = tuple(values)
+            bounds = LC.pressure_bounds(checker, ch.selection)
     text = ch.span.source.text[ch.span.start:ch.span.end].strip()
     return CheckedChange(ch.action, ch.target, amount, selection, bounds, condition, text,
                          ch.span)
@@ -212,6 +229,12 @@ def _check_cell(checker, sheet, d: Definition) -> float:
 
 def _empty_selection(sheet, ch: CheckedChange, sc) -> Notice | None:
     if ch.selection in (None, "where"):
+        return None
+    if ch.place is not None:
+        _, soundings = LC.tables_of(sheet, ch)
+        if not any(LC.level_mask(s.pressure, ch.selection, ch.bounds).any()
+                   for s in soundings):
+            return Notice(f"scenario {sc.name}: '{ch.text}' selects no level", ch.span)
         return None
     mask = selection_mask(sheet, ch)
     if not mask.any():

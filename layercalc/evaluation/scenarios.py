@@ -11,6 +11,7 @@ from layercalc.checking.checker import check_with_options
 from layercalc.checking.scenarios import CheckedChange, CheckedScenario, chain, selection_mask
 from layercalc.errors import EvaluationError, LayercalcError, UnknownNameError
 from layercalc.evaluation.engine import Environment, evaluate
+from layercalc.evaluation.level_changes import rebuilt_columns
 from layercalc.language import units as U
 
 
@@ -39,8 +40,11 @@ def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
         cells[name] = np.asarray(values, dtype=float).reshape(-1, 1)
     env = Environment(columns, cells, checked_sheet.layer_count)
     with np.errstate(all="ignore"):
+        columns.update(rebuilt_columns(checked_sheet, scenarios, env.run))  # level changes
         for sc in scenarios:
             for ch in sc.changes:
+                if ch.place is not None:  # applied to the soundings above
+                    continue
                 amount = np.asarray(env.run(ch.amount), dtype=float)
                 current = columns[ch.target]
                 if ch.condition is None:  # a range of layers: change only those

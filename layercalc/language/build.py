@@ -7,7 +7,7 @@ from layercalc.errors import LayercalcSyntaxError
 from layercalc.language.table_body import read_body, read_numbers
 from layercalc.language.nodes import (
     Binary, Call, Change, Definition, Document, Heading, Literal, Name, Note, Option,
-    Scenario, Selection, Station, Table, Title, Unary, UnitName, UnitNumber, UnitOp,
+    Place, Scenario, Selection, Station, Table, Title, Unary, UnitName, UnitNumber, UnitOp,
     UnitPower,
 )
 from layercalc.source import Source, Span
@@ -17,6 +17,8 @@ MAX_DEPTH = 250  # operations nested in one formula; keeps every later (recursiv
 
 _BINARY = {"add": "+", "subtract": "-", "multiply": "*", "divide": "/", "power": "^",
            "and_op": "and", "or_op": "or"}
+_PLACES = {"at_station": "station", "at_every_station": "every station",
+           "at_table": "levels"}
 _SELECTIONS = {"select_between": "between", "select_above": "above",
                "select_below": "below", "select_where": "where"}
 
@@ -154,9 +156,26 @@ class _Builder:
             target, amount = c[0], c[1]
         else:
             amount, target = c[0], c[1]
-        selection = self.selection(c[2]) if len(c) > 2 else None
+        place = selection = None
+        for extra in c[2:]:
+            if extra.data in _PLACES:
+                place = self.place(extra)
+            else:
+                selection = self.selection(extra)
         return Change(self.span(tree), action, str(target), self.span(target),
-                      self.expr(amount), selection)
+                      self.expr(amount), selection, place)
+
+    def place(self, tree) -> Place:
+        kind = _PLACES[tree.data]
+        if kind == "station":
+            return Place(self.span(tree), kind, _unquote(tree.children[0]))
+        if kind == "levels" and str(tree.children[0]) != "levels":
+            raise LayercalcSyntaxError(
+                f"found 'at {tree.children[0]}'; expected 'at \"Station name\"', "
+                "'at every station' or 'at levels'", self.span(tree),
+                hint="a change to the layers table needs no 'at': "
+                     "e.g. scale div by 1.2 above 500 hPa")
+        return Place(self.span(tree), kind)
 
     def selection(self, tree) -> Selection:
         kind = _SELECTIONS[tree.data]

@@ -197,8 +197,19 @@ class Selection:
 
 
 @dataclass(frozen=True)
+class Place:
+    """Where a change to level values applies: `at "Name"` (one station), `at every
+    station`, or `at levels` (the top-level levels table)."""
+
+    span: Span
+    kind: str  # "station", "every station", "levels"
+    station: Optional[str] = None  # the station's name for kind "station"
+
+
+@dataclass(frozen=True)
 class Change:
-    """One line of a scenario: add / scale / set a column, optionally on selected layers."""
+    """One line of a scenario: add / scale / set a column, optionally on selected layers;
+    with a `place`, a column of level tables, optionally on selected levels."""
 
     span: Span
     action: str  # "add", "scale", "set"
@@ -206,6 +217,7 @@ class Change:
     target_span: Span
     amount: Expr
     selection: Optional[Selection] = None
+    place: Optional[Place] = None
 
 
 @dataclass(frozen=True)

@@ -314,7 +314,9 @@ def layers_from_soundings(checker, level_tables: list[Table],
                            tolerance, notices, at_surface)
     columns = _columns(pressure, levels, units, span_of)
     details = SoundingDetails(source, tolerance, column_levels, network_details, layer_wind,
-                              hydrostatic, counts)
+                              hydrostatic, counts, main,
+                              tuple(network.soundings) if network is not None else (),
+                              None if pressure[0] == lowest_level else float(pressure[0]))
     return SoundingLayers(columns, pressure.size - 1, notices, details)
 
 

@@ -2,8 +2,9 @@
 SI, levels and layers from the surface upward, NaN for a missing value. Built while the
 layers are built (soundings/levels.py, soundings/column.py), carried on the checked sheet
 (`CheckedSheet.soundings`), worded by report/soundings.py, drawn by plots/stations.py and
-converted to JSON only in formats/jsondoc.py. The same for every scenario: scenario
-changes act on the layers, not on the soundings.
+converted to JSON only in formats/jsondoc.py. These describe the soundings as typed: a
+scenario that changes level values (`at "Name"`, `at levels`) rebuilds its layers from
+changed copies (soundings/rebuild.py) and leaves these as they are.
 """
 
 from __future__ import annotations
@@ -118,3 +119,8 @@ class SoundingDetails:
     hydrostatic: tuple[HydrostaticTable, ...]
     level_counts: dict = field(default_factory=dict)  # name -> soundings reporting it at
                                                       # each level (0: interpolated)
+    # the soundings as read (levels.Sounding, SI), for scenarios that change level values
+    # (soundings/rebuild.py): the top-level levels table or None, the stations in order
+    levels_table: object = None
+    station_soundings: tuple = ()
+    surface_cut: float | None = None  # [Pa] the surface_pressure that cut the column

@@ -403,14 +403,15 @@ def test_json_soundings_of_a_linear_wind_field_with_a_missing_wind(capsys, tmp_p
 def test_plot_a_station_network(capsys, tmp_path):
     from matplotlib.image import imread
 
-    from layercalc.plots.profile import SINGLE_SIZE, STATION_PANEL_WIDTH
+    from layercalc.plots.profile import COMPARE_SIZE, STATION_PANEL_WIDTH
 
     target = tmp_path / "three.png"
     code, _, err = cli(capsys, "plot", str(THREE_STATIONS), "-o", str(target), "--dpi", "50")
     assert code == 0 and f"wrote {target}" in err
-    # profile panel plus the station panel (plot.py's sizes, in inches, at 50 dpi)
-    assert imread(target).shape[:2] == (round(SINGLE_SIZE[1] * 50),
-                                        round((SINGLE_SIZE[0] + STATION_PANEL_WIDTH) * 50))
+    # profile and scenario panels (the case has scenarios) plus the station panel
+    # (plot.py's sizes, in inches, at 50 dpi)
+    assert imread(target).shape[:2] == (round(COMPARE_SIZE[1] * 50),
+                                        round((COMPARE_SIZE[0] + STATION_PANEL_WIDTH) * 50))
 
 
 def test_plot_station_level_option(capsys, tmp_path, monkeypatch):

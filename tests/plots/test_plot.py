@@ -207,7 +207,10 @@ def test_station_panel_positions_and_winds(asked, drawn):
 def test_station_panel_png_size_and_no_panel_without_stations(tmp_path):
     from matplotlib.image import imread
 
-    sheet = layercalc.load(THREE)
+    # the worked case without its what-if scenarios: one profile panel and the stations
+    text = THREE.read_text(encoding="utf-8").split("\n# What-if")[0]
+    assert "\nscenario " not in text
+    sheet = layercalc.loads(text, name="three.layers")
     assert figure_size(sheet) == (SINGLE_SIZE[0] + STATION_PANEL_WIDTH, SINGLE_SIZE[1])
     target = tmp_path / "three.png"
     save_profile(sheet, target, dpi=60, station_level=300.0)

@@ -1,0 +1,207 @@
+"""Scenarios that change level values: station winds and temperatures (`at "Name"`,
+`at every station`) and a levels table (`at levels`).
+
+Expected values: the same file with the change typed in by hand, evaluated as the base
+sheet (common practice, no source): the scenario must give the same results to 1e-12.
+That path reads the typed table and runs soundings/column.py; the scenario path changes
+arrays and runs soundings/rebuild.py."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+
+import layercalc
+
+from tests.helpers import error_of
+
+CASE = (Path(__file__).resolve().parents[2] / "worked_cases" / "three_stations.layers").read_text()
+
+
+def _compare(scenario_result, typed_text: str, name: str = "typed.layers") -> None:
+    typed = layercalc.loads(typed_text, name=name).evaluate()
+    for column, values in typed.si_columns.items():
+        got = np.broadcast_to(scenario_result.si_columns[column], np.shape(values))
+        assert_allclose(got, values, rtol=1e-12, atol=1e-20, err_msg=column)
+    for cell, value in typed.si_cells.items():
+        assert_allclose(scenario_result.si_cells[cell], value, rtol=1e-12, atol=1e-20,
+                        err_msg=cell)
+
+
+def _typed(text: str, rows: dict[str, str]) -> str:
+    """`text` with whole table rows replaced (each old row occurs once)."""
+    for old, new in rows.items():
+        assert text.count(old) == 1, old
+        text = text.replace(old, new)
+    return text
+
+
+def test_one_station_stronger_aloft_equals_the_winds_typed_in():
+    sheet = layercalc.loads(CASE + """
+scenario stronger
+  scale speed by 1.2 at "Eastmoor" above 500 hPa
+end
+""", name="case.layers")
+    result = sheet.evaluate("stronger")
+    # Eastmoor's 500-200 hPa speeds (53, 66, 83, 90, 78 kt) times 1.2, typed by hand
+    typed = _typed(CASE, {
+        "500    -18.4     -24.5    5609    232     53": "500    -18.4     -24.5    5609    232     63.6",
+        "400    -29.0     -37.0    7239    238     66": "400    -29.0     -37.0    7239    238     79.2",
+        "300    -43.0     -51.5    9237    243     83": "300    -43.0     -51.5    9237    243     99.6",
+        "250    -50.6     -59.5   10445    243     90": "250    -50.6     -59.5   10445    243     108",
+        "200    -55.8     -66.5   11881    248     78": "200    -55.8     -66.5   11881    248     93.6",
+    })
+    _compare(result, typed)
+    base = sheet.evaluate()
+    assert not np.allclose(result.si_columns["div"], base.si_columns["div"])  # it changed
+    assert_allclose(result.si_columns["T"], base.si_columns["T"], rtol=0)  # T did not
+
+
+def test_every_station_turned_and_one_warmed_equals_the_table_typed_in():
+    sheet = layercalc.loads(CASE + """
+cell warming = 3 K
+scenario turned
+  add 5 deg to dir at every station between 700 hPa and 300 hPa
+  add warming to T at "Southvale" below 850 hPa
+end
+""", name="case.layers")
+    result = sheet.evaluate("turned")
+    typed = _typed(CASE + "cell warming = 3 K\n", {
+        # Northfield, Eastmoor, Southvale: directions at 700, 500, 400, 300 hPa + 5 deg
+        "-3.8      -7.5    2990    219": "-3.8      -7.5    2990    224",
+        "-19.6     -26.0    5568    229": "-19.6     -26.0    5568    234",
+        "-30.2     -38.0    7190    234": "-30.2     -38.0    7190    239",
+        "-44.0     -52.0    9178    239": "-44.0     -52.0    9178    244",
+        "-2.6      -6.0    3019    219": "-2.6      -6.0    3019    224",
+        "-18.4     -24.5    5609    232": "-18.4     -24.5    5609    237",
+        "-29.0     -37.0    7239    238": "-29.0     -37.0    7239    243",
+        "-43.0     -51.5    9237    243": "-43.0     -51.5    9237    248",
+        "-1.6      -5.6    3049    222": "-1.6      -5.6    3049    227",
+        "-17.6     -23.0    5648    229": "-17.6     -23.0    5648    234",
+        "-28.4     -36.0    7283    233": "-28.4     -36.0    7283    238",
+        "-42.4     -51.0    9285    238": "-42.4     -51.0    9285    243",
+        # Southvale's T at 1000, 925, 850 hPa + 3 K
+        "1000     15.0      11.8     121": "1000     18.0      11.8     121",
+        "925     10.2       8.0     776": "925     13.2       8.0     776",
+        "850      7.0       4.0    1476": "850     10.0       4.0    1476",
+    })
+    _compare(result, typed)
+
+
+def test_a_direction_stays_within_a_full_turn():
+    # Northfield's 1000 hPa wind from 143 deg turned by 300 deg comes from 83 deg
+    sheet = layercalc.loads(CASE + """
+scenario round
+  add 300 deg to dir at "Northfield" below 1000 hPa
+end
+""", name="case.layers")
+    typed = _typed(CASE, {"12.4      10.1      88    143": "12.4      10.1      88     83"})
+    _compare(sheet.evaluate("round"), typed)
+
+
+LEVELS = """title "Levels"
+cell surface_height = 110 m
+levels
+  p [hPa]  T [degC]  Td [degC]  z [m]  div [1e-5 s^-1]
+  1000   14.0    9.0    110   -1.2
+  850     6.0    0.0   1540   -0.6
+  700    -4.0  -12.0   3100    0.1
+  500   -20.0  -30.0   5650    0.8
+  300   -44.0  -55.0   9300    0.5
+end
+"""
+
+
+@pytest.mark.parametrize("extra", ["", "cell surface_pressure = 960 hPa\n"])
+def test_levels_table_changes_equal_the_table_typed_in(extra):
+    sheet = layercalc.loads(LEVELS + extra + """
+scenario moist
+  set Td to -5 degC at levels between 850 hPa and 700 hPa
+  add 2 K to T at levels above 500 hPa
+  scale div by 2 at levels
+end
+""", name="levels.layers")
+    typed = _typed(LEVELS + extra, {
+        "850     6.0    0.0   1540   -0.6": "850     6.0   -5.0   1540   -1.2",
+        "700    -4.0  -12.0   3100    0.1": "700    -4.0   -5.0   3100    0.2",
+        "1000   14.0    9.0    110   -1.2": "1000   14.0    9.0    110   -2.4",
+        "500   -20.0  -30.0   5650    0.8": "500   -18.0  -30.0   5650    1.6",
+        "300   -44.0  -55.0   9300    0.5": "300   -42.0  -55.0   9300    1.0",
+    })
+    _compare(sheet.evaluate("moist"), typed)
+
+
+def test_layer_changes_follow_the_rebuilt_layers():
+    # a chain: the station change rebuilds div; the layer change then scales that div
+    sheet = layercalc.loads(CASE + """
+scenario stronger
+  scale speed by 1.2 at "Eastmoor" above 500 hPa
+end
+scenario doubled from stronger
+  scale div by 2 above 300 hPa
+end
+""", name="case.layers")
+    stronger = sheet.evaluate("stronger").si_columns
+    doubled = sheet.evaluate("doubled").si_columns
+    picked = sheet.checked.input_columns["p_bottom"].values <= 300e2
+    assert picked.sum() == 2
+    assert_allclose(doubled["div"], np.where(picked, 2, 1) * stronger["div"], rtol=1e-15)
+
+
+def test_a_sweep_over_a_what_if_cell_equals_one_at_a_time():
+    body = CASE + """
+cell gust = 1
+scenario gusty
+  scale speed by gust at "Eastmoor" above 500 hPa
+end
+"""
+    sheet = layercalc.loads(body, name="case.layers")
+    gusts = np.array([0.8, 1.0, 1.25, 1.5])
+    many = sheet.evaluate_many({"gust": gusts}, scenario="gusty")
+    for i, gust in enumerate(gusts):
+        one = layercalc.loads(body.replace("cell gust = 1", f"cell gust = {float(gust)!r}"),
+                              name="case.layers").evaluate("gusty")
+        # source: the same scenario evaluated once per value (common practice, no source)
+        assert_allclose(np.broadcast_to(many.columns["div"], (4, 8))[i],
+                        one.si_columns["div"], rtol=1e-12)
+        assert_allclose(np.broadcast_to(many.cells["surface_pressure_tendency"], (4, 1))[i, 0],
+                        one.si_cells["surface_pressure_tendency"], rtol=1e-12)
+
+
+@pytest.mark.parametrize("body, expected", [
+    ('scale speed by 1.2 at "Eastmor"', "no station named \"Eastmor\""),
+    ('scale speed by 1.2 at "Eastmor"', "did you mean 'Eastmoor'?"),
+    ("add 3 K to T at levels", "this sheet has none"),
+    ('add 3 kt to dir at "Eastmoor"', "cannot add a speed to dir (an angle)"),
+    ('add 5 to dir at "Eastmoor"', "needs its angle unit"),
+    ('scale dir by 2 at "Eastmoor"', "cannot be scaled"),
+    ('add 3 K to spead at every station', "has no column 'spead'"),
+    ('add 3 K to z at every station', "cannot change z"),
+    ('add 3 K to p at every station', "cannot change p"),
+    ('scale speed by 2 [m/s] at every station', "needs a plain number"),
+    ('scale speed by div at every station', "input cells only"),
+    ('scale speed by 2 at every station where T > 0 degC', "'where' selects layers"),
+    ('scale speed by 2 at layers', "expected 'at \"Station name\"'"),
+])
+def test_level_change_errors(body, expected):
+    text = error_of(CASE + f"scenario x\n  {body}\nend\n").format()
+    assert expected in text
+    assert "test.layers:" in text  # positioned
+
+
+def test_a_selection_of_no_level_warns():
+    sheet = layercalc.loads(CASE + 'scenario high\n  scale speed by 2 at "Eastmoor" '
+                            "above 100 hPa\nend\n", name="case.layers")
+    texts = [n.format() if hasattr(n, "format") else str(n) for n in sheet.check()]
+    assert any("selects no level" in t for t in texts)
+
+
+def test_a_negative_speed_is_refused_with_its_place():
+    sheet = layercalc.loads(CASE + 'scenario calm\n  add -20 kt to speed at "Northfield"\n'
+                            "end\n", name="case.layers")
+    with pytest.raises(layercalc.EvaluationError, match="makes speed negative") as info:
+        sheet.evaluate("calm")
+    assert "case.layers:" in info.value.format()
