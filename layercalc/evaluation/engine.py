@@ -6,7 +6,9 @@ scenarios. A subexpression written in more than one formula (omega's `div_adjust
 the net mass divergence's `div * dp`, where `div_adjusted = div`) is computed once per
 evaluation; an arithmetic step whose operand is a temporary of the same shape writes into
 that temporary instead of a new array (+ - * / only: correctly rounded, so the values are
-the same bits as a new array would hold).
+the same bits as a new array would hold). Every formula's values are checked to be finite
+and within range; for a big array that scan is skipped where bounds worked out from the
+operands' bounds prove it cannot find anything (bounds.py).
 """
 
 from __future__ import annotations
@@ -18,6 +20,7 @@ import numpy as np
 
 from layercalc.constants import CONSTANTS
 from layercalc.errors import EvaluationError
+from layercalc.evaluation.bounds import FEWEST_VALUES, Bounds
 from layercalc.limits import LARGEST_VALUE
 from layercalc.language.functions import downward_sum, upward_sum
 from layercalc.language.typed import COLUMN, TBinary, TCall, TNumber, TRef, TUnary
@@ -46,12 +49,14 @@ class Evaluation:
 
 
 def evaluate(sheet, column_inputs: Mapping[str, np.ndarray] | None = None,
-             cell_inputs: Mapping[str, np.ndarray] | None = None) -> Evaluation:
+             cell_inputs: Mapping[str, np.ndarray] | None = None,
+             input_bounds: Mapping[str, tuple[float, float]] | None = None) -> Evaluation:
     """Evaluate every formula of a checked sheet.
 
     `column_inputs` / `cell_inputs` override the sheet's inputs (SI), with shapes (S, L) /
     (S,) or (S, 1); anything not given comes from the sheet. This is how scenarios and sweeps
-    evaluate many variants in one pass.
+    evaluate many variants in one pass. `input_bounds`: column name -> the exact (min, max)
+    of a column input, when the caller knows them (scenarios.apply_changes does).
     """
     columns: dict[str, np.ndarray] = {
         name: col.values[None, :] for name, col in sheet.input_columns.items()}
@@ -67,6 +72,9 @@ def evaluate(sheet, column_inputs: Mapping[str, np.ndarray] | None = None,
     scenario_count = max(sizes) if sizes else 1
     shared, last_use = shared_subexpressions(sheet)
     env = Environment(columns, cells, sheet.layer_count, shared)
+    bounds = Bounds(columns, cells, sheet.layer_count)
+    for name, (lowest, highest) in (input_bounds or {}).items():
+        bounds.record(True, name, lowest, highest)
     with np.errstate(all="ignore"):
         for number, formula in enumerate(sheet.formulas):
             value = env.run(formula.expr)
@@ -77,7 +85,13 @@ def evaluate(sheet, column_inputs: Mapping[str, np.ndarray] | None = None,
                 columns[formula.name] = value
             else:
                 cells[formula.name] = value.reshape(value.shape[0], 1)
-            _check_finite(formula, value, sheet)
+            is_column = formula.kind == COLUMN
+            proven = value.size >= FEWEST_VALUES and bounds.within_range(formula.expr,
+                                                                         value.size)
+            if proven:  # no scan: the values cannot be out of range
+                bounds.record(is_column, formula.name, *proven, exact=False)
+            else:
+                bounds.record(is_column, formula.name, *_check_finite(formula, value, sheet))
             for key in last_use.get(number, ()):  # no later formula computes it
                 env.kept.pop(key, None)
     return Evaluation(sheet, columns, cells, scenario_count)
@@ -204,11 +218,16 @@ def shared_subexpressions(sheet) -> tuple[dict, dict]:
     return shared, last_use
 
 
-def _check_finite(formula, value: np.ndarray, sheet) -> None:
+def _check_finite(formula, value: np.ndarray, sheet) -> tuple[float, float]:
+    """The values' (min, max) when they are finite and within +-LARGEST_VALUE (limits.py);
+    otherwise our error naming the first value that is not, its layer and variant."""
     # Two reductions first (no temporary array; NaN propagates through both): only values
-    # beyond +-LARGEST_VALUE (limits.py), inf or NaN need the full look.
-    if value.size == 0 or (-LARGEST_VALUE <= np.min(value) and np.max(value) <= LARGEST_VALUE):
-        return
+    # beyond +-LARGEST_VALUE, inf or NaN need the full look.
+    if value.size == 0:
+        return 0.0, 0.0
+    lowest, highest = np.min(value), np.max(value)
+    if -LARGEST_VALUE <= lowest and highest <= LARGEST_VALUE:
+        return lowest, highest
     scenario, index = (int(i[0]) for i in np.nonzero(~(np.abs(value) <= LARGEST_VALUE)))
     bad = value[scenario, index]
     if np.isinf(bad):

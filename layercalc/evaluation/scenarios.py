@@ -28,9 +28,13 @@ def sheet_for_options(checked_sheet, options: dict[str, str]):
 
 
 def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
-                  cell_values: dict[str, np.ndarray] | None = None):
+                  cell_values: dict[str, np.ndarray] | None = None,
+                  bounds: dict | None = None):
     """Input arrays (SI) after applying the scenarios' changes; cells from `cell_values`
-    (arrays of shape (S,)) vary across a leading scenario axis."""
+    (arrays of shape (S,)) vary across a leading scenario axis. `bounds`, when given, gets
+    the exact (min, max) of each changed column where the changes' own checks found them
+    (for engine.evaluate's input_bounds)."""
+    bounds = {} if bounds is None else bounds
     columns = {n: c.values[None, :] for n, c in checked_sheet.input_columns.items()}
     cells = {n: np.array([[c.value]]) for n, c in checked_sheet.input_cells.items()}
     for sc in scenarios:
@@ -50,8 +54,12 @@ def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
                 if ch.condition is None:  # a range of layers: change only those
                     layers = np.flatnonzero(selection_mask(checked_sheet, ch))
                     columns[ch.target] = _changed_layers(current, layers, amount, ch.action)
-                    if not _layers_physical(checked_sheet, ch, columns[ch.target], layers):
+                    found = _layers_physical(checked_sheet, ch, columns[ch.target], layers)
+                    if found is None:
+                        bounds.pop(ch.target, None)
                         _still_physical(checked_sheet, sc, ch, columns[ch.target])
+                    else:
+                        _record_bounds(bounds, ch.target, current, layers, found)
                     continue
                 mask = np.asarray(env.run(ch.condition), dtype=bool)
                 if ch.action == "add":
@@ -61,6 +69,7 @@ def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
                 else:
                     new = np.where(mask, amount, current)
                 columns[ch.target] = np.asarray(new, dtype=float)
+                bounds.pop(ch.target, None)
                 _still_physical(checked_sheet, sc, ch, columns[ch.target])
     return columns, cells
 
@@ -87,18 +96,36 @@ def _changed_layers(current, layers, amount, action: str) -> np.ndarray:
     return new
 
 
-def _layers_physical(checked_sheet, ch: CheckedChange, values, layers) -> bool:
-    """True when the changed layers stay finite (and above absolute zero for a
-    temperature): one min and max per changed layer. Only changed layers can have become
-    unphysical; _still_physical finds and words the problem otherwise."""
+def _layers_physical(checked_sheet, ch: CheckedChange, values, layers):
+    """The (min, max) of the changed layers when they stay finite (and above absolute zero
+    for a temperature), else None: one min and max per changed layer. Only changed layers
+    can have become unphysical; _still_physical finds and words the problem otherwise."""
     unit = checked_sheet.input_columns[ch.target].unit
     is_temperature = U.same_dimension(unit.dimension, U.lookup("K").dimension)
+    found = (np.inf, -np.inf)
     for j in layers.tolist():
         lowest, highest = np.min(values[:, j]), np.max(values[:, j])
         if not (np.isfinite(lowest) and np.isfinite(highest)) or (
                 is_temperature and lowest <= 0.0):
-            return False
-    return True
+            return None
+        found = (min(found[0], float(lowest)), max(found[1], float(highest)))
+    return found
+
+
+def _record_bounds(bounds: dict, target: str, before, layers, changed) -> None:
+    """The exact (min, max) of a column after a change of some layers: those of the changed
+    layers and of the others as they were (when the values before are one row); nothing
+    otherwise (a column changed twice is scanned by the evaluator)."""
+    others = np.ones(before.shape[-1], dtype=bool)
+    others[layers] = False
+    if not others.any():
+        bounds[target] = changed
+    elif before.shape[0] == 1:
+        kept = before[0, others]
+        bounds[target] = (min(changed[0], float(np.min(kept))),
+                          max(changed[1], float(np.max(kept))))
+    else:
+        bounds.pop(target, None)
 
 
 def _still_physical(checked_sheet, sc: CheckedScenario, ch: CheckedChange, values) -> None:
@@ -157,5 +184,6 @@ def sweep_evaluation(checked_sheet, cell_values: dict[str, np.ndarray],
     for sc in scenarios:
         options.update(sc.options)
     compiled = sheet_for_options(checked_sheet, options)
-    columns, cells = apply_changes(checked_sheet, scenarios, cell_values)
-    return evaluate(compiled, columns, cells)
+    bounds: dict = {}
+    columns, cells = apply_changes(checked_sheet, scenarios, cell_values, bounds)
+    return evaluate(compiled, columns, cells, bounds)
