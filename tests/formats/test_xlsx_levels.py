@@ -1,11 +1,14 @@
 """The levels sheet of a workbook built from a top-level levels table
-(formats/xlsx/levels.py): layer means live, the table read back on import. The numbers are
+(formats/xlsx/levels.py): layer means live (gaps filled and the layer across
+surface_pressure cut by formulas), the hydrostatic sheet (formats/xlsx/hydrostatic.py), the
+table read back on import. The numbers are
 checked by LibreOffice in test_libreoffice.py
 (test_a_level_edited_in_the_workbook_moves_its_two_layers_and_the_results)."""
 
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from openpyxl import load_workbook
 
 import layercalc
@@ -41,17 +44,72 @@ def test_layer_means_are_formulas_of_the_levels(tmp_path):
     assert workbook["levels"]["B6"].value == 6  # 850 hPa T as typed
 
 
-def test_a_gap_in_the_levels_keeps_the_layer_means_as_inputs(tmp_path):
-    text = LEVELS.replace("  700    -4.0  -12.0", "  700    -    -12.0")
+# a gap in Td at 850 hPa and a surface_pressure that cuts the 1000-850 hPa layer (made up)
+GAP_AND_CUT = """title "Gap and cut"
+cell surface_height = 300 m
+cell surface_pressure = 970 hPa
+cell hydrostatic_tolerance = 15 m
+levels
+  p [hPa]  T [degC]  Td [degC]  z [m]  div [1e-5 s^-1]
+  1000   14.0    9.0    60   -1.2
+  850     6.0    -    1510   -0.6
+  700    -4.0  -12.0   3100    0.1
+  500   -20.0  -30.0   5650    0.8
+  300   -44.0  -55.0   9300    0.5
+end
+"""
+
+
+def test_a_gap_is_filled_by_a_formula_and_a_typed_value_replaces_it(tmp_path):
     path = tmp_path / "gap.xlsx"
-    write_workbook(layercalc.loads(text, name="gap.layers"), path)
+    write_workbook(layercalc.loads(GAP_AND_CUT, name="gap.layers"), path)
     workbook = load_workbook(path)
-    assert "levels" not in workbook.sheetnames
-    assert isinstance(workbook["layers"]["C3"].value, float)
+    assert "levels" in workbook.sheetnames and workbook["levels"]["C6"].value is None
+    td_upper = workbook["layers"]["D3"].value  # layer 850-700: Td at 850 is the gap
+    assert td_upper.startswith("=((IF(ISNUMBER('levels'!C6),") and "LN(" in td_upper
 
 
-def test_export_import_export_keeps_the_levels(tmp_path):
-    sheet = layercalc.loads(LEVELS, name="levels.layers")
+def test_the_layer_across_surface_pressure_is_cut_by_formulas(tmp_path):
+    path = tmp_path / "cut.xlsx"
+    write_workbook(layercalc.loads(GAP_AND_CUT, name="cut.layers"), path)
+    workbook = load_workbook(path)
+    levels, layers = workbook["levels"], workbook["layers"]
+    link = [c for row in levels.iter_rows() for c in row
+            if isinstance(c.value, str) and c.value.startswith("=INDEX('settings'")]
+    assert len(link) == 1
+    assert layers["A2"].value == f"=('levels'!${link[0].column_letter}${link[0].row}*100)/100"
+    assert layers["B2"].value == "=('levels'!A6*100)/100"  # the 850 hPa level
+    assert layers.max_row >= 5 and layers["A5"].value == "=('levels'!A8*100)/100"
+
+
+def test_the_hydrostatic_sheet_holds_one_live_table_per_checked_sounding(tmp_path):
+    from layercalc.formats.xlsx.hydrostatic import table_rows
+
+    path = tmp_path / "levels.xlsx"
+    write_workbook(layercalc.loads(LEVELS, name="levels.layers"), path)
+    ws = load_workbook(path)["hydrostatic"]
+    rows = table_rows(ws, "the levels table")
+    assert len(rows) == 4  # five levels, four layers
+    assert all(ws.cell(r, j).data_type == "f" for r in rows for j in range(1, 11))
+    assert ws.cell(rows[0], 9).value.startswith("=IF(ISNUMBER(H")
+    assert ws["B5"].value == 10  # the default tolerance, HYDROSTATIC_TOLERANCE_M
+
+
+def test_station_soundings_get_their_hydrostatic_tables(tmp_path):
+    from layercalc.formats.xlsx.hydrostatic import table_rows
+    from tests.formats.test_xlsx_export import case_sheet
+
+    sheet = case_sheet("three_stations")
+    path = tmp_path / "stations.xlsx"
+    write_workbook(sheet, path)
+    ws = load_workbook(path)["hydrostatic"]
+    for table in sheet.checked.soundings.hydrostatic:
+        assert len(table_rows(ws, table.sounding)) == table.p_bottom.size
+
+
+@pytest.mark.parametrize("text", [LEVELS, GAP_AND_CUT], ids=["levels", "gap_and_cut"])
+def test_export_import_export_keeps_the_levels(tmp_path, text):
+    sheet = layercalc.loads(text, name="levels.layers")
     first, second = tmp_path / "first.xlsx", tmp_path / "second.xlsx"
     write_workbook(sheet, first)
     again = import_workbook(first, layercalc.loads).sheet
@@ -61,9 +119,27 @@ def test_export_import_export_keeps_the_levels(tmp_path):
                           sheet.checked.soundings.column_levels["pressure"])
     write_workbook(again, second)
     a, b = sheet_contents(first), sheet_contents(second)
-    assert a.keys() == b.keys() and "levels" in a
+    assert a.keys() == b.keys() and {"levels", "hydrostatic"} <= a.keys()
     for name in a:
+        if name in ("settings", "results", "values") and "hydrostatic_tolerance" in text:
+            continue  # the cell comes back after the table: same cells, another order
         if name == "settings":  # the note column says "default" before the round trip
             a[name] = [row[:3] for row in a[name]]
             b[name] = [row[:3] for row in b[name]]
         assert a[name] == b[name], name
+
+
+def test_a_level_added_in_the_workbook_is_warned_about_on_import(tmp_path):
+    path = tmp_path / "levels.xlsx"
+    write_workbook(layercalc.loads(LEVELS, name="levels.layers"), path)
+    workbook = load_workbook(path)
+    ws = workbook["levels"]
+    assert ws["A10"].value is None  # five levels in rows 5-9
+    for column, value in zip("ABCDEFG", (200, -52.0, -62.0, 11800, 270, 80, 0.2)):
+        ws[f"{column}10"] = value
+    workbook.save(path)
+    imported = import_workbook(path, layercalc.loads)
+    messages = [n.message for n in imported.notices]
+    assert any("the levels table has 6 levels but this workbook's own formulas cover the 5"
+               in m for m in messages), messages
+    assert imported.sheet.checked.layer_count == 5  # layercalc uses every level

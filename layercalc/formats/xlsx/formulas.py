@@ -116,25 +116,6 @@ def number_format(values) -> str:
     return "0" if decimals == 0 else "0." + "0" * decimals
 
 
-def input_format(values) -> str:
-    """How inputs show: with the decimals their typed values need, at most those of
-    number_format (about four significant digits) and at least 3, so that a typed 5.15
-    shows as typed and a computed mean 11.31666... as 11.317 (display only)."""
-    needed = 0
-    for value in np.ravel(values):
-        if np.isfinite(value):
-            text = repr(float(value))
-            if "e" in text:
-                needed = 16
-                break
-            needed = max(needed, len(text.partition(".")[2].rstrip("0")))
-    largest = max((abs(float(v)) for v in np.ravel(values) if np.isfinite(v)), default=0.0)
-    if 0.0 < largest < 1e-3:
-        return "0.000E+00"
-    decimals = min(needed, max(3, number_format(values).count("0") - 1))
-    return "0" if decimals == 0 else "0." + "0" * decimals
-
-
 def to_si(reference: str, unit) -> str:
     """Formula text reading `reference` (in `unit`, or SI when unit is None) as SI."""
     if unit is None:
@@ -322,7 +303,7 @@ def _below(t: Translator, args, row) -> str:
 
 
 # Physics, mirroring layercalc/physics term by term (SI in, SI out; references there).
-def _saturation_vapour_pressure(temperature: str) -> str:
+def saturation_vapour_pressure_text(temperature: str) -> str:
     """Bolton (1980) eq. 10: 611.2 Pa exp(17.67 t / (t + 243.5)), t = T - 273.15."""
     celsius = f"({temperature}-{number_text(C.T_ZERO_CELSIUS)})"
     return (f"({number_text(C.BOLTON_SATURATION_VAPOUR_PRESSURE_AT_0C)}*EXP("
@@ -330,7 +311,7 @@ def _saturation_vapour_pressure(temperature: str) -> str:
             f"{number_text(C.BOLTON_TEMPERATURE_OFFSET)})))")
 
 
-def _mixing_ratio(vapour_pressure: str, pressure: str) -> str:
+def mixing_ratio_text(vapour_pressure: str, pressure: str) -> str:
     """r = epsilon e / (p - e)."""
     return f"({number_text(C.EPSILON)}*{vapour_pressure}/({pressure}-{vapour_pressure}))"
 
@@ -340,13 +321,13 @@ def _vapour_pressure_from_mixing_ratio(mixing_ratio: str, pressure: str) -> str:
     return f"({mixing_ratio}*{pressure}/({number_text(C.EPSILON)}+{mixing_ratio}))"
 
 
-def _virtual_temperature(temperature: str, mixing_ratio: str) -> str:
+def virtual_temperature_text(temperature: str, mixing_ratio: str) -> str:
     """Tv = T (r + epsilon) / (epsilon (1 + r))."""
     epsilon = number_text(C.EPSILON)
     return (f"({temperature}*({mixing_ratio}+{epsilon})/({epsilon}*(1+{mixing_ratio})))")
 
 
-def _hypsometric_thickness(virtual_temperature: str, bottom: str, top: str) -> str:
+def hypsometric_thickness_text(virtual_temperature: str, bottom: str, top: str) -> str:
     """dz = Rd Tv / g0 ln(p_bottom / p_top)."""
     return (f"({number_text(C.RD)}*{virtual_temperature}/{number_text(C.G0)}"
             f"*LN({bottom}/{top}))")
@@ -378,13 +359,13 @@ CALLS: dict[tuple[str, str], Callable] = {
     ("downward_sum", SCAN): _running(upward=False),
     ("above", SCAN): _above,
     ("below", SCAN): _below,
-    ("saturation_vapour_pressure", ELEMENTWISE): _elementwise(_saturation_vapour_pressure),
-    ("vapour_pressure", ELEMENTWISE): _elementwise(_saturation_vapour_pressure),
-    ("mixing_ratio", ELEMENTWISE): _elementwise(_mixing_ratio),
+    ("saturation_vapour_pressure", ELEMENTWISE): _elementwise(saturation_vapour_pressure_text),
+    ("vapour_pressure", ELEMENTWISE): _elementwise(saturation_vapour_pressure_text),
+    ("mixing_ratio", ELEMENTWISE): _elementwise(mixing_ratio_text),
     ("vapour_pressure_from_mixing_ratio", ELEMENTWISE):
         _elementwise(_vapour_pressure_from_mixing_ratio),
-    ("virtual_temperature", ELEMENTWISE): _elementwise(_virtual_temperature),
-    ("hypsometric_thickness", ELEMENTWISE): _elementwise(_hypsometric_thickness),
+    ("virtual_temperature", ELEMENTWISE): _elementwise(virtual_temperature_text),
+    ("hypsometric_thickness", ELEMENTWISE): _elementwise(hypsometric_thickness_text),
     ("vertical_velocity", ELEMENTWISE): _elementwise(_vertical_velocity),
 }
 

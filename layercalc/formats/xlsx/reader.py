@@ -361,7 +361,7 @@ class _TextBuilder:
                         "taken, never evaluated", sheet, cell)
         layers = len(table) - 3  # the lines `layers`, header, ..., `end`
         exported = self.raw.exported_layers
-        if stations is None and exported is not None and layers != exported:
+        if table[0][0][0] == "layers" and exported is not None and layers != exported:
             self.notice(f"the table has {layers} layers but this workbook's own formulas "
                         f"(the results sheets) cover the {exported} it was exported with: "
                         f"the sheets and layercalc now give two answers; layercalc computes "

@@ -1,0 +1,177 @@
+"""The `hydrostatic` sheet: the hydrostatic check of every sounding the workbook holds live
+(the `levels` sheet's table, each station table on `stations`), as live formulas of the
+levels as typed.
+
+Per layer between consecutive levels, SURFACE FIRST, as soundings.levels.hydrostatic_check
+computes it: Tv at each level from T and the humidity at that level (Td, else RH, else r;
+a level without one counts as dry, Tv = T), the layer's Tv the mean of its two levels'
+(Tv linear in ln p), the observed thickness z_top - z_bottom as typed, the hypsometric
+thickness Rd Tv / g0 ln(p_bottom / p_top), their difference, the flag (FLAG when
+|difference| exceeds the tolerance, the same as layercalc's) and the implied Tv
+g0 dz / (Rd ln(p_bottom / p_top)). A layer with T or z blank at one of its levels shows
+"-" and "not checked"; layercalc's report checks across such a gap and names the likely
+cause of each flag, which this sheet does not (they are words, not numbers).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from layercalc import constants as C
+from layercalc.formats.xlsx.cells import letter, put_text, red_when, size_columns, style
+from layercalc.formats.xlsx.formulas import (
+    from_si, hypsometric_thickness_text, mixing_ratio_text, number_text,
+    saturation_vapour_pressure_text, to_si, virtual_temperature_text,
+)
+
+SHEET = "hydrostatic"
+TOLERANCE_ROW = 5
+MARK = "hydrostatic check"
+TITLES = ("p_bottom [hPa]", "p_top [hPa]", "Tv bottom [degC]", "Tv top [degC]",
+          "Tv mean [degC]", "observed thickness [m]", "hypsometric thickness [m]",
+          "difference [m]", "flag", "implied Tv [degC]")
+FORMATS = ("0", "0", "0.00", "0.00", "0.00", "0.0", "0.0", "0.0", "@", "0.00")
+NOT_CHECKED = "not checked"
+
+
+@dataclass(frozen=True)
+class Placed:
+    """Where one sounding's levels sit: sheet, first data row (surface first), the column
+    letter and unit of each heading, and the number of levels."""
+
+    name: str          # as layercalc names it: "the levels table", 'station "A"'
+    sheet: str
+    first_row: int
+    places: dict       # heading name -> (column letter, unit)
+    levels: int
+
+    def ref(self, name: str, level: int) -> str:
+        return f"'{self.sheet}'!{self.places[name][0]}{self.first_row + level}"
+
+    def si(self, name: str, level: int) -> str:
+        return to_si(self.ref(name, level), self.places[name][1])
+
+
+def level_virtual_temperature(s: Placed, level: int) -> str:
+    """Tv [K] at a level as formula text, as soundings.levels computes it: from Td, else
+    RH, else r at that level; dry (Tv = T) where that value is blank or none is given."""
+    temperature, pressure = s.si("T", level), s.si("p", level)
+    for name in ("Td", "RH", "r"):
+        if name not in s.places:
+            continue
+        if name == "Td":
+            vapour = saturation_vapour_pressure_text(s.si("Td", level))
+        elif name == "RH":
+            vapour = f"({s.si('RH', level)}*{saturation_vapour_pressure_text(temperature)})"
+        ratio = s.si("r", level) if name == "r" else mixing_ratio_text(vapour, pressure)
+        moist = virtual_temperature_text(temperature, ratio)
+        return f"IF(ISNUMBER({s.ref(name, level)}),{moist},{temperature})"
+    return temperature
+
+
+def placed_soundings(workbook, checked, levels: Placed | None) -> list[Placed]:
+    """The soundings whose check the workbook can hold live, those with T and z: the
+    levels sheet's table (`levels`, from levels.live_inputs) and each station table of a
+    live stations sheet (found by its mark row `station | name`, as the reader finds it:
+    the header below it, then the levels surface first)."""
+    from layercalc.formats.xlsx.stations import FIT_MARK, STATION_MARK, heading_units
+    from layercalc.language.nodes import Station
+
+    statements = checked.document.statements
+    found = [levels] if levels is not None else []
+    if "stations" in workbook.sheetnames:
+        ws = workbook["stations"]
+        stations = {s.name: s for s in statements if isinstance(s, Station)}
+        for row in range(1, ws.max_row + 1):
+            mark = ws.cell(row, 1).value
+            if mark == FIT_MARK:
+                break
+            station = stations.get(ws.cell(row, 2).value) if mark == STATION_MARK else None
+            if station is None:
+                continue
+            units = heading_units(station.table)
+            places = {h.name: (letter(j), units[h.name])
+                      for j, h in enumerate(station.table.headings, start=1)}
+            found.append(Placed(f'station "{station.name}"', ws.title, row + 2, places,
+                                len(station.table.rows)))
+    return [s for s in found if "T" in s.places and "z" in s.places]
+
+
+def hydrostatic_sheet(workbook, soundings: list[Placed], tolerance: float) -> None:
+    """Add the sheet with one live table per sounding (nothing when the list is empty)."""
+    if not soundings:
+        return
+    ws = workbook.create_sheet(SHEET)
+    notes = ("Hydrostatic check of the reported heights, live: each layer's thickness from "
+             "the heights as typed against the hypsometric thickness from the temperatures "
+             "(virtual temperature, linear in ln p). Edit a level's T, Td or z on '"
+             + soundings[0].sheet + "' and this table follows.",
+             "FLAG: |observed - hypsometric| exceeds the tolerance below. Layers SURFACE "
+             "FIRST. A layer with T or z blank at one of its levels is not checked here; "
+             "layercalc's report checks across such a gap and names the likely cause of "
+             "each flag (a mistyped height or temperature).",
+             "The check is for the reported sounding; the layers and results do not use the "
+             "heights (they start at surface_height).")
+    for row, text in enumerate(notes, start=1):
+        put_text(ws.cell(row, 1), text)
+        style(ws.cell(row, 1), "note")
+    put_text(ws.cell(TOLERANCE_ROW, 1), "tolerance [m]")
+    style(ws.cell(TOLERANCE_ROW, 1), "name")
+    ws.cell(TOLERANCE_ROW, 2, float(tolerance))
+    put_text(ws.cell(TOLERANCE_ROW, 3), "per layer, as layercalc's (cell hydrostatic_tolerance "
+             "in the .layers file, 10 m if not given); change it here to try another")
+    style(ws.cell(TOLERANCE_ROW, 3), "note")
+    row = TOLERANCE_ROW + 2
+    for sounding in soundings:
+        row = _table(ws, sounding, row) + 2
+    size_columns(ws, {j: 13 for j in range(1, len(TITLES) + 1)})
+
+
+def table_rows(ws, name: str) -> list[int]:
+    """The sheet rows of one sounding's layers (for tests and readers of the sheet)."""
+    marks = [c.row for c in ws["A"] if c.value == f"{MARK} of {name}"]
+    rows, row = [], marks[0] + 2
+    while ws.cell(row, 1).value is not None:
+        rows.append(row)
+        row += 1
+    return rows
+
+
+def _table(ws, s: Placed, row: int) -> int:
+    """Write one sounding's table from `row`; returns its last row."""
+    from layercalc.language.unit_text import parse_unit_string
+
+    hpa, celsius = parse_unit_string("hPa"), parse_unit_string("degC")
+    put_text(ws.cell(row, 1), f"{MARK} of {s.name}")
+    style(ws.cell(row, 1), "group")
+    header = row + 1
+    for j, title in enumerate(TITLES, start=1):
+        put_text(ws.cell(header, j), title)
+        style(ws.cell(header, j), "header")
+    tolerance = f"$B${TOLERANCE_ROW}"
+    rd, g0 = number_text(C.RD), number_text(C.G0)
+    first = header + 1
+    for k in range(s.levels - 1):
+        r = first + k
+        bottom, top = s.si("p", k), s.si("p", k + 1)
+        log_ratio = f"LN({bottom}/{top})"
+        cells = [
+            "=" + from_si(bottom, hpa),
+            "=" + from_si(top, hpa),
+            *(f'=IF(ISNUMBER({s.ref("T", i)}),'
+              f'{from_si(level_virtual_temperature(s, i), celsius)},"-")' for i in (k, k + 1)),
+            f'=IF(COUNT(C{r}:D{r})=2,(C{r}+D{r})/2,"-")',
+            f'=IF(COUNT({s.ref("z", k)},{s.ref("z", k + 1)})=2,'
+            f'{s.si("z", k + 1)}-{s.si("z", k)},"-")',
+            f'=IF(ISNUMBER(E{r}),{hypsometric_thickness_text(to_si(f"E{r}", celsius), bottom, top)},"-")',
+            f'=IF(COUNT(F{r}:G{r})=2,F{r}-G{r},"-")',
+            f'=IF(ISNUMBER(H{r}),IF(ABS(H{r})>{tolerance},"FLAG","ok"),"{NOT_CHECKED}")',
+            f'=IF(ISNUMBER(F{r}),{from_si(f"({g0}*F{r}/({rd}*{log_ratio}))", celsius)},"-")',
+        ]
+        for j, (text, form) in enumerate(zip(cells, FORMATS), start=1):
+            cell = ws.cell(r, j, text)
+            cell.number_format = form
+    last = first + s.levels - 2
+    flags = f"I{first}:I{last}"
+    red_when(ws, flags, f'$I{first}="FLAG"')
+    return last
