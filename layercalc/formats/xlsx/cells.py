@@ -37,7 +37,8 @@ def style(cell, name: str) -> None:
     if not _STYLES:
         _STYLES.update({
             "title": {"font": Font(bold=True, size=14)},
-            "caution": {"font": Font(italic=True, bold=True, color="9C0006")},
+            "caution": {"font": Font(italic=True, bold=True, color="9C0006"),
+                        "alignment": Alignment(shrink_to_fit=True)},  # never cut off
             "note": {"font": Font(italic=True, color="555555")},
             "group": {"font": Font(italic=True, bold=True, color="1F4E78")},
             "header": {"font": Font(bold=True), "fill": fill("DDEBF7"),

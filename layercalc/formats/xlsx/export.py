@@ -37,7 +37,7 @@ import numpy as np
 from layercalc.errors import OutputError
 from layercalc.language.typed import CELL, references
 from layercalc.formats.xlsx.cells import letter, put_text, red_when, size_columns, style
-from layercalc.formats.xlsx.formulas import display_input
+from layercalc.formats.xlsx.formulas import display_input, input_format
 from layercalc.formats.xlsx.layout import HEADER_ROW, Grid, Links, ResultsLayout, Variant
 from layercalc.formats.xlsx.scenarios import compare_grid, scenario_steps
 
@@ -132,7 +132,6 @@ def build_workbook(sheet) -> "Built":
     page_setup(workbook["notes"], CAUTION)
     if "uncertainty" in workbook.sheetnames:
         page_setup(workbook["uncertainty"], CAUTION)
-    wrap_columns(workbook["notes"], {1: 22, 2: 100, 4: 40}, workbook["notes"].max_row)
     from openpyxl.workbook.defined_name import DefinedName
 
     from layercalc.formats.xlsx.summary_cells import CHECK_NAME
@@ -173,12 +172,11 @@ def _layers_sheet(ws, checked, columns_si, live=None) -> dict[str, str]:
         letters[name] = letter(j)
         put_text(ws.cell(1, j), f"{name} [{column.unit.text}]")
         style(ws.cell(1, j), "header")
-        for k, si in enumerate(columns_si[name]):
+        shown = [display_input(column.unit, float(si)) for si in columns_si[name]]
+        fmt = input_format(shown)  # display only: values and formulas are stored in full
+        for k, value in enumerate(shown):
             formula = live and live(name, k, column.unit)
-            if formula:
-                ws.cell(2 + k, j, formula)
-                continue
-            ws.cell(2 + k, j, display_input(column.unit, float(si)))
+            ws.cell(2 + k, j, formula or value).number_format = fmt
     lines = ("One row per layer, SURFACE LAYER FIRST (row 2 is the lowest layer).", None,
              "Header: name [unit]. Edit the values here and the results sheets recalculate.",
              "The table ends at the first blank header cell.",
@@ -241,6 +239,7 @@ def _settings_sheet(ws, checked, cells_si) -> dict[str, int]:
                 put_text(target, value)
             else:
                 target.value = value
+                target.number_format = input_format([value])
             style(target, "header" if i == 1 else ("note" if j == 4 else "value"))
     size_columns(ws, {1: 18, 2: 40, 3: 12, 4: 70})
     ws.freeze_panes = "A2"
@@ -414,11 +413,13 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
     printed = max(grid.print_columns or last_column, 8)
     scale = printing.print_scale([min(widths.get(j, 8) + 2, 48) for j in range(1, printed + 1)])
     if grid.chart is not None:
-        _chart(live_ws, grid.chart, grid.chart_row, scale)
+        printing.charts(live_ws, grid.chart, grid.chart_row, scale)
         printing.chart_page(live_ws, grid.chart_row)
         end = grid.chart_row + printing.chart_rows(scale)
     area = f"A1:{letter(printed)}{end}"
     printing.page_setup(live_ws, CAUTION, f"{HEADER_ROW}:{HEADER_ROW}", area)
+    for ws in (live_ws, values_ws):  # the caution over the printed columns, shrunk to
+        ws.merge_cells(start_row=2, start_column=1, end_row=2, end_column=printed)  # fit
     values_ws.sheet_state = "hidden"  # the live sheet carries the same numbers, cached
     if grid.row_check is not None:
         from layercalc.formats.xlsx.summary_cells import table_check
@@ -433,56 +434,6 @@ def _shown_width(value, entry) -> int:
     if isinstance(value, str):
         return min(len(value), 60 if entry.style == "note" else 40)
     return 10
-
-
-# Series look: (line and marker colour, marker symbol); distinct in colour and shape
-SERIES_LOOK = (("1F4E9A", "circle"), ("C55A11", "triangle"), ("7030A0", "diamond"))
-
-
-def _chart(ws, spec, chart_row: int, scale: float) -> None:
-    """Two scatter charts side by side on their own page: omega against pressure and the
-    divergence (and the adjusted divergence) against pressure, each with its own axis;
-    pressure on a logarithmic axis, reversed (pressure falls upward)."""
-    from openpyxl.chart import Reference, ScatterChart, Series
-
-    from layercalc.formats.xlsx.printing import CHART_HEIGHT_CM, CHART_WIDTH_CM, column_after
-
-    panels = [("omega against pressure", "omega [hPa/h]", spec.series[:1]),
-              ("divergence against pressure", "divergence [1e-5 s^-1]", spec.series[1:])]
-    column = 1
-    for number, (title, x_title, series_list) in enumerate(panels):
-        chart = ScatterChart()
-        chart.title = title
-        chart.style = 13
-        chart.x_axis.title = x_title
-        chart.y_axis.title = spec.y_title
-        chart.y_axis.scaling.orientation = "maxMin"  # pressure decreases upward
-        chart.y_axis.scaling.logBase = 10
-        chart.y_axis.scaling.min, chart.y_axis.scaling.max = spec.y_range
-        chart.x_axis.crosses = "max"  # the x axis at the highest pressure: the bottom
-        chart.y_axis.crosses = "min"  # the pressure axis at the left edge, not at x = 0
-        chart.x_axis.delete = False
-        chart.y_axis.delete = False
-        chart.legend.position = "b"
-        for i, (label, x_column, y_column, first, last) in enumerate(series_list):
-            colour, symbol = SERIES_LOOK[(number + i) % len(SERIES_LOOK)]
-            xs = Reference(ws, min_col=x_column, min_row=first, max_row=last)
-            ys = Reference(ws, min_col=y_column, min_row=first, max_row=last)
-            series = Series(ys, xs, title=label)
-            series.marker.symbol = symbol
-            series.smooth = False  # straight lines between the layers, no spline
-            series.marker.size = 7
-            series.marker.graphicalProperties.solidFill = colour
-            series.marker.graphicalProperties.line.solidFill = colour
-            series.graphicalProperties.line.solidFill = colour
-            series.graphicalProperties.line.width = 22000  # EMU, about 1.7 pt
-            if i:
-                series.graphicalProperties.line.dashStyle = "dash"
-            chart.series.append(series)
-        # drawn larger by the factor fit-to-width printing shrinks the sheet by
-        chart.height, chart.width = CHART_HEIGHT_CM / scale, CHART_WIDTH_CM / scale
-        ws.add_chart(chart, f"{letter(column)}{chart_row}")
-        column = column_after(ws, column, (CHART_WIDTH_CM + 0.5) / scale)
 
 
 # ---------------------------------------------------------------- atomic write

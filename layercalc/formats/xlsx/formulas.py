@@ -116,6 +116,25 @@ def number_format(values) -> str:
     return "0" if decimals == 0 else "0." + "0" * decimals
 
 
+def input_format(values) -> str:
+    """How inputs show: with the decimals their typed values need, at most those of
+    number_format (about four significant digits) and at least 3, so that a typed 5.15
+    shows as typed and a computed mean 11.31666... as 11.317 (display only)."""
+    needed = 0
+    for value in np.ravel(values):
+        if np.isfinite(value):
+            text = repr(float(value))
+            if "e" in text:
+                needed = 16
+                break
+            needed = max(needed, len(text.partition(".")[2].rstrip("0")))
+    largest = max((abs(float(v)) for v in np.ravel(values) if np.isfinite(v)), default=0.0)
+    if 0.0 < largest < 1e-3:
+        return "0.000E+00"
+    decimals = min(needed, max(3, number_format(values).count("0") - 1))
+    return "0" if decimals == 0 else "0." + "0" * decimals
+
+
 def to_si(reference: str, unit) -> str:
     """Formula text reading `reference` (in `unit`, or SI when unit is None) as SI."""
     if unit is None:

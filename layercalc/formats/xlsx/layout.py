@@ -26,7 +26,8 @@ from layercalc.language import units as U
 from layercalc.language.typed import CELL, COLUMN
 from layercalc.formats.xlsx.formulas import (
     stepped,
-    MAX_FORMULA_LENGTH, Translator, display_input, from_si, number_format, to_si,
+    MAX_FORMULA_LENGTH, Translator, display_input, from_si, input_format, number_format,
+    to_si,
     untranslatable,
 )
 
@@ -203,9 +204,12 @@ class ResultsLayout:
             grid.put(HEADER_ROW, j, Entry(f"{name} [{unit.text}]", style="header"))
             si = self.variant.columns[name]
             base = links.columns_si.get(name)
-            for k in range(self.layers):
-                value = display_input(unit, float(si[k]))
-                grid.put(FIRST_ROW + k, j, self._input_entry(name, k, unit, value, base, si))
+            values = [display_input(unit, float(v)) for v in si[:self.layers]]
+            fmt = input_format(values)
+            for k, value in enumerate(values):
+                entry = self._input_entry(name, k, unit, value, base, si)
+                entry.number_format = fmt
+                grid.put(FIRST_ROW + k, j, entry)
 
     def _input_entry(self, name, k, unit, value, base, si) -> Entry:
         """A live link to `layers` when unchanged; the base link with the scenario's steps
@@ -267,6 +271,7 @@ class ResultsLayout:
             else:
                 entry = Entry(value, None, "changed")
                 note = f"input set by scenario {self.variant.name}"
+            entry.number_format = input_format([value])
             self._cell_row(row, name, entry, cell.unit.text, note)
         for formula in checked.formulas:
             if formula.kind != CELL:

@@ -96,13 +96,18 @@ def notes_rows(checked, variants, version: str, caution: str) -> list[tuple]:
 
 
 def notes_sheet(ws, checked, variants, version: str, caution: str) -> None:
-    from layercalc.formats.xlsx.cells import put_text, size_columns, style
+    from openpyxl.styles import Alignment
 
+    from layercalc.formats.xlsx.cells import put_text, size_columns, style
+    from layercalc.formats.xlsx.printing import wrap_columns
+
+    titles = []
     for i, row in enumerate(notes_rows(checked, variants, version, caution), start=1):
         label, *texts = row
         if label is None:
             put_text(ws.cell(i, 1), texts[0])
             style(ws.cell(i, 1), "title" if i == 1 else "group")
+            titles.append(i)
             continue
         put_text(ws.cell(i, 1), label)
         style(ws.cell(i, 1), "name")
@@ -110,3 +115,8 @@ def notes_sheet(ws, checked, variants, version: str, caution: str) -> None:
             put_text(ws.cell(i, j), text)
             style(ws.cell(i, j), "caution" if label == "caution" else "value")
     size_columns(ws, {1: 22, 2: 110, 3: 16, 4: 80})
+    wrap_columns(ws, {1: 22, 2: 100, 4: 40}, ws.max_row)
+    for i in titles:  # a title on one line across the sheet, not wrapped in column A
+        ws.merge_cells(start_row=i, start_column=1, end_row=i, end_column=4)
+        ws.cell(i, 1).alignment = Alignment(vertical="bottom")
+        ws.row_dimensions[i].height = 20.0 if i == 1 else 15.0

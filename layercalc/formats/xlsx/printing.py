@@ -39,7 +39,7 @@ def page_setup(ws, caution: str, title_rows: str | None = None, area: str | None
     ws.print_options.gridLines = False
     margins = ws.page_margins
     margins.left = margins.right = 0.4
-    margins.top = margins.bottom = 0.6
+    margins.top = margins.bottom = 0.5  # inches; the header and footer fit in 0.25
     margins.header = margins.footer = 0.25
     if title_rows:
         ws.print_title_rows = title_rows
@@ -148,3 +148,52 @@ def wrap_notes(ws, rows, last_column: int) -> None:
         ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_column)
         cell.alignment = Alignment(wrap_text=True, vertical="top")
         ws.row_dimensions[row].height = ROW_POINTS * wrapped_lines(text, width)
+
+
+# Series look: (line and marker colour, marker symbol); distinct in colour and shape
+SERIES_LOOK = (("1F4E9A", "circle"), ("C55A11", "triangle"), ("7030A0", "diamond"))
+
+
+def charts(ws, spec, chart_row: int, scale: float) -> None:
+    """Two scatter charts side by side on their own page: omega against pressure and the
+    divergence (and the adjusted divergence) against pressure, each with its own axis;
+    pressure on a logarithmic axis, reversed (pressure falls upward)."""
+    from openpyxl.chart import Reference, ScatterChart, Series
+    from openpyxl.utils import get_column_letter
+
+    panels = [("omega against pressure", "omega [hPa/h]", spec.series[:1]),
+              ("divergence against pressure", "divergence [1e-5 s^-1]", spec.series[1:])]
+    column = 1
+    for number, (title, x_title, series_list) in enumerate(panels):
+        chart = ScatterChart()
+        chart.title = title
+        chart.style = 13
+        chart.x_axis.title = x_title
+        chart.y_axis.title = spec.y_title
+        chart.y_axis.scaling.orientation = "maxMin"  # pressure decreases upward
+        chart.y_axis.scaling.logBase = 10
+        chart.y_axis.scaling.min, chart.y_axis.scaling.max = spec.y_range
+        chart.x_axis.crosses = "max"  # the x axis at the highest pressure: the bottom
+        chart.y_axis.crosses = "min"  # the pressure axis at the left edge, not at x = 0
+        chart.x_axis.delete = False
+        chart.y_axis.delete = False
+        chart.legend.position = "b"
+        for i, (label, x_column, y_column, first, last) in enumerate(series_list):
+            colour, symbol = SERIES_LOOK[(number + i) % len(SERIES_LOOK)]
+            xs = Reference(ws, min_col=x_column, min_row=first, max_row=last)
+            ys = Reference(ws, min_col=y_column, min_row=first, max_row=last)
+            series = Series(ys, xs, title=label)
+            series.marker.symbol = symbol
+            series.smooth = False  # straight lines between the layers, no spline
+            series.marker.size = 7
+            series.marker.graphicalProperties.solidFill = colour
+            series.marker.graphicalProperties.line.solidFill = colour
+            series.graphicalProperties.line.solidFill = colour
+            series.graphicalProperties.line.width = 22000  # EMU, about 1.7 pt
+            if i:
+                series.graphicalProperties.line.dashStyle = "dash"
+            chart.series.append(series)
+        # drawn larger by the factor fit-to-width printing shrinks the sheet by
+        chart.height, chart.width = CHART_HEIGHT_CM / scale, CHART_WIDTH_CM / scale
+        ws.add_chart(chart, f"{get_column_letter(column)}{chart_row}")
+        column = column_after(ws, column, (CHART_WIDTH_CM + 0.5) / scale)

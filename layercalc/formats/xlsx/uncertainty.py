@@ -25,8 +25,8 @@ from __future__ import annotations
 import math
 
 from layercalc.constants import KNOT
-from layercalc.formats.xlsx.cells import letter, put_text, size_columns, style
-from layercalc.formats.xlsx.formulas import number_text
+from layercalc.formats.xlsx.cells import letter, put_number, put_text, size_columns, style
+from layercalc.formats.xlsx.formulas import number_format, number_text
 
 SHEET = "uncertainty"
 PER_3H = 10800.0 / 100.0   # Pa/s -> hPa per 3 h
@@ -58,7 +58,16 @@ def uncertainty_sheet(workbook, sheet, links) -> None:
     row = _layer_table(ws, row + 1, checked, assessment, links)
     if network is not None:
         _triangle_table(ws, row + 1, checked, network, assessment, links)
-    size_columns(ws, {j: 16 for j in range(1, 12)})
+    from layercalc.formats.xlsx.printing import fit_rows, wrap_notes
+
+    last = max(ws.max_column, 4)
+    rows = range(1, ws.max_row + 1)
+    names = [len(ws.cell(r, 1).value) for r in rows
+             if isinstance(ws.cell(r, 1).value, str) and not ws.cell(r, 1).font.b
+             and not ws.cell(r, 1).font.i]  # the quantities, layers and stations
+    size_columns(ws, {j: 16 for j in range(1, last + 1)} | {1: min(max(names + [16]), 40)})
+    wrap_notes(ws, [r for r in rows if ws.cell(r, 1).font.i], last)  # the notes (italic)
+    fit_rows(ws, [r for r in rows if ws.cell(r, 1).font.b], last)  # the headers (bold)
 
 
 # How the error model is named in the note: cell -> (unit shown, factor from SI).
@@ -101,7 +110,7 @@ def _cells_block(ws, row, assessment) -> int:
                      "%"))
     for k, (name, value, unit) in enumerate(rows, start=1):
         put_text(ws.cell(row + k, 1), name)
-        ws.cell(row + k, 2, float(value))
+        put_number(ws.cell(row + k, 2), float(value), number_format([value]))
         style(ws.cell(row + k, 2), "static")
         put_text(ws.cell(row + k, 3), unit)
         put_text(ws.cell(row + k, 4), "value")
@@ -122,25 +131,30 @@ def _layer_table(ws, row, checked, assessment, links) -> int:
         headings += ["dp*div_error [hPa/h] live", "sigma omega_top [hPa/h] live"]
     _header(ws, row, headings)
     first = row + 1
+    # display only: shown to about four significant digits, stored in full
+    formats = {name: number_format(assessment.layers[name] * scale) for name, _, scale in shown}
+    omega_format = formats.get("omega_top", "0.000")
     bottom, top = checked.input_columns["p_bottom"].values, checked.input_columns["p_top"].values
     for k in range(layers):
         r = first + k
         put_text(ws.cell(r, 1), f"{bottom[k] / 100:g}-{top[k] / 100:g} hPa")
         for j, (name, _, scale) in enumerate(shown, start=2):
-            ws.cell(r, j, float(assessment.layers[name][k] * scale))
+            put_number(ws.cell(r, j), float(assessment.layers[name][k] * scale),
+                       formats[name])
             style(ws.cell(r, j), "static")
         if live is not None:
             term, total = letter(len(shown) + 2), letter(len(shown) + 3)
-            ws.cell(r, len(shown) + 2, live["term"](k))
+            put_number(ws.cell(r, len(shown) + 2), live["term"](k), omega_format)
             rows = live["rows"](k, first)
-            ws.cell(r, len(shown) + 3, f"=SQRT(SUMSQ({term}{rows[0]}:{term}{rows[1]}))"
-                    if rows else "=0")
+            put_number(ws.cell(r, len(shown) + 3),
+                       f"=SQRT(SUMSQ({term}{rows[0]}:{term}{rows[1]}))" if rows else "=0",
+                       omega_format)
     end = first + layers
     if live is not None and live["tendency"]:
         put_text(ws.cell(end, 1), "sigma surface_pressure_tendency [hPa/(3 h)] live")
         term = letter(len(shown) + 2)
-        ws.cell(end, len(shown) + 3,
-                f"=SQRT(SUMSQ({term}{first}:{term}{first + layers - 1}))*3")
+        put_number(ws.cell(end, len(shown) + 3),
+                   f"=SQRT(SUMSQ({term}{first}:{term}{first + layers - 1}))*3", omega_format)
         end += 1
     return end
 
@@ -187,8 +201,8 @@ def _triangle_table(ws, row, checked, network, assessment, links) -> int:
     _header(ws, row, ["station", "x [km] value", "y [km] value"])
     for k, station in enumerate(stations, start=1):
         put_text(ws.cell(row + k, 1), station.name)
-        ws.cell(row + k, 2, station.x / 1000.0)
-        ws.cell(row + k, 3, station.y / 1000.0)
+        put_number(ws.cell(row + k, 2), station.x / 1000.0, "0.0")
+        put_number(ws.cell(row + k, 3), station.y / 1000.0, "0.0")
         for j in (2, 3):
             style(ws.cell(row + k, j), "static")
     x = [f"$B${row + k}" for k in (1, 2, 3)]
@@ -206,13 +220,15 @@ def _triangle_table(ws, row, checked, network, assessment, links) -> int:
         growth = (f"settings!$B${links.cell_rows['wind_error_growth']}*"
                   f"{number_text(checked.input_cells['wind_error_growth'].unit.scale)}")
     lowest = network.pressure[0]
+    sigma_format = number_format(assessment.levels["divergence"] * 1e5)
     for k, pressure in enumerate(network.pressure, start=1):
         r = row + k
         ws.cell(r, 1, float(pressure / 100))
-        ws.cell(r, 2, f"={error}*{error_scale}+{growth}*({number_text(float(lowest))}"
-                      f"-A{r}*100)")
+        put_number(ws.cell(r, 2), f"={error}*{error_scale}+{growth}*("
+                   f"{number_text(float(lowest))}-A{r}*100)", "0.00")
         # km -> m: sqrt(sum L^2) / (2 A) in km^-1 is 1e-3 m^-1; times 1e5 for 1e-5 s^-1
-        ws.cell(r, 3, f"=B{r}*SQRT({sides})/(2*{area})*1E-3*1E5")
-        ws.cell(r, 4, float(assessment.levels["divergence"][k - 1] * 1e5))
+        put_number(ws.cell(r, 3), f"=B{r}*SQRT({sides})/(2*{area})*1E-3*1E5", sigma_format)
+        put_number(ws.cell(r, 4), float(assessment.levels["divergence"][k - 1] * 1e5),
+                   sigma_format)
         style(ws.cell(r, 4), "static")
     return row + len(network.pressure) + 1
