@@ -225,7 +225,7 @@ def _check_finite(formula, value: np.ndarray, sheet) -> tuple[float, float]:
     # beyond +-LARGEST_VALUE, inf or NaN need the full look.
     if value.size == 0:
         return 0.0, 0.0
-    lowest, highest = np.min(value), np.max(value)
+    lowest, highest = np.minimum.reduce(value, None), np.maximum.reduce(value, None)
     if -LARGEST_VALUE <= lowest and highest <= LARGEST_VALUE:
         return lowest, highest
     scenario, index = (int(i[0]) for i in np.nonzero(~(np.abs(value) <= LARGEST_VALUE)))

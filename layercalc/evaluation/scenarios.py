@@ -80,17 +80,20 @@ def _changed_layers(current, layers, amount, action: str) -> np.ndarray:
     The result has the layers on the outer axis in memory (Fortran order of (S, L)): each
     layer's variants are contiguous, so the change is one pass per changed layer and the
     evaluation after it runs over contiguous memory (a sweep has few layers and many
-    variants). Same values as adding 0 or scaling by 1 elsewhere."""
+    variants). Same values as adding 0 or scaling by 1 elsewhere. Each layer is written
+    once: a changed one with the changed values, the others copied."""
     count = max(current.shape[0], amount.shape[0])
     new = np.empty((count, current.shape[-1]), order="F")
-    new[...] = current
+    changed = layers.tolist()
+    for j in sorted(set(range(current.shape[-1])) - set(changed)):
+        new[:, j] = current[:, j]
     by_layer = amount.shape[-1] != 1
-    for j in layers.tolist():
+    for j in changed:
         value = amount[:, j] if by_layer else amount[:, 0]
         if action == "add":
-            new[:, j] += value
+            np.add(current[:, j], value, out=new[:, j])
         elif action == "scale":
-            new[:, j] *= value
+            np.multiply(current[:, j], value, out=new[:, j])
         else:
             new[:, j] = value
     return new
