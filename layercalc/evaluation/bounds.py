@@ -65,7 +65,7 @@ class Bounds:
 
     def of(self, node, size: int):
         """(lowest, highest, exact) of a typed expression's values, or None (unknown)."""
-        found = _RULES.get(type(node))(self, node, size)
+        found = _RULES.get(type(node), _none)(self, node, size)
         if found is None or not (math.isfinite(found[0]) and math.isfinite(found[1])):
             return None
         return found

@@ -155,3 +155,37 @@ def test_a_value_out_of_range_in_the_last_variant_reads_as_before(monkeypatch, c
     assert fast.value.format() == full.value.format()
     assert words in fast.value.format() and "scenario variant 30000" in fast.value.format()
     assert fast.value.layer == full.value.layer
+
+
+def _outcome(s, points, scenario):
+    try:
+        evaluation = s.evaluate_many(points, scenario=scenario)
+    except layercalc.LayercalcError as exc:
+        return exc.format()
+    return {**{("column", n): v for n, v in evaluation.columns.items()},
+            **{("cell", n): v for n, v in evaluation.cells.items()}}
+
+
+@pytest.mark.parametrize("path", sorted((ROOT / "worked_cases").glob("*.layers")),
+                         ids=lambda p: p.stem)
+def test_bounds_on_every_array_change_nothing_in_any_worked_case(monkeypatch, path):
+    """Every input cell of every worked case swept over ordinary and absurd values, in the
+    base and every scenario: with bounds tried on every array (even tiny ones) the values
+    are the same bits, and an error has the same text, as with every array scanned."""
+    s = layercalc.load(path)
+    for cell, given in s.checked.input_cells.items():
+        base = given.value if given.value != 0 else 1.0
+        for factors in (np.linspace(-3.0, 3.0, 9), np.array([1.0, 1e60, 1e120, -1e200, 0.0])):
+            points = {cell: base * factors}
+            for scenario in [None, *s.scenarios]:
+                monkeypatch.setattr(engine, "FEWEST_VALUES", 0)
+                tried = _outcome(s, points, scenario)
+                monkeypatch.setattr(engine, "FEWEST_VALUES", EVERYTHING)
+                scanned = _outcome(s, points, scenario)
+                if isinstance(scanned, str):
+                    assert tried == scanned, (path.stem, cell, scenario)
+                    continue
+                assert not isinstance(tried, str) and tried.keys() == scanned.keys()
+                for key, values in scanned.items():
+                    np.testing.assert_array_equal(tried[key], values,
+                                                  err_msg=f"{path.stem} {cell} {key}")
