@@ -74,7 +74,7 @@ def assert_hydrostatic(calc_ws, live_ws, sheet, sounding: int = 0) -> list[str]:
     table = sheet.checked.soundings.hydrostatic[sounding]
     rows = table_rows(live_ws, table.sounding)
     assert len(rows) == table.p_bottom.size
-    tv = level_virtual_temperature(sheet) if sounding == 0 else None
+    tv = level_virtual_temperature(sheet) if table.sounding == "the levels table" else None
     columns = {1: table.p_bottom / 100.0, 2: table.p_top / 100.0,
                6: table.observed_thickness, 7: table.hypsometric_thickness,
                8: table.difference, 10: table.implied_virtual_temperature - 273.15}
@@ -178,9 +178,10 @@ def test_a_gap_and_the_cut_at_surface_pressure_follow_edits(tmp_path):
         assert_hydrostatic(calc["hydrostatic"], load_workbook(book)["hydrostatic"], want)
         moved = assert_results(calc, load_workbook(book), want, before=sheet)
         assert "Tv" in moved, moved
-        checks = [c.value for row in calc["levels"].iter_rows() for c in row
-                  if isinstance(c.value, str) and c.value.startswith(("OK", "CHECK"))]
-        assert len(checks) == 3 and all(c.startswith("OK") for c in checks), checks
+        checks = [c.value for name in ("levels", "layers") for row in calc[name].iter_rows()
+                  for c in row if isinstance(c.value, str) and c.value.startswith(("OK", "CHECK"))]
+        # values, level count, the layer count on layers, surface_pressure where it was
+        assert len(checks) == 4 and all(c.startswith("OK") for c in checks), checks
     assert live["levels"][level_cell(live["levels"], 850, "Td")].value is None
 
 
@@ -233,3 +234,98 @@ def test_every_worked_case_follows_an_edited_input(tmp_path, path):
             assert_recalculated(calc["hydrostatic"], [calc["hydrostatic"].cell(r, column)
                                                       .coordinate for r in rows],
                                 want, (table.sounding, column))
+
+
+def assert_inputs(calc, want) -> None:
+    """The layers sheet's inputs (live formulas) against layercalc's layer means."""
+    layers = calc["layers"]
+    result = want.evaluate()
+    for j, name in enumerate(want.checked.input_columns, start=1):
+        cells = [layers.cell(2 + k, j).coordinate for k in range(want.checked.layer_count)]
+        # source: layercalc's layer means of the edited text
+        assert_recalculated(layers, cells, result.layers[name].to_numpy(), name)
+
+
+def assert_follows(tmp_path, path, untouched, sheet, edited_text: str, moving: set) -> None:
+    """The edited workbook `path` recalculated by LibreOffice: its inputs, every result and
+    every hydrostatic table equal layercalc's evaluation of `edited_text` (the same edits
+    made in the text), and the results named in `moving` moved from `sheet`'s."""
+    converted = convert([path], tmp_path / "out", tmp_path / "profile")
+    want = layercalc.loads(edited_text, name="edited.layers")
+    calc, live = load_workbook(converted[path], data_only=True), load_workbook(untouched)
+    assert_inputs(calc, want)
+    moved = assert_results(calc, live, want, before=sheet)
+    assert moving <= moved, moved
+    for k in range(len(want.checked.soundings.hydrostatic)):
+        assert_hydrostatic(calc["hydrostatic"], live["hydrostatic"], want, k)
+
+
+def test_stations_with_a_levels_table_and_a_cut_follow_edits(tmp_path):
+    # T at 850 hPa on the levels sheet 4.5 -> 6.5 degC, Eastmoor's 700 hPa wind 230 -> 245
+    # degrees, surface_pressure 980 -> 990 hPa (still inside the 1000-925 hPa layer).
+    from tests.formats.test_libreoffice import station_wind_cell
+    from tests.formats.test_xlsx_levels import STATIONS_AND_LEVELS as text
+
+    edits = (("  850     4.5    1.0  1440", "  850     6.5    1.0  1440"),
+             ("       700    230     35", "       700    245     35"),
+             ("surface_pressure = 980 hPa", "surface_pressure = 990 hPa"))
+    edited_text = text
+    for old, new in edits:
+        assert edited_text.count(old) == 1
+        edited_text = edited_text.replace(old, new)
+    sheet = layercalc.loads(text, name="both.layers")
+    path, untouched = tmp_path / "both.xlsx", tmp_path / "untouched.xlsx"
+    write_workbook(sheet, path)
+    write_workbook(sheet, untouched)
+    edit_levels(path, {(850, "T"): 6.5}, {"surface_pressure": 990})
+    workbook = load_workbook(path)
+    cell = station_wind_cell(workbook["stations"], "Eastmoor", 700, "dir")
+    assert workbook["stations"][cell].value == 230
+    workbook["stations"][cell].value = 245
+    workbook.save(path)
+    assert_follows(tmp_path, path, untouched, sheet, edited_text, {"omega_bottom", "thickness",
+                                                                   "surface_pressure_tendency"})
+
+
+def test_a_station_column_cut_at_surface_pressure_follows_edits(tmp_path):
+    # three_stations with surface_pressure 980 hPa (its div was wrong in the cut layer
+    # before the column's levels were formulas): Northfield's 925 hPa T 7.8 -> 9.8 degC on
+    # the stations sheet, then surface_pressure 980 -> 960 hPa.
+    from tests.formats.test_libreoffice import station_wind_cell
+    from tests.formats.test_xlsx_export import worked_cases_folder
+
+    text = (worked_cases_folder() / "three_stations.layers").read_text()
+    text = text.replace("cell surface_height = 104 m",
+                        "cell surface_height = 104 m\ncell surface_pressure = 980 hPa")
+    row = "       925      7.8       6.2     737    180     17"
+    assert text.count(row) == 1 and text.count("980 hPa") == 1
+    edited_text = (text.replace(row, row.replace("7.8", "9.8"))
+                   .replace("surface_pressure = 980 hPa", "surface_pressure = 960 hPa"))
+    sheet = layercalc.loads(text, name="cut.layers")
+    path, untouched = tmp_path / "cut.xlsx", tmp_path / "untouched.xlsx"
+    write_workbook(sheet, path)
+    write_workbook(sheet, untouched)
+    workbook = load_workbook(path)
+    cell = station_wind_cell(workbook["stations"], "Northfield", 925, "T")
+    assert workbook["stations"][cell].value == 7.8
+    workbook["stations"][cell].value = 9.8
+    row = [c.row for c in workbook["settings"]["A"] if c.value == "surface_pressure"][0]
+    workbook["settings"].cell(row, 2).value = 960
+    workbook.save(path)
+    assert_follows(tmp_path, path, untouched, sheet, edited_text, {"omega_bottom", "Tv",
+                                                                   "surface_pressure_tendency"})
+
+
+def test_the_check_cells_turn_when_the_formulas_no_longer_mirror_layercalc(tmp_path):
+    # surface_pressure moved past the 850 hPa level, a value the layer formulas read blanked
+    sheet = layercalc.loads(GAP_AND_CUT, name="gap.layers")
+    path = tmp_path / "moved.xlsx"
+    write_workbook(sheet, path)
+    edit_levels(path, {(700, "T"): None}, {"surface_pressure": 800})
+    calc = load_workbook(convert([path], tmp_path / "out", tmp_path / "profile")[path],
+                         data_only=True)
+    checks = [c.value for name in ("levels", "layers") for row in calc[name].iter_rows()
+              for c in row if isinstance(c.value, str) and c.value.startswith(("OK", "CHECK"))]
+    assert sorted(c.split(":")[0] for c in checks) == ["CHECK", "CHECK", "OK", "OK"], checks
+    assert any("1 value(s) the layer formulas read are blank" in c for c in checks)
+    assert any("surface_pressure has moved past a level" in c for c in checks)

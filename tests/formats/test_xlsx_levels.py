@@ -60,6 +60,76 @@ end
 """
 
 
+# a levels table (T, Td, z) with three stations giving the winds, cut at 980 hPa (made up)
+STATIONS_AND_LEVELS = """title "Stations and levels"
+cell surface_height = 104 m
+cell surface_pressure = 980 hPa
+levels
+  p [hPa]  T [degC]  Td [degC]  z [m]
+  1000   12.0   10.0   104
+  925     7.5    5.0   750
+  850     4.5    1.0  1440
+  700    -3.5   -8.0  2995
+  500   -19.5  -26.0  5570
+end
+station "Northfield" latitude 47.10 longitude -31.70
+  levels
+    p [hPa]  T [degC]  z [m]  dir [deg]  speed [kt]
+      1000     12.4     88    143      9
+       925      7.8    737    180     17
+       850      4.6   1431    200     23
+       700     -3.8   2990    219     31
+       500    -19.6   5568    229     47
+  end
+end
+station "Eastmoor" latitude 45.85 longitude -28.75
+  levels
+    p [hPa]  dir [deg]  speed [kt]
+      1000    170     12
+       925    195     20
+       850    215     26
+       700    230     35
+       500    243     55
+  end
+end
+station "Southvale" latitude 44.70 longitude -32.30
+  levels
+    p [hPa]  dir [deg]  speed [kt]
+      1000    120     10
+       925    160     15
+       850    190     22
+       700    215     30
+       500    225     45
+  end
+end
+"""
+
+
+def test_stations_with_a_levels_table_are_both_live(tmp_path):
+    path = tmp_path / "both.xlsx"
+    write_workbook(layercalc.loads(STATIONS_AND_LEVELS, name="both.layers"), path)
+    workbook = load_workbook(path)
+    assert {"stations", "levels", "hydrostatic"} <= set(workbook.sheetnames)
+    layers = workbook["layers"]
+    header = [c.value for c in layers[1]]
+    div, temperature = header.index("div [1e-5 s^-1]") + 1, header.index("T [degC]") + 1
+    assert "'stations'!" in layers.cell(3, div).value
+    assert "'levels'!" in layers.cell(3, temperature).value
+
+
+def test_a_network_with_a_missing_wind_is_marked_not_live(tmp_path):
+    text = STATIONS_AND_LEVELS.replace("       925    195     20", "       925      -      -")
+    assert text != STATIONS_AND_LEVELS
+    path = tmp_path / "missing.xlsx"
+    write_workbook(layercalc.loads(text, name="missing.layers"), path)
+    workbook = load_workbook(path)
+    assert "stations" not in workbook.sheetnames and "levels" not in workbook.sheetnames
+    notes = [c.value for row in workbook["layers"].iter_rows() for c in row
+             if isinstance(c.value, str) and c.value.startswith("NOT LIVE")]
+    assert len(notes) == 1 and "lacks a wind" in notes[0]
+    assert isinstance(workbook["layers"]["E3"].value, float)  # div as a value
+
+
 def test_a_gap_is_filled_by_a_formula_and_a_typed_value_replaces_it(tmp_path):
     path = tmp_path / "gap.xlsx"
     write_workbook(layercalc.loads(GAP_AND_CUT, name="gap.layers"), path)
@@ -73,11 +143,11 @@ def test_the_layer_across_surface_pressure_is_cut_by_formulas(tmp_path):
     path = tmp_path / "cut.xlsx"
     write_workbook(layercalc.loads(GAP_AND_CUT, name="cut.layers"), path)
     workbook = load_workbook(path)
-    levels, layers = workbook["levels"], workbook["layers"]
-    link = [c for row in levels.iter_rows() for c in row
+    layers = workbook["layers"]
+    link = [c for row in layers.iter_rows() for c in row
             if isinstance(c.value, str) and c.value.startswith("=INDEX('settings'")]
     assert len(link) == 1
-    assert layers["A2"].value == f"=('levels'!${link[0].column_letter}${link[0].row}*100)/100"
+    assert layers["A2"].value == f"=('layers'!${link[0].column_letter}${link[0].row}*100)/100"
     assert layers["B2"].value == "=('levels'!A6*100)/100"  # the 850 hPa level
     assert layers.max_row >= 5 and layers["A5"].value == "=('levels'!A8*100)/100"
 
@@ -107,7 +177,8 @@ def test_station_soundings_get_their_hydrostatic_tables(tmp_path):
         assert len(table_rows(ws, table.sounding)) == table.p_bottom.size
 
 
-@pytest.mark.parametrize("text", [LEVELS, GAP_AND_CUT], ids=["levels", "gap_and_cut"])
+@pytest.mark.parametrize("text", [LEVELS, GAP_AND_CUT, STATIONS_AND_LEVELS],
+                         ids=["levels", "gap_and_cut", "stations_and_levels"])
 def test_export_import_export_keeps_the_levels(tmp_path, text):
     sheet = layercalc.loads(text, name="levels.layers")
     first, second = tmp_path / "first.xlsx", tmp_path / "second.xlsx"

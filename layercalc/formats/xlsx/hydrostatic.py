@@ -17,6 +17,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from layercalc import constants as C
 from layercalc.formats.xlsx.cells import letter, put_text, red_when, size_columns, style
 from layercalc.formats.xlsx.formulas import (
@@ -44,6 +46,18 @@ class Placed:
     first_row: int
     places: dict       # heading name -> (column letter, unit)
     levels: int
+    blank: frozenset = frozenset()  # (name, level) blank at export
+
+    @property
+    def checked(self) -> bool:
+        """Whether layercalc checks it: it has T and z."""
+        return "T" in self.places and "z" in self.places
+
+    def present(self, name: str, level: int) -> bool:
+        return (name, level) not in self.blank
+
+    def pressure(self, level: int) -> str:
+        return self.si("p", level)
 
     def ref(self, name: str, level: int) -> str:
         return f"'{self.sheet}'!{self.places[name][0]}{self.first_row + level}"
@@ -70,7 +84,7 @@ def level_virtual_temperature(s: Placed, level: int) -> str:
 
 
 def placed_soundings(workbook, checked, levels: Placed | None) -> list[Placed]:
-    """The soundings whose check the workbook can hold live, those with T and z: the
+    """The soundings on the live sheets (`.checked`: those whose heights layercalc checks): the
     levels sheet's table (`levels`, from levels.live_inputs) and each station table of a
     live stations sheet (found by its mark row `station | name`, as the reader finds it:
     the header below it, then the levels surface first)."""
@@ -90,11 +104,14 @@ def placed_soundings(workbook, checked, levels: Placed | None) -> list[Placed]:
             if station is None:
                 continue
             units = heading_units(station.table)
-            places = {h.name: (letter(j), units[h.name])
-                      for j, h in enumerate(station.table.headings, start=1)}
+            names = [h.name for h in station.table.headings]
+            places = {name: (letter(j), units[name]) for j, name in enumerate(names, start=1)}
+            data = np.array(station.table.rows, dtype=float).reshape(-1, len(names))
+            data = data[np.argsort(-data[:, names.index("p")], kind="stable")]
+            blank = frozenset((names[j], int(k)) for k, j in zip(*np.nonzero(np.isnan(data))))
             found.append(Placed(f'station "{station.name}"', ws.title, row + 2, places,
-                                len(station.table.rows)))
-    return [s for s in found if "T" in s.places and "z" in s.places]
+                                len(station.table.rows), blank))
+    return found
 
 
 def hydrostatic_sheet(workbook, soundings: list[Placed], tolerance: float) -> None:

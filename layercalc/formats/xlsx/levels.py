@@ -1,17 +1,15 @@
-"""The `levels` sheet of a workbook built from a top-level `levels` table: the table as
-typed, and the layers sheet's inputs as live layer means of it.
+"""The `levels` sheet of a workbook built from a top-level `levels` table, and which inputs
+of the layers sheet are live formulas of the soundings (live_inputs).
 
-Written when the sheet has one top-level `levels` table and no stations; otherwise the
-workbook keeps the layer means as inputs (see README). Layout: notes in rows 1-2; the
-header `name [unit]` as typed in row HEADER_ROW, then one row per level, SURFACE FIRST,
-blank for a missing value; beside the table (after a blank column, so the reader does not
-take them for columns) a check cell, and with surface_pressure its link to `settings` and
-a check that it still cuts the column where the formulas do. On `layers`, p_bottom and
-p_top link to consecutive levels and every other column is the mean of its two levels
-(every quantity linear in ln p: physics.levels.layers_from_levels), mirroring
-soundings.column: a blank inner value is interpolated linearly in ln p between the nearest
-levels that have it (fill_gaps), and levels below a surface_pressure are left out, the
-layer across it cut there with its values interpolated in ln p (_cut_at_surface).
+The levels sheet: notes in rows 1-2; the header `name [unit]` as typed in row HEADER_ROW,
+then one row per level, SURFACE FIRST, blank for a missing value; beside the table (after a
+blank column, so the reader does not take them for columns) the level count the formulas
+cover (read back on import) and check cells that turn red when a level is added or a value
+the formulas read is blanked. The layers sheet's inputs are then layer means of these
+levels (column_levels.py: gaps filled and the layer across surface_pressure cut by
+formulas); with stations, `div` comes from the stations sheet's fit per level, and without
+a levels table the other columns are the stations' means (AVERAGE over the stations that
+give a value, as soundings.column takes them).
 """
 
 from __future__ import annotations
@@ -21,7 +19,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from layercalc.formats.xlsx.cells import letter, put_text, red_when, style
-from layercalc.formats.xlsx.formulas import from_si, to_si
+from layercalc.formats.xlsx.column_levels import (
+    ColumnFormulas, column_structure, gap_filled, surface_block,
+)
+from layercalc.formats.xlsx.formulas import number_text, to_si
 
 SHEET = "levels"
 HEADER_ROW = 4
@@ -31,38 +32,31 @@ LAST_ROW = 1048576  # the last row of a worksheet
 
 @dataclass(frozen=True)
 class LiveLevels:
-    """A levels table whose layer means the workbook holds live, and how the column is
-    made of its levels: `column[j]` is the sheet level (sorted, surface first) of the
-    column's level j, or None for the level at surface_pressure, cut between sheet
-    levels `cut` (below, above) by interpolation in ln p; `gaps[name]` lists the sheet
-    levels where `name` is blank, each with its nearest levels below and above that have
-    it (soundings.levels.fill_gaps interpolates between them in ln p)."""
+    """A levels table whose layer means the workbook can hold live: `gaps[name]` maps each
+    level (sorted, surface first) where `name` is blank to its nearest levels below and
+    above that have it (soundings.levels.fill_gaps interpolates between them in ln p)."""
 
     table: object
-    column: tuple
-    cut: tuple | None
     gaps: dict
+    pressure: np.ndarray  # [Pa] sorted, surface first
 
 
-def live_levels(checked) -> LiveLevels | None:
-    """How the layer means can be live, or None when they cannot (see README)."""
-    document = checked.document
-    if document is None or checked.soundings is None:
-        return None
-    from layercalc.language.nodes import Station, Table
+def live_levels(checked, names_used) -> LiveLevels | None:
+    """The top-level levels table when the layer columns `names_used` can be live formulas
+    of it, else None (see README)."""
+    from layercalc.language.nodes import Table
 
-    statements = document.statements
-    tables = [s for s in statements if isinstance(s, Table) and s.kind == "levels"]
-    if len(tables) != 1 or any(isinstance(s, Station) for s in statements):
+    tables = [s for s in checked.document.statements
+              if isinstance(s, Table) and s.kind == "levels"]
+    if len(tables) != 1:
         return None
     table = tables[0]
     names = [h.name for h in table.headings]
     data = _sorted_rows(table)
-    layer_names = [n for n in checked.input_columns if n not in ("p_bottom", "p_top")]
-    if any(n not in names for n in layer_names) or "p" not in names:
+    if any(n not in names for n in names_used) or "p" not in names:
         return None
     gaps = {}
-    for name in layer_names:
+    for name in names_used:
         present = np.flatnonzero(np.isfinite(data[:, names.index(name)]))
         if present.size < 2 or present[0] != 0 or present[-1] != data.shape[0] - 1:
             return None  # layercalc refuses a gap at an end; nothing to mirror
@@ -71,19 +65,7 @@ def live_levels(checked) -> LiveLevels | None:
     from layercalc.formats.xlsx.stations import heading_units
 
     pressure = heading_units(table)["p"].to_si(data[:, names.index("p")])
-    column_pressure = checked.soundings.column_levels["pressure"]
-    below = int(np.count_nonzero(pressure > column_pressure[0]))
-    if below and pressure[below] == column_pressure[0]:
-        column, cut = tuple(range(below, data.shape[0])), None
-    elif below:
-        column, cut = (None, *range(below, data.shape[0])), (below - 1, below)
-    else:
-        column, cut = tuple(range(data.shape[0])), None
-    if checked.layer_count != len(column) - 1:
-        return None
-    if not np.array_equal(column_pressure[1:], pressure[list(column[1:])]):
-        return None
-    return LiveLevels(table, column, cut, gaps)
+    return LiveLevels(table, gaps, np.asarray(pressure, dtype=float))
 
 
 def _sorted_rows(table) -> np.ndarray:
@@ -92,9 +74,9 @@ def _sorted_rows(table) -> np.ndarray:
     return data[np.argsort(-data[:, names.index("p")], kind="stable")]
 
 
-def levels_sheet(ws, live: LiveLevels, checked) -> "LevelFormulas":
-    """Fill `ws` with the table as typed and the check cells beside it; returns the
-    formulas of the layers sheet's inputs."""
+def levels_sheet(ws, live: LiveLevels) -> dict:
+    """Fill `ws` with the table as typed and the check cells beside it; returns name ->
+    (column letter, unit) of each heading."""
     from layercalc.formats.xlsx.stations import heading_text, heading_units
 
     table = live.table
@@ -119,35 +101,38 @@ def levels_sheet(ws, live: LiveLevels, checked) -> "LevelFormulas":
     from layercalc.formats.xlsx.cells import size_columns
 
     size_columns(ws, {j: 14 for j in range(1, len(table.headings) + 1)})
-    size_columns(ws, {len(table.headings) + 2: 26})
-    formulas = LevelFormulas(places, live, None)
     side = len(table.headings) + 2
+    size_columns(ws, {side: 26})
     # the level count the formulas cover, read back by levels_block (a level added)
     put_text(ws.cell(HEADER_ROW - 1, side), COUNT_LABEL)
     style(ws.cell(HEADER_ROW - 1, side), "name")
     ws.cell(HEADER_ROW - 1, side + 1, data.shape[0])
-    column = places["p"][0]
-    _check(ws, HEADER_ROW + 1, side, _count_check(column, data.shape[0]))
-    used = ["p", *live.gaps]
-    _check(ws, HEADER_ROW, side, _values_check(places, used, data,
-                                               [h.name for h in table.headings]))
-    cell = checked.input_cells.get("surface_pressure")
-    if cell is not None:
-        label = ws.cell(HEADER_ROW + 3, side)
-        put_text(label, f"surface_pressure [{cell.unit.text}]")
-        style(label, "name")
-        link = ws.cell(HEADER_ROW + 3, side + 1,
-                       "=INDEX('settings'!$B:$B,MATCH(\"surface_pressure\",'settings'!$A:$A,0))")
-        link.number_format = "0.0"
-        surface = to_si(f"'{SHEET}'!${letter(side + 1)}${HEADER_ROW + 3}", cell.unit)
-        formulas = LevelFormulas(places, live, surface)
-        _check(ws, HEADER_ROW + 4, side, _surface_check(formulas))
-        note = ws.cell(HEADER_ROW + 5, side)
-        put_text(note, "(from 'settings'; the layers start there: "
-                 + ("the layer across it is cut, its values interpolated in ln p)"
-                    if live.cut else "no layer is cut)"))
-        style(note, "note")
-    return formulas
+    names = [h.name for h in table.headings]
+    _check(ws, HEADER_ROW, side, _values_check(["p", *live.gaps], data, names))
+    _check(ws, HEADER_ROW + 1, side, _count_check(places["p"][0], data.shape[0]))
+    return places
+
+
+def level_sources(places: dict, live: LiveLevels) -> tuple:
+    """(pressure(i), {name: value(i)}) as SI formula text of the levels sheet's cells, a
+    gap filled in ln p from the levels that had the value at export."""
+    def ref(name, level):
+        return f"'{SHEET}'!{places[name][0]}{HEADER_ROW + 1 + level}"
+
+    def pressure(level):
+        return to_si(ref("p", level), places["p"][1])
+
+    def source(name):
+        def value(level):
+            si = to_si(ref(name, level), places[name][1])
+            if level not in live.gaps[name]:
+                return si
+            below, above = live.gaps[name][level]
+            return gap_filled(ref(name, level), si, value(below), value(above),
+                              pressure(below), pressure(above), pressure(level))
+        return value
+
+    return pressure, {name: source(name) for name in live.gaps}
 
 
 def _check(ws, row: int, column: int, check: tuple[str, str]) -> None:
@@ -157,7 +142,7 @@ def _check(ws, row: int, column: int, check: tuple[str, str]) -> None:
     red_when(ws, cell.coordinate, condition)
 
 
-def _values_check(places: dict, used: list, data: np.ndarray, names: list) -> tuple[str, str]:
+def _values_check(used: list, data: np.ndarray, names: list) -> tuple[str, str]:
     """A check cell's formula and its red condition: every value the layer formulas read
     and that was there at export is still a number (a blank counts as 0 in a formula)."""
     runs, count = [], 0
@@ -191,78 +176,6 @@ def _count_check(column: str, levels: int) -> tuple[str, str]:
             f"{count}<>{levels}")
 
 
-def _surface_check(formulas: "LevelFormulas") -> tuple[str, str]:
-    """The check that surface_pressure still cuts the column where the formulas cut it."""
-    live, surface = formulas.live, formulas.surface
-    if live.cut is not None:
-        below, above = live.cut
-        inside = f"AND({surface}<{formulas.pressure(below)},{surface}>{formulas.pressure(above)})"
-    elif live.column[0] > 0:
-        inside = f"{surface}={formulas.pressure(live.column[0])}"
-    else:
-        inside = f"{surface}>={formulas.pressure(0)}"
-    ok = "OK: the layers start where layercalc starts them"
-    text = (f'IF({inside},"{ok}","CHECK: surface_pressure has moved past a level; the '
-            f'formulas still start the column as exported, layercalc would not: export '
-            f'again")')
-    return text, f"NOT({inside})"
-
-
-class LevelFormulas:
-    """Formula text of the layers sheet's inputs from the levels sheet (and of the column's
-    levels: a gap filled, the level at surface_pressure cut, all in SI)."""
-
-    def __init__(self, places: dict, live: LiveLevels, surface: str | None) -> None:
-        self.places, self.live, self.surface = places, live, surface
-
-    def ref(self, name: str, level: int) -> str:
-        return f"'{SHEET}'!{self.places[name][0]}{HEADER_ROW + 1 + level}"
-
-    def pressure(self, level: int) -> str:
-        return to_si(self.ref("p", level), self.places["p"][1])
-
-    def value(self, name: str, level: int) -> str:
-        """`name` at a sheet level in SI; a gap filled in ln p from the nearest levels
-        that have it at export (a value typed into the gap is used instead)."""
-        ref = self.ref(name, level)
-        si = to_si(ref, self.places[name][1])
-        if level not in self.live.gaps.get(name, {}):
-            return si
-        below, above = self.live.gaps[name][level]
-        filled = between(self.value(name, below), self.value(name, above),
-                         self.pressure(below), self.pressure(above), self.pressure(level))
-        return f"IF(ISNUMBER({ref}),{si},{filled})"
-
-    def column_value(self, name: str, j: int) -> str:
-        level = self.live.column[j]
-        if level is not None:
-            return self.pressure(level) if name == "p" else self.value(name, level)
-        if name == "p":
-            return self.surface
-        below, above = self.live.cut
-        return between(self.value(name, below), self.value(name, above),
-                       self.pressure(below), self.pressure(above), self.surface)
-
-    def layer(self, name: str, k: int, unit) -> str:
-        """The layers sheet's `name` of layer k (surface first)."""
-        if name in ("p_bottom", "p_top"):
-            j = k + (name == "p_top")
-            level = self.live.column[j]
-            if level is None:
-                return "=" + from_si(self.surface, unit)
-            source, source_unit = self.places["p"]
-            return "=" + from_si(to_si(f"'{SHEET}'!{source}{HEADER_ROW + 1 + level}",
-                                       source_unit), unit)
-        return "=" + from_si(f"({self.column_value(name, k)}+{self.column_value(name, k + 1)})/2",
-                             unit)
-
-
-def between(low: str, high: str, p_low: str, p_high: str, p: str) -> str:
-    """Linear in ln p between two levels (SI text): low + (high - low) ln(p_low / p) /
-    ln(p_low / p_high), as soundings.levels.fill_gaps and the cut at surface_pressure."""
-    return f"({low}+({high}-{low})*LN({p_low}/{p})/LN({p_low}/{p_high}))"
-
-
 def levels_block(builder, sheet: str) -> list:
     """The `levels` table of a levels sheet (its rows as reader._RawWorkbook read them) as
     `.layers` lines of (text, sheet, cell) pieces."""
@@ -285,29 +198,87 @@ def levels_block(builder, sheet: str) -> list:
     return [[("levels", None, None)], *lines, [("end", None, None)]]
 
 
-def live_inputs(workbook, checked):
-    """Add a `stations` or `levels` sheet when the sheet's inputs can be live there, and the
-    `hydrostatic` sheet for their soundings; returns `formula(name, k, unit)` for the
-    layers sheet (None for an input kept as a value), or None when neither applies."""
-    from layercalc.formats.xlsx.hydrostatic import Placed, hydrostatic_sheet, placed_soundings
-    from layercalc.formats.xlsx.stations import (
-        layer_divergence_formula, live_network, stations_sheet,
-    )
+def station_means(placed: list, names_used, levels: int) -> dict:
+    """{name: value(i)}: the mean over the stations that give `name` at level i (SI text),
+    for each layer column every station giving it in one unit with a value at every level
+    from at least one station; the others stay values."""
+    sources = {}
+    for name in names_used:
+        having = [s for s in placed if name in s.places]
+        units = {(s.places[name][1].scale, s.places[name][1].offset) for s in having}
+        if not having or len(units) != 1 or not all(
+                any(s.present(name, k) for s in having) for k in range(levels)):
+            continue
+        unit = having[0].places[name][1]
 
+        def value(level, having=having, name=name, unit=unit):
+            refs = ",".join(s.ref(name, level) for s in having)
+            return to_si(f"AVERAGE({refs})", unit)
+        sources[name] = value
+    return sources
+
+
+def live_inputs(workbook, checked):
+    """Add a `stations` and/or `levels` sheet when the sheet's inputs can be live there, and
+    the `hydrostatic` sheet for their soundings; returns `formula(name, k, unit)` for the
+    layers sheet (None for an input kept as a value), or None when nothing is live."""
+    from layercalc.formats.xlsx.hydrostatic import Placed, hydrostatic_sheet, placed_soundings
+    from layercalc.formats.xlsx.stations import live_network, stations_sheet
+    from layercalc.language.nodes import Station, Table
+
+    details, document = checked.soundings, checked.document
+    if details is None or document is None:
+        return None
     network = live_network(checked)
-    live = live_levels(checked) if network is None else None
-    formula, placed = None, None
+    if network is None and any(isinstance(s, Station) for s in document.statements):
+        return _not_live(workbook, checked, "a station lacks a wind at some level, which the "
+                         "stations sheet cannot fit yet")
+    used = [n for n in checked.input_columns if n not in ("p_bottom", "p_top", "div")
+            or (n == "div" and network is None)]
+    live = None
+    if any(isinstance(s, Table) and s.kind == "levels" for s in document.statements):
+        live = live_levels(checked, used)
+        if live is None:
+            return _not_live(workbook, checked, "the levels table lacks a value the layers "
+                             "need at its lowest or highest level")
+    level_pressure = live.pressure if live is not None else network[1].levels.pressure
+    structure = column_structure(level_pressure, details.column_levels["pressure"])
+    if structure is None:
+        return _not_live(workbook, checked, "the column's levels are not the table's")
+    sources, placed = {}, None
     if network is not None:
         cells = stations_sheet(workbook.create_sheet("stations"), checked, network)
-
-        def formula(name, k, unit):
-            return layer_divergence_formula(cells, k, unit) if name == "div" else None
-    elif live is not None:
-        formulas = levels_sheet(workbook.create_sheet(SHEET), live, checked)
-        placed = Placed("the levels table", SHEET, HEADER_ROW + 1, formulas.places,
+        sources["div"] = lambda level: f"'stations'!{cells[level]}"
+    if live is not None:
+        places = levels_sheet(workbook.create_sheet(SHEET), live)
+        pressure, found = level_sources(places, live)
+        sources.update(found)
+        placed = Placed("the levels table", SHEET, HEADER_ROW + 1, places,
                         len(live.table.rows))
-        formula = formulas.layer
-    if formula is not None:
-        hydrostatic_sheet(workbook, placed_soundings(workbook, checked, placed),
-                          checked.soundings.hydrostatic_tolerance)
-    return formula
+    soundings = placed_soundings(workbook, checked, placed)
+    if live is None:
+        stations = [s for s in soundings if s.sheet == "stations"]
+        pressure = stations[0].pressure
+        sources.update(station_means(stations, used, level_pressure.size))
+    formulas = ColumnFormulas(*structure, pressure, sources, None)
+    cell = checked.input_cells.get("surface_pressure")
+    if cell is not None and all(n in sources for n in used):
+        surface_block(workbook["layers"], 8, len(checked.input_columns) + 2, cell, formulas,
+                      level_pressure.size)
+    elif cell is not None:  # an input kept as a value: the cut stays where it was
+        formulas.surface = number_text(float(cell.value))
+    hydrostatic_sheet(workbook, [s for s in soundings if s.checked],
+                      details.hydrostatic_tolerance)
+    return formulas.layer
+
+
+def _not_live(workbook, checked, why: str) -> None:
+    """A visible note beside the layers table of a sheet built from soundings whose layer
+    means stay values here (the workbook is then a layer table: import reads it as one)."""
+    column = len(checked.input_columns) + 2
+    note = workbook["layers"].cell(8, column)
+    put_text(note, "NOT LIVE OF THE SOUNDINGS: the layer means here are values layercalc "
+             f"computed from the .layers file's soundings ({why}); this workbook holds them "
+             "as a layer table (edit them here, or edit the .layers file and export again)")
+    style(note, "changed")
+    return None

@@ -343,16 +343,16 @@ class _TextBuilder:
         formula_lines = self.formula_lines()
         read_names = {m for line, _, _ in formula_lines for m in IDENTIFIER.findall(line)}
         settings = self.settings(read_names)
-        stations = self._named("stations")
-        if stations is not None:  # the layers come from the stations (formats/xlsx/stations.py)
-            from layercalc.formats.xlsx.stations import station_blocks
-
-            table = station_blocks(self, stations, self.raw.sheets[stations])
-        elif self._named("levels") is not None:  # the layers come from it (levels.py)
+        stations, levels, table = self._named("stations"), self._named("levels"), []
+        if levels is not None:  # the column's levels (formats/xlsx/levels.py)
             from layercalc.formats.xlsx.levels import levels_block
 
-            table = levels_block(self, self._named("levels"))  # layers = len - 3 below
-        else:
+            table = levels_block(self, levels)
+        if stations is not None:  # the winds, and the soundings (formats/xlsx/stations.py)
+            from layercalc.formats.xlsx.stations import station_blocks
+
+            table += station_blocks(self, stations, self.raw.sheets[stations])
+        if not table:
             table = self.layers()
         extra = len(self.formula_cells) - MAX_FORMULA_NOTICES
         if extra > 0:

@@ -1,7 +1,7 @@
 """The `stations` sheet of a station-network workbook: the winds as typed, the fit live.
 
-Written for a sheet whose layers come from `station` blocks alone (no top-level `levels`
-table) with a wind at every station and level; otherwise the workbook keeps the layer
+Written for a sheet with `station` blocks (with or without a top-level `levels` table)
+with a wind at every station and level; otherwise the workbook keeps the layer
 means as inputs (see README). Layout, rows from the top:
     notes; the geometry block `station | latitude [deg] | longitude [deg] | x [m] | y [m]
     | north angle [deg] | x - mean [m] | y - mean [m]` (latitude and longitude as typed,
@@ -41,12 +41,9 @@ def live_network(checked) -> tuple | None:
     document = checked.document
     if details is None or details.network is None or document is None:
         return None
-    from layercalc.language.nodes import Station, Table
+    from layercalc.language.nodes import Station
 
-    statements = document.statements
-    if any(isinstance(s, Table) and s.kind == "levels" for s in statements):
-        return None
-    stations = [s for s in statements if isinstance(s, Station)]
+    stations = [s for s in document.statements if isinstance(s, Station)]
     network = details.network
     winds = np.array([np.concatenate([st.u, st.v]) for st in network.stations])
     if not np.isfinite(winds).all() or "div" not in checked.input_columns:
@@ -75,7 +72,8 @@ def stations_sheet(ws, checked, found) -> list[str]:
              "(stereographic plane about the stations' centroid): editing a latitude or "
              "longitude does not move a station here; edit the .layers file and export again.",
              "Each station's levels are listed surface first; T, Td and z are read back on "
-             "import (the layers sheet's T and Td are their station means, as values).")
+             "import (the layers sheet's T and Td are live station means, or with a levels "
+             "table formulas of that table).")
     for row, text in enumerate(notes, start=1):
         put_text(ws.cell(row, 1), text)
         style(ws.cell(row, 1), "note")
