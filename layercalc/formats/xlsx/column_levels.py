@@ -96,8 +96,9 @@ def surface_block(ws, row: int, column: int, cell, formulas: ColumnFormulas,
                   levels: int) -> str:
     """surface_pressure linked from `settings` at (row, column) of `ws`, with the check that
     it still lies where the formulas start the column, and a note; returns its SI text."""
-    from layercalc.formats.xlsx.cells import letter
+    from layercalc.formats.xlsx.cells import letter, size_columns
 
+    size_columns(ws, {column: 24})  # the label whole beside its value
     label = ws.cell(row, column)
     put_text(label, f"surface_pressure [{cell.unit.text}]")
     style(label, "name")

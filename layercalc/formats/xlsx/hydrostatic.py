@@ -135,8 +135,9 @@ def hydrostatic_sheet(workbook, soundings: list[Placed], tolerance: float) -> No
     put_text(ws.cell(TOLERANCE_ROW, 1), "tolerance [m]")
     style(ws.cell(TOLERANCE_ROW, 1), "name")
     ws.cell(TOLERANCE_ROW, 2, float(tolerance))
-    put_text(ws.cell(TOLERANCE_ROW, 3), "per layer, as layercalc's (cell hydrostatic_tolerance "
-             "in the .layers file, 10 m if not given); change it here to try another")
+    put_text(ws.cell(TOLERANCE_ROW, 3), "per layer, layercalc's (cell hydrostatic_tolerance in "
+             "the .layers file, 10 m if not given); another value here changes the flags of "
+             "this sheet only, not layercalc's report")
     style(ws.cell(TOLERANCE_ROW, 3), "note")
     row = TOLERANCE_ROW + 2
     for sounding in soundings:
@@ -168,6 +169,9 @@ def _table(ws, s: Placed, row: int) -> int:
     tolerance = f"$B${TOLERANCE_ROW}"
     rd, g0 = number_text(C.RD), number_text(C.G0)
     first = header + 1
+    from openpyxl.styles import Alignment
+
+    centred = Alignment(horizontal="center")
     for k in range(s.levels - 1):
         r = first + k
         bottom, top = s.si("p", k), s.si("p", k + 1)
@@ -188,6 +192,7 @@ def _table(ws, s: Placed, row: int) -> int:
         for j, (text, form) in enumerate(zip(cells, FORMATS), start=1):
             cell = ws.cell(r, j, text)
             cell.number_format = form
+        ws.cell(r, 9).alignment = centred
     last = first + s.levels - 2
     flags = f"I{first}:I{last}"
     red_when(ws, flags, f'$I{first}="FLAG"')
