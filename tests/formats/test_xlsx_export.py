@@ -484,3 +484,30 @@ def test_input_values_are_stored_so_that_they_convert_back_exactly(exported):
                               dtype=float)
             assert np.array_equal(column.unit.to_si(stored), column.values), column_name
 
+
+
+@pytest.mark.parametrize("name", ALL_CASES)
+def test_every_computed_cell_carries_a_number_format(exported, name):
+    # printed readably: a computed number shows with sensible decimals, not the 15 digits
+    # of General; display only, the formula and the stored value stay in full
+    import re
+
+    _, path = exported[name]
+    workbook = load_workbook(path)
+    bare = []
+    count = 0
+    for ws in workbook.worksheets:
+        if ws.sheet_state != "visible":
+            continue
+        for row in ws.iter_rows():
+            for cell in row:
+                if cell.data_type != "f":
+                    continue
+                text = str(cell.value)
+                if '"OK: ' in text or re.fullmatch(r"=\$?[A-Z]+\$?\d+", text):
+                    continue  # the row check's words; a copy of a typed value on its sheet
+                count += 1
+                if cell.number_format == "General":
+                    bare.append(f"{ws.title}!{cell.coordinate}: {text[:60]}")
+    assert count > 50
+    assert bare == []

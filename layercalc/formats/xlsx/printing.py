@@ -93,7 +93,6 @@ def wrap_columns(ws, columns: dict[int, float], rows: int) -> None:
             ws.row_dimensions[row].height = 14.5 * count
 
 
-PAGE_ROWS = 34  # default rows (15 pt) a landscape page holds between its margins
 ROW_POINTS = 14.5  # a line of wrapped text
 
 
@@ -117,20 +116,6 @@ def fit_rows(ws, rows, last_column: int) -> None:
                     if isinstance(value := ws.cell(row, j).value, str))
         if lines > 1:
             ws.row_dimensions[row].height = ROW_POINTS * lines
-
-
-def keep_together(ws, blocks: list[tuple[int, int]]) -> None:
-    """Page breaks so that no block of rows (first, last), in order down the sheet, is
-    split over two pages when it fits on one (row heights as set on the sheet)."""
-    from openpyxl.worksheet.pagebreak import Break
-
-    used, page_height = 0.0, PAGE_ROWS * 15.0
-    for first, last in blocks:
-        height = sum(ws.row_dimensions[r].height or 15.0 for r in range(first, last + 2))
-        if used and used + height > page_height:
-            ws.row_breaks.append(Break(id=first - 1))
-            used = 0.0
-        used += height
 
 
 def wrap_notes(ws, rows, last_column: int) -> None:

@@ -10,13 +10,15 @@ means as inputs (see README). Layout, rows from the top:
     station's north on it, physics.stations.tangent_plane_coordinates); the sums of the
     centred positions; then each station's levels table as typed (`station | name`, the
     header `name [unit]`, one row per level, SURFACE FIRST, blank for a missing value);
-    then the fit, in three blocks stacked (one row per level each, so that the sheet
-    prints at full size): u, v (east, north) from each station's dir and speed (or u and
-    v); the centred positions as two rows over the winds turned to the plane by the north
-    angle; the least-squares plane u = u0 + du/dx x + du/dy y (the same for v) in closed
-    form from centred sums, and divergence du/dx + dv/dy and vorticity dv/dx - du/dy, all
-    live. Computed cells carry number formats (display only: values and formulas are
-    stored in full), and page breaks keep each table on one page.
+    then the fit, right of the station tables (from column len(GEOMETRY_HEADER) + 2, the
+    mark FIT_MARK in the geometry header's row), in three blocks stacked whose header rows
+    are those of the first three station tables, each at most 2n + 1 columns wide, so
+    that the sheet prints on one readable page: u, v (east, north) from each station's
+    dir and speed (or u and v); the centred positions as two rows over the winds turned
+    to the plane by the north angle; the least-squares plane u = u0 + du/dx x + du/dy y
+    (the same for v) in closed form from centred sums, and divergence du/dx + dv/dy and
+    vorticity dv/dx - du/dy, all live. Computed cells carry number formats (display
+    only: values and formulas are stored in full).
 The `layers` sheet's div is then the mean of its two levels' divergence (a live formula).
 """
 
@@ -100,7 +102,7 @@ def stations_sheet(ws, checked, found) -> list[str]:
     texts = (("Sxx [m^2]", f"=SUMPRODUCT(G{first}:G{last},G{first}:G{last})"),
              ("Syy [m^2]", f"=SUMPRODUCT(H{first}:H{last},H{first}:H{last})"),
              ("Sxy [m^2]", f"=SUMPRODUCT(G{first}:G{last},H{first}:H{last})"),
-             ("Sxx Syy - Sxy^2 [m^4]", f"=B{sums}*B{sums + 1}-B{sums + 2}^2"))
+             ("Sxx*Syy-Sxy^2 [m^4]", f"=B{sums}*B{sums + 1}-B{sums + 2}^2"))
     for k, (label, formula) in enumerate(texts):
         put_text(ws.cell(sums + k, 1), label)
         put_number(ws.cell(sums + k, 2), formula, SCIENTIFIC)
@@ -108,13 +110,13 @@ def stations_sheet(ws, checked, found) -> list[str]:
     row = sums + len(texts) + 1
     levels = network.levels.pressure.size
     wind_cells = []  # per station: (kind, unit a, unit b, letter a, letter b, first row)
-    blocks = [(1, sums + len(texts) - 1)]  # rows kept on one page when printed
+    heads = []  # the header row of each station's table
     for st in stations:
-        blocks.append((row, row + 1 + levels))
         put_text(ws.cell(row, 1), STATION_MARK)
         style(ws.cell(row, 1), "header")
         put_text(ws.cell(row, 2), st.name)
         row += 1
+        heads.append(row)
         names = [h.name for h in st.table.headings]
         for j, heading in enumerate(st.table.headings, start=1):
             put_text(ws.cell(row, j), heading_text(heading))
@@ -131,86 +133,86 @@ def stations_sheet(ws, checked, found) -> list[str]:
                            letter(names.index(pair[0]) + 1), letter(names.index(pair[1]) + 1),
                            row + 1))
         row += levels + 2
-    put_text(ws.cell(row, 1), FIT_MARK)
-    style(ws.cell(row, 1), "header")
+    left = max([len(GEOMETRY_HEADER)] + [len(st.table.headings) for st in stations])
+    c0 = left + 2  # the fit's first column: right of the station tables, one blank between
+    C = [None] + [letter(c0 + j - 1) for j in range(1, 2 + 4 * n + 9)]  # C[j]: block column j
+    put_text(ws.cell(top, c0), FIT_MARK)
+    style(ws.cell(top, c0), "header")
     names = [s.name for s in stations]
     wind_format = number_format(np.concatenate([np.ravel(st.u) for st in network.stations]
                                                + [np.ravel(st.v) for st in network.stations]))
-    # three blocks stacked, each at most 2n + 1 columns wide, so that the sheet prints
-    # at a readable size: the winds east and north, the winds on the plane (under the
-    # centred positions as rows, so that SUMPRODUCT pairs them with a level's winds),
-    # and the fit with divergence and vorticity
-    east = row + 1
+    # three blocks stacked beside the station tables, each at most 2n + 1 columns wide,
+    # so that the sheet prints on few readable pages: the winds east and north, the winds
+    # on the plane (under the centred positions as rows, so that SUMPRODUCT pairs them
+    # with a level's winds), and the fit with divergence and vorticity; their header rows
+    # are those of the first three station tables (a wrapped header row grows on both)
+    east, plane, fit = heads[:3]
     block_titles = (["p [hPa]"] + [f"u {name} [m/s]" for name in names]
                     + [f"v {name} [m/s]" for name in names])
-    positions = east + levels + 2
-    plane = positions + 2
+    positions = plane - 2
     plane_titles = (["p [hPa]"] + [f"u plane {name} [m/s]" for name in names]
                     + [f"v plane {name} [m/s]" for name in names])
-    fit = plane + levels + 2
     fit_titles = ["p [hPa]", "du/dx [s^-1]", "du/dy [s^-1]", "dv/dx [s^-1]", "dv/dy [s^-1]",
                   "divergence [s^-1]", "vorticity [s^-1]", "divergence [1e-5 s^-1]",
                   "vorticity [1e-5 s^-1]"]
     for header, titles in ((east, block_titles), (plane, plane_titles), (fit, fit_titles)):
-        for j, text in enumerate(titles, start=1):
-            put_text(ws.cell(header, j), text)
-            style(ws.cell(header, j), "header")
+        for j, text in enumerate(titles):
+            put_text(ws.cell(header, c0 + j), text)
+            style(ws.cell(header, c0 + j), "header")
     for offset, source in ((0, "G"), (1, "H")):
-        put_text(ws.cell(positions + offset, 1), ("x - mean [m]", "y - mean [m]")[offset])
+        put_text(ws.cell(positions + offset, c0), ("x - mean [m]", "y - mean [m]")[offset])
         for i in range(n):
             for start in (2, 2 + n):
-                put_number(ws.cell(positions + offset, start + i), f"={source}{first + i}",
-                           "0")
+                put_number(ws.cell(positions + offset, c0 + start - 1 + i),
+                           f"={source}{first + i}", "0")
     xrow, yrow = positions, positions + 1
-    L = letter
     divergence_cells = []
     p_letter = letter([h.name for h in stations[0].table.headings].index("p") + 1)
     shown = number_format(network.levels.divergence / 1e-5)
     for k in range(levels):
         r, rp, rf = east + 1 + k, plane + 1 + k, fit + 1 + k
-        ws.cell(r, 1, f"={p_letter}{wind_cells[0][5] + k}")
-        ws.cell(rp, 1, f"=A{r}")
-        ws.cell(rf, 1, f"=A{r}")
+        ws.cell(r, c0, f"={p_letter}{wind_cells[0][5] + k}")
+        ws.cell(rp, c0, f"={C[1]}{r}")
+        ws.cell(rf, c0, f"={C[1]}{r}")
         for i, (kind, unit_a, unit_b, la, lb, row0) in enumerate(wind_cells):
             a, b = to_si(f"{la}{row0 + k}", unit_a), to_si(f"{lb}{row0 + k}", unit_b)
             if kind == "dir":
                 u, v = f"=-{b}*SIN({a})", f"=-{b}*COS({a})"
             else:
                 u, v = f"={a}", f"={b}"
-            put_number(ws.cell(r, 2 + i), u, wind_format)
-            put_number(ws.cell(r, 2 + n + i), v, wind_format)
+            put_number(ws.cell(r, c0 + 1 + i), u, wind_format)
+            put_number(ws.cell(r, c0 + 1 + n + i), v, wind_format)
             gamma = f"RADIANS($F${first + i})"
-            ue, vn = f"{L(2 + i)}{r}", f"{L(2 + n + i)}{r}"
-            put_number(ws.cell(rp, 2 + i), f"={ue}*COS({gamma})+{vn}*SIN({gamma})",
+            ue, vn = f"{C[2 + i]}{r}", f"{C[2 + n + i]}{r}"
+            put_number(ws.cell(rp, c0 + 1 + i), f"={ue}*COS({gamma})+{vn}*SIN({gamma})",
                        wind_format)
-            put_number(ws.cell(rp, 2 + n + i), f"=-{ue}*SIN({gamma})+{vn}*COS({gamma})",
-                       wind_format)
-        urow = f"{L(2)}{rp}:{L(1 + n)}{rp}"
-        vrow = f"{L(2 + n)}{rp}:{L(1 + 2 * n)}{rp}"
-        xs_u, ys_u = f"$B${xrow}:${L(1 + n)}${xrow}", f"$B${yrow}:${L(1 + n)}${yrow}"
-        xs_v = f"${L(2 + n)}${xrow}:${L(1 + 2 * n)}${xrow}"
-        ys_v = f"${L(2 + n)}${yrow}:${L(1 + 2 * n)}${yrow}"
+            put_number(ws.cell(rp, c0 + 1 + n + i),
+                       f"=-{ue}*SIN({gamma})+{vn}*COS({gamma})", wind_format)
+        urow = f"{C[2]}{rp}:{C[1 + n]}{rp}"
+        vrow = f"{C[2 + n]}{rp}:{C[1 + 2 * n]}{rp}"
+        xs_u, ys_u = f"${C[2]}${xrow}:${C[1 + n]}${xrow}", f"${C[2]}${yrow}:${C[1 + n]}${yrow}"
+        xs_v = f"${C[2 + n]}${xrow}:${C[1 + 2 * n]}${xrow}"
+        ys_v = f"${C[2 + n]}${yrow}:${C[1 + 2 * n]}${yrow}"
         sxu, syu = f"SUMPRODUCT({xs_u},{urow})", f"SUMPRODUCT({ys_u},{urow})"
         sxv, syv = f"SUMPRODUCT({xs_v},{vrow})", f"SUMPRODUCT({ys_v},{vrow})"
         for j, formula in enumerate((f"=({syy}*{sxu}-{sxy}*{syu})/{det}",
                                      f"=({sxx}*{syu}-{sxy}*{sxu})/{det}",
                                      f"=({syy}*{sxv}-{sxy}*{syv})/{det}",
                                      f"=({sxx}*{syv}-{sxy}*{sxv})/{det}",
-                                     f"=B{rf}+E{rf}", f"=D{rf}-C{rf}"), start=2):
-            put_number(ws.cell(rf, j), formula, SCIENTIFIC)
-        put_number(ws.cell(rf, 8), f"=F{rf}/{number_text(1e-5)}", shown)
-        put_number(ws.cell(rf, 9), f"=G{rf}/{number_text(1e-5)}", shown)
-        divergence_cells.append(f"F{rf}")
+                                     f"={C[2]}{rf}+{C[5]}{rf}", f"={C[4]}{rf}-{C[3]}{rf}"),
+                                    start=2):
+            put_number(ws.cell(rf, c0 + j - 1), formula, SCIENTIFIC)
+        put_number(ws.cell(rf, c0 + 7), f"={C[6]}{rf}/{number_text(1e-5)}", shown)
+        put_number(ws.cell(rf, c0 + 8), f"={C[7]}{rf}/{number_text(1e-5)}", shown)
+        divergence_cells.append(f"{C[6]}{rf}")
     from layercalc.formats.xlsx.cells import size_columns
-    from layercalc.formats.xlsx.printing import fit_rows, keep_together, wrap_notes
+    from layercalc.formats.xlsx.printing import fit_rows, wrap_notes
 
-    last_column = max(len(GEOMETRY_HEADER), 1 + 2 * n, len(fit_titles))
-    size_columns(ws, {j: 13 for j in range(1, last_column + 1)})
+    last_column = c0 - 1 + max(1 + 2 * n, len(fit_titles))
+    size_columns(ws, {j: 11 for j in range(1, last_column + 1)} | {1: 19, c0 - 1: 3})
     wrap_notes(ws, range(1, len(notes) + 1), last_column)
-    fit_rows(ws, [top, east, plane, fit] + [b[0] + 1 for b in blocks[1:]], last_column)
-    keep_together(ws, blocks + [(row, east + levels), (positions, plane + levels),
-                                (fit, fit + levels)])
-    ws.print_area = f"A1:{letter(last_column)}{fit + levels}"
+    fit_rows(ws, [top] + heads, last_column)
+    ws.print_area = f"A1:{letter(last_column)}{row - 2}"
     return divergence_cells
 
 
