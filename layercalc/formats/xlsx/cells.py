@@ -48,6 +48,7 @@ def style(cell, name: str) -> None:
             "helper": {"font": Font(color="808080")},
             "static": {"fill": fill("FFF2CC")},
             "name": {"font": Font(bold=True)},
+            "unit": {"alignment": Alignment(indent=1)},  # apart from the number before it
             "check": {"font": Font(bold=True, color="375623")},
         })
     for attribute, value in _STYLES.get(name, {}).items():

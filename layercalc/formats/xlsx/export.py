@@ -240,7 +240,7 @@ def _settings_sheet(ws, checked, cells_si) -> dict[str, int]:
             else:
                 target.value = value
                 target.number_format = input_format([value])
-            style(target, "header" if i == 1 else ("note" if j == 4 else "value"))
+            style(target, "header" if i == 1 else {3: "unit", 4: "note"}.get(j, "value"))
     size_columns(ws, {1: 18, 2: 40, 3: 12, 4: 70})
     ws.freeze_panes = "A2"
     _lock_options(ws, option_rows, len(rows), checked.options)
