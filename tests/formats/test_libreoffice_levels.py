@@ -14,7 +14,7 @@ from openpyxl import load_workbook
 import layercalc
 from layercalc.constants import G0, RD
 from layercalc.formats.xlsx.export import write_workbook
-from layercalc.formats.xlsx.hydrostatic import table_rows
+from layercalc.formats.xlsx.hydrostatic import across_rows, table_rows
 from layercalc.formats.xlsx.reader import import_workbook
 from layercalc.physics import humidity
 
@@ -84,11 +84,25 @@ def assert_hydrostatic(calc_ws, live_ws, sheet, sounding: int = 0) -> list[str]:
     if tv is not None:
         columns[3], columns[4] = tv[:-1] - 273.15, tv[1:] - 273.15
     for column, want in columns.items():
-        cells = [calc_ws.cell(r, column).coordinate for r in rows]
+        want = np.asarray(want, dtype=float)
+        gap = ~np.isfinite(want)  # a layer layercalc cannot check on its own: "-" here
+        assert [calc_ws.cell(r, column).value for r in np.array(rows)[gap]] == ["-"] * gap.sum()
+        cells = [calc_ws.cell(r, column).coordinate for r in np.array(rows)[~gap]]
         # source: layercalc's hydrostatic check (soundings/levels.py) of the edited text
-        assert_recalculated(calc_ws, cells, np.asarray(want, dtype=float), f"column {column}")
+        assert_recalculated(calc_ws, cells, want[~gap], f"column {column}")
     flags = [calc_ws.cell(r, 9).value for r in rows]
-    assert flags == ["FLAG" if f else "ok" for f in table.flagged]
+    assert flags == ["FLAG" if f else "ok" if np.isfinite(d) else "not checked"
+                     for f, d in zip(table.flagged, table.difference)]
+    across = across_rows(live_ws, table.sounding)
+    assert len(across) == len(table.combined)
+    for row, layer in zip(across, table.combined):
+        for column, want in ((1, layer.p_bottom / 100.0), (2, layer.p_top / 100.0),
+                             (6, layer.observed_thickness), (7, layer.hypsometric_thickness),
+                             (8, layer.difference)):
+            # source: layercalc's check across the gap (CombinedLayer) of the edited text
+            assert abs(calc_ws.cell(row, column).value - want) <= TOLERANCE * max(
+                abs(want), abs(layer.observed_thickness)), (row, column)
+        assert calc_ws.cell(row, 9).value == ("FLAG" if layer.flagged else "ok")
     return flags
 
 

@@ -44,7 +44,8 @@ def test_layer_means_are_formulas_of_the_levels(tmp_path):
     assert workbook["levels"]["B6"].value == 6  # 850 hPa T as typed
 
 
-# a gap in Td at 850 hPa and a surface_pressure that cuts the 1000-850 hPa layer (made up)
+# a gap in Td at 850 hPa, no height at 500 hPa (the hydrostatic check skips the layers
+# beside it) and a surface_pressure that cuts the 1000-850 hPa layer (made up)
 GAP_AND_CUT = """title "Gap and cut"
 cell surface_height = 300 m
 cell surface_pressure = 970 hPa
@@ -54,7 +55,7 @@ levels
   1000   14.0    9.0    60   -1.2
   850     6.0    -    1510   -0.6
   700    -4.0  -12.0   3100    0.1
-  500   -20.0  -30.0   5650    0.8
+  500   -20.0  -30.0      -    0.8
   300   -44.0  -55.0   9300    0.5
 end
 """

@@ -114,8 +114,10 @@ def placed_soundings(workbook, checked, levels: Placed | None) -> list[Placed]:
     return found
 
 
-def hydrostatic_sheet(workbook, soundings: list[Placed], tolerance: float) -> None:
-    """Add the sheet with one live table per sounding (nothing when the list is empty)."""
+def hydrostatic_sheet(workbook, soundings: list[Placed], details) -> None:
+    """Add the sheet with one live table per sounding (nothing when the list is empty);
+    `details` (soundings.details.SoundingDetails) gives the tolerance and the layers
+    layercalc checked across gaps."""
     if not soundings:
         return
     ws = workbook.create_sheet(SHEET)
@@ -124,9 +126,10 @@ def hydrostatic_sheet(workbook, soundings: list[Placed], tolerance: float) -> No
              "(virtual temperature, linear in ln p). Edit a level's T, Td or z on '"
              + soundings[0].sheet + "' and this table follows.",
              "FLAG: |observed - hypsometric| exceeds the tolerance below. Layers SURFACE "
-             "FIRST. A layer with T or z blank at one of its levels is not checked here; "
-             "layercalc's report checks across such a gap and names the likely cause of "
-             "each flag (a mistyped height or temperature).",
+             "FIRST. A layer with T or z blank at one of its levels is not checked on its "
+             "own; below the table it is checked across the gap as layercalc checks it. "
+             "layercalc's report names the likely cause of each flag (a mistyped height or "
+             "temperature); this sheet does not.",
              "The check is for the reported sounding; the layers and results do not use the "
              "heights (they start at surface_height).")
     for row, text in enumerate(notes, start=1):
@@ -134,15 +137,37 @@ def hydrostatic_sheet(workbook, soundings: list[Placed], tolerance: float) -> No
         style(ws.cell(row, 1), "note")
     put_text(ws.cell(TOLERANCE_ROW, 1), "tolerance [m]")
     style(ws.cell(TOLERANCE_ROW, 1), "name")
-    ws.cell(TOLERANCE_ROW, 2, float(tolerance))
+    ws.cell(TOLERANCE_ROW, 2, float(details.hydrostatic_tolerance))
     put_text(ws.cell(TOLERANCE_ROW, 3), "per layer, layercalc's (cell hydrostatic_tolerance in "
              "the .layers file, 10 m if not given); another value here changes the flags of "
              "this sheet only, not layercalc's report")
     style(ws.cell(TOLERANCE_ROW, 3), "note")
     row = TOLERANCE_ROW + 2
+    tables = {table.sounding: table for table in details.hydrostatic}
     for sounding in soundings:
-        row = _table(ws, sounding, row) + 2
+        row = _table(ws, sounding, row, _combined(tables.get(sounding.name))) + 2
     size_columns(ws, {j: 13 for j in range(1, len(TITLES) + 1)})
+
+
+def _combined(table) -> list[tuple[int, int]]:
+    """The level pairs layercalc checked across gaps, as indices of the levels (surface
+    first: the layers' bottoms, then the top)."""
+    if table is None or not table.combined:
+        return []
+    levels = list(table.p_bottom) + [table.p_top[-1]]
+    return [(levels.index(c.p_bottom), levels.index(c.p_top)) for c in table.combined]
+
+
+def across_rows(ws, name: str) -> list[int]:
+    """The sheet rows of one sounding's checks across gaps (for tests)."""
+    row = table_rows(ws, name)[-1] + 2
+    if not str(ws.cell(row, 1).value or "").startswith(ACROSS_MARK):
+        return []
+    rows, row = [], row + 1
+    while ws.cell(row, 1).value is not None:
+        rows.append(row)
+        row += 1
+    return rows
 
 
 def table_rows(ws, name: str) -> list[int]:
@@ -155,35 +180,51 @@ def table_rows(ws, name: str) -> list[int]:
     return rows
 
 
-def _table(ws, s: Placed, row: int) -> int:
-    """Write one sounding's table from `row`; returns its last row."""
+ACROSS_MARK = "across a gap"
+
+
+def _table(ws, s: Placed, row: int, combined: list) -> int:
+    """Write one sounding's table from `row`, then its rows across gaps (`combined`: pairs
+    of levels, as layercalc checks them where a level between lacks T or z); returns the
+    last row written."""
+    put_text(ws.cell(row, 1), f"{MARK} of {s.name}")
+    style(ws.cell(row, 1), "group")
+    for j, title in enumerate(TITLES, start=1):
+        put_text(ws.cell(row + 1, j), title)
+        style(ws.cell(row + 1, j), "header")
+    first = row + 2
+    last = _rows(ws, s, first, [(k, k + 1) for k in range(s.levels - 1)])
+    if combined:
+        put_text(ws.cell(last + 2, 1), f"{ACROSS_MARK}: layercalc's check where a level "
+                 "between lacks T or z, from the nearest levels that have both (the levels "
+                 "as exported)")
+        style(ws.cell(last + 2, 1), "note")
+        last = _rows(ws, s, last + 3, combined)
+    red_when(ws, f"I{first}:I{last}", f'$I{first}="FLAG"')
+    return last
+
+
+def _rows(ws, s: Placed, first: int, pairs: list) -> int:
+    """One row per (bottom, top) pair of levels from row `first`; returns the last row."""
+    from openpyxl.styles import Alignment
+
     from layercalc.language.unit_text import parse_unit_string
 
     hpa, celsius = parse_unit_string("hPa"), parse_unit_string("degC")
-    put_text(ws.cell(row, 1), f"{MARK} of {s.name}")
-    style(ws.cell(row, 1), "group")
-    header = row + 1
-    for j, title in enumerate(TITLES, start=1):
-        put_text(ws.cell(header, j), title)
-        style(ws.cell(header, j), "header")
     tolerance = f"$B${TOLERANCE_ROW}"
     rd, g0 = number_text(C.RD), number_text(C.G0)
-    first = header + 1
-    from openpyxl.styles import Alignment
-
     centred = Alignment(horizontal="center")
-    for k in range(s.levels - 1):
-        r = first + k
-        bottom, top = s.si("p", k), s.si("p", k + 1)
+    for r, (a, b) in enumerate(pairs, start=first):
+        bottom, top = s.si("p", a), s.si("p", b)
         log_ratio = f"LN({bottom}/{top})"
         cells = [
             "=" + from_si(bottom, hpa),
             "=" + from_si(top, hpa),
             *(f'=IF(ISNUMBER({s.ref("T", i)}),'
-              f'{from_si(level_virtual_temperature(s, i), celsius)},"-")' for i in (k, k + 1)),
+              f'{from_si(level_virtual_temperature(s, i), celsius)},"-")' for i in (a, b)),
             f'=IF(COUNT(C{r}:D{r})=2,(C{r}+D{r})/2,"-")',
-            f'=IF(COUNT({s.ref("z", k)},{s.ref("z", k + 1)})=2,'
-            f'{s.si("z", k + 1)}-{s.si("z", k)},"-")',
+            f'=IF(COUNT({s.ref("z", a)},{s.ref("z", b)})=2,'
+            f'{s.si("z", b)}-{s.si("z", a)},"-")',
             f'=IF(ISNUMBER(E{r}),{hypsometric_thickness_text(to_si(f"E{r}", celsius), bottom, top)},"-")',
             f'=IF(COUNT(F{r}:G{r})=2,F{r}-G{r},"-")',
             f'=IF(ISNUMBER(H{r}),IF(ABS(H{r})>{tolerance},"FLAG","ok"),"{NOT_CHECKED}")',
@@ -193,7 +234,4 @@ def _table(ws, s: Placed, row: int) -> int:
             cell = ws.cell(r, j, text)
             cell.number_format = form
         ws.cell(r, 9).alignment = centred
-    last = first + s.levels - 2
-    flags = f"I{first}:I{last}"
-    red_when(ws, flags, f'$I{first}="FLAG"')
-    return last
+    return first + len(pairs) - 1

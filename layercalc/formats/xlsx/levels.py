@@ -267,8 +267,7 @@ def live_inputs(workbook, checked):
                       level_pressure.size)
     elif cell is not None:  # an input kept as a value: the cut stays where it was
         formulas.surface = number_text(float(cell.value))
-    hydrostatic_sheet(workbook, [s for s in soundings if s.checked],
-                      details.hydrostatic_tolerance)
+    hydrostatic_sheet(workbook, [s for s in soundings if s.checked], details)
     return formulas.layer
 
 
