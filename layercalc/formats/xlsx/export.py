@@ -122,7 +122,7 @@ def build_workbook(sheet) -> "Built":
     notes_sheet(workbook.create_sheet("notes"), checked, found, __version__, CAUTION)
     page_setup(layers, CAUTION, "1:1")
     page_setup(workbook["settings"], CAUTION, "1:1")
-    for name in ("stations", "levels", "hydrostatic"):
+    for name in ("stations", "levels"):  # hydrostatic.py sets up its own sheet
         if name in workbook.sheetnames:
             page_setup(workbook[name], CAUTION)
     wrap_columns(workbook["settings"], {1: 18, 2: 30, 3: 12, 4: 70},

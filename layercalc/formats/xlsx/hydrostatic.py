@@ -34,6 +34,10 @@ TITLES = ("p_bottom [hPa]", "p_top [hPa]", "Tv bottom [degC]", "Tv top [degC]",
           "difference [m]", "flag", "implied Tv [degC]")
 FORMATS = ("0", "0", "0.00", "0.00", "0.00", "0.0", "0.0", "0.0", "@", "0.00")
 NOT_CHECKED = "not checked"
+# Rows printed on one A4 landscape page at no less than about 70 % of full size (35 rows
+# at full size; own measure with LibreOffice, no source): a sheet up to this long is fitted
+# to one page, a longer one prints on as many pages as it needs at full width.
+ONE_PAGE_ROWS = 50
 
 
 @dataclass(frozen=True)
@@ -138,15 +142,24 @@ def hydrostatic_sheet(workbook, soundings: list[Placed], details) -> None:
     put_text(ws.cell(TOLERANCE_ROW, 1), "tolerance [m]")
     style(ws.cell(TOLERANCE_ROW, 1), "name")
     ws.cell(TOLERANCE_ROW, 2, float(details.hydrostatic_tolerance))
-    put_text(ws.cell(TOLERANCE_ROW, 3), "per layer, layercalc's (cell hydrostatic_tolerance in "
-             "the .layers file, 10 m if not given); another value here changes the flags of "
-             "this sheet only, not layercalc's report")
-    style(ws.cell(TOLERANCE_ROW, 3), "note")
-    row = TOLERANCE_ROW + 2
+    put_text(ws.cell(TOLERANCE_ROW + 1, 1), "The tolerance per layer is layercalc's (cell "
+             "hydrostatic_tolerance in the .layers file, 10 m if not given); another value "
+             "here changes the flags of this sheet only, not layercalc's report.")
+    style(ws.cell(TOLERANCE_ROW + 1, 1), "note")
+    size_columns(ws, {j: 13 for j in range(1, len(TITLES) + 1)})
+    row, notes_rows = TOLERANCE_ROW + 3, [*range(1, len(notes) + 1), TOLERANCE_ROW + 1]
     tables = {table.sounding: table for table in details.hydrostatic}
     for sounding in soundings:
-        row = _table(ws, sounding, row, _combined(tables.get(sounding.name))) + 2
-    size_columns(ws, {j: 13 for j in range(1, len(TITLES) + 1)})
+        last, across = _table(ws, sounding, row, _combined(tables.get(sounding.name)))
+        notes_rows += across
+        row = last + 2
+    from layercalc.caution import CAUTION
+    from layercalc.formats.xlsx.printing import page_setup, wrap_notes
+
+    wrap_notes(ws, notes_rows, len(TITLES))  # so that no note widens the printed page
+    page_setup(ws, CAUTION)
+    if ws.max_row <= ONE_PAGE_ROWS:  # a few soundings: one page, still readable
+        ws.page_setup.fitToHeight = 1
 
 
 def _combined(table) -> list[tuple[int, int]]:
@@ -183,10 +196,10 @@ def table_rows(ws, name: str) -> list[int]:
 ACROSS_MARK = "across a gap"
 
 
-def _table(ws, s: Placed, row: int, combined: list) -> int:
+def _table(ws, s: Placed, row: int, combined: list) -> tuple[int, list]:
     """Write one sounding's table from `row`, then its rows across gaps (`combined`: pairs
     of levels, as layercalc checks them where a level between lacks T or z); returns the
-    last row written."""
+    last row written and the rows of its notes."""
     put_text(ws.cell(row, 1), f"{MARK} of {s.name}")
     style(ws.cell(row, 1), "group")
     for j, title in enumerate(TITLES, start=1):
@@ -194,6 +207,7 @@ def _table(ws, s: Placed, row: int, combined: list) -> int:
         style(ws.cell(row + 1, j), "header")
     first = row + 2
     last = _rows(ws, s, first, [(k, k + 1) for k in range(s.levels - 1)])
+    notes = [last + 2] if combined else []
     if combined:
         put_text(ws.cell(last + 2, 1), f"{ACROSS_MARK}: layercalc's check where a level "
                  "between lacks T or z, from the nearest levels that have both (the levels "
@@ -201,7 +215,7 @@ def _table(ws, s: Placed, row: int, combined: list) -> int:
         style(ws.cell(last + 2, 1), "note")
         last = _rows(ws, s, last + 3, combined)
     red_when(ws, f"I{first}:I{last}", f'$I{first}="FLAG"')
-    return last
+    return last, notes
 
 
 def _rows(ws, s: Placed, first: int, pairs: list) -> int:

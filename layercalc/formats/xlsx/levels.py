@@ -102,7 +102,10 @@ def levels_sheet(ws, live: LiveLevels) -> dict:
 
     size_columns(ws, {j: 14 for j in range(1, len(table.headings) + 1)})
     side = len(table.headings) + 2
-    size_columns(ws, {side: 26})
+    size_columns(ws, {side: 50})  # the check texts whole: they do not widen the page
+    from layercalc.formats.xlsx.printing import wrap_notes
+
+    wrap_notes(ws, range(1, len(notes) + 1), side)
     # the level count the formulas cover, read back by levels_block (a level added)
     put_text(ws.cell(HEADER_ROW - 1, side), COUNT_LABEL)
     style(ws.cell(HEADER_ROW - 1, side), "name")
