@@ -35,14 +35,7 @@ def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
     the exact (min, max) of each changed column where the changes' own checks found them
     (for engine.evaluate's input_bounds)."""
     bounds = {} if bounds is None else bounds
-    columns = {n: c.values[None, :] for n, c in checked_sheet.input_columns.items()}
-    cells = {n: np.array([[c.value]]) for n, c in checked_sheet.input_cells.items()}
-    for sc in scenarios:
-        for name, value in sc.cells.items():
-            cells[name] = np.array([[value]])
-    for name, values in (cell_values or {}).items():
-        cells[name] = np.asarray(values, dtype=float).reshape(-1, 1)
-    env = Environment(columns, cells, checked_sheet.layer_count)
+    columns, cells, env = _inputs(checked_sheet, scenarios, cell_values)
     with np.errstate(all="ignore"):
         columns.update(rebuilt_columns(checked_sheet, scenarios, env.run))  # level changes
         for sc in scenarios:
@@ -72,6 +65,27 @@ def apply_changes(checked_sheet, scenarios: list[CheckedScenario],
                 bounds.pop(ch.target, None)
                 _still_physical(checked_sheet, sc, ch, columns[ch.target])
     return columns, cells
+
+
+def _inputs(checked_sheet, scenarios, cell_values=None):
+    """The base input arrays with the scenarios' cells set, and an Environment over them."""
+    columns = {n: c.values[None, :] for n, c in checked_sheet.input_columns.items()}
+    cells = {n: np.array([[c.value]]) for n, c in checked_sheet.input_cells.items()}
+    for sc in scenarios:
+        for name, value in sc.cells.items():
+            cells[name] = np.array([[value]])
+    for name, values in (cell_values or {}).items():
+        cells[name] = np.asarray(values, dtype=float).reshape(-1, 1)
+    return columns, cells, Environment(columns, cells, checked_sheet.layer_count)
+
+
+def rebuilt_inputs(checked_sheet, name: str) -> dict[str, np.ndarray]:
+    """The layer columns (SI, one value per layer) a named scenario rebuilds from its
+    changed soundings, before its changes to layer columns (for the workbook)."""
+    scenarios = chain(checked_sheet, name)
+    _, _, env = _inputs(checked_sheet, scenarios)
+    with np.errstate(all="ignore"):
+        return {n: v[0] for n, v in rebuilt_columns(checked_sheet, scenarios, env.run).items()}
 
 
 def _changed_layers(current, layers, amount, action: str) -> np.ndarray:

@@ -10,8 +10,10 @@ the exporter, and Result.layers / Result.cells directly).
 
 Relative difference: |calc - layercalc| / max(|layercalc|, m), below 1e-9, where m is the
 largest magnitude of the same column of the layer table (or of the chart data) for layer
-rows, and |layercalc| alone for single cells: an omega that is zero up to rounding at the
-top of a column is compared on the scale of that column's omega.
+rows, the largest magnitude of its row for a cell of `compare` (a difference of two equal
+heights is 0 in one program and 1e-12 in the other), and |layercalc| alone for other single
+cells: an omega that is zero up to rounding at the top of a column is compared on the scale
+of that column's omega.
 Skipped only when soffice is not installed (CI installs libreoffice-calc-nogui).
 """
 
@@ -25,6 +27,7 @@ import zipfile
 from pathlib import Path
 
 import numpy as np
+from numpy.testing import assert_allclose
 import pytest
 from openpyxl import load_workbook
 
@@ -125,13 +128,16 @@ def recalculated(tmp_path_factory):
     return exported, converted, edited, stale, what_if
 
 
-def compare_sheets(live_path: Path, calc_path: Path) -> tuple[int, float, list]:
-    """Every formula cell of the live sheets against the exporter's values twin (layercalc's
-    numbers). Returns (cells compared, worst relative difference, failures)."""
+def compare_sheets(live_path: Path, calc_path: Path, want_path: Path | None = None,
+                   only: tuple = ()) -> tuple[int, float, list]:
+    """Every formula cell of the live sheets (those in `only`, if given) against the
+    exporter's values twin (layercalc's numbers), of the same workbook or of `want_path`.
+    Returns (cells compared, worst relative difference, failures)."""
     live = load_workbook(live_path)
     calc = load_workbook(calc_path, data_only=True)
+    wanted = load_workbook(want_path) if want_path is not None else live
     twin_of = {}
-    for name in live.sheetnames:
+    for name in [n for n in live.sheetnames if not only or n in only]:
         if name == "results":
             twin_of[name] = "values"
         elif name.startswith("results_"):
@@ -140,7 +146,7 @@ def compare_sheets(live_path: Path, calc_path: Path) -> tuple[int, float, list]:
             twin_of[name] = "values_compare"
     count, worst, failures = 0, 0.0, []
     for name, twin in twin_of.items():
-        ws, want_ws, got_ws = live[name], live[twin], calc[name]
+        ws, want_ws, got_ws = live[name], wanted[twin], calc[name]
         layers = sum(1 for r in range(FIRST_ROW, ws.max_row + 1)
                      if str(ws.cell(r, 1).value or "").startswith("='layers'!")) \
             if name != "compare" else 0
@@ -160,7 +166,9 @@ def compare_sheets(live_path: Path, calc_path: Path) -> tuple[int, float, list]:
                     if got != want:
                         failures.append((name, cell.coordinate, got, want))
                     continue
-                if FIRST_ROW <= cell.row < FIRST_ROW + layers:
+                if name == "compare":  # a difference on the scale of what it compares
+                    group = ("row", cell.row)
+                elif FIRST_ROW <= cell.row < FIRST_ROW + layers:
                     group = ("layers", cell.column)
                 elif cell.row > chart_start:
                     group = ("chart", cell.column)
@@ -222,22 +230,31 @@ def assert_recalculated(calc, cells, want: np.ndarray, name: str) -> None:
     assert np.all(np.abs(got - want) / relative_scale(want) < TOLERANCE), (name, got, want)
 
 
+def assert_results_moved(edited, result, before, live_ws, calc_ws) -> set:
+    """Every derived column and cell of a results sheet as recalculated equals `result`
+    (layercalc's evaluation of the edited file); returns the names that moved from
+    `before` (the evaluation before the edit)."""
+    moved = set()
+    for formula, cells in derived_places(edited, live_ws):
+        want = (result.layers[formula.name].to_numpy() if formula.kind == "column"
+                else np.array([result.cells[formula.name]]))
+        old = (before.layers[formula.name].to_numpy() if formula.kind == "column"
+               else np.array([before.cells[formula.name]]))
+        assert_recalculated(calc_ws, cells, want, formula.name)
+        if np.any(np.abs(old - want) / relative_scale(want) > 1e-6):
+            moved.add(formula.name)
+    return moved
+
+
 def check_follows_edit(calc_path: Path, original_path: Path) -> None:
     sheet = layercalc.loads(edited_text(), name="edited.layers")
     result = sheet.evaluate()
     live = load_workbook(original_path)["results"]
     calc = load_workbook(calc_path, data_only=True)["results"]
     before = case_sheet("every_function").evaluate()
-    moved = 0
-    for formula, cells in derived_places(sheet, live):
-        want = (result.layers[formula.name].to_numpy() if formula.kind == "column"
-                else np.array([result.cells[formula.name]]))
-        old = (before.layers[formula.name].to_numpy() if formula.kind == "column"
-               else np.array([before.cells[formula.name]]))
-        # source: layercalc's evaluation of the case with the same edit made in the text
-        assert_recalculated(calc, cells, want, formula.name)
-        moved += int(np.any(np.abs(old - want) / relative_scale(want) > 1e-6))
-    assert moved >= 10  # the edit reaches thickness, heights, lapse rate, ...
+    # source: layercalc's evaluation of the case with the same edit made in the text
+    moved = assert_results_moved(sheet, result, before, live, calc)
+    assert len(moved) >= 10  # the edit reaches thickness, heights, lapse rate, ...
 
 
 def test_an_edit_in_layers_flows_through_the_formulas(recalculated):
@@ -544,15 +561,7 @@ def test_a_station_wind_turned_in_the_workbook_moves_divergence_omega_and_the_te
     div_column = [c.column for c in layers[1] if c.value == "div [1e-5 s^-1]"][0]
     div_cells = [layers.cell(2 + k, div_column).coordinate for k in range(sheet.checked.layer_count)]
     assert_recalculated(layers, div_cells, result.layers["div"].to_numpy(), "layer div")
-    moved = set()
-    for formula, cells in derived_places(edited, live["results"]):
-        want = (result.layers[formula.name].to_numpy() if formula.kind == "column"
-                else np.array([result.cells[formula.name]]))
-        old = (before.layers[formula.name].to_numpy() if formula.kind == "column"
-               else np.array([before.cells[formula.name]]))
-        assert_recalculated(calc["results"], cells, want, formula.name)
-        if np.any(np.abs(old - want) / relative_scale(want) > 1e-6):
-            moved.add(formula.name)
+    moved = assert_results_moved(edited, result, before, live["results"], calc["results"])
     # the turn reaches omega and the tendency (about 7 hPa/3h, the case's comment)
     assert {"omega_bottom", "omega_top", "surface_pressure_tendency"} <= moved, moved
     assert_summary(calc["results"], live["results"], result.summary, 1)
@@ -585,14 +594,212 @@ def test_a_level_edited_in_the_workbook_moves_its_two_layers_and_the_results(tmp
     for j, name in enumerate(sheet.checked.input_columns, start=1):
         cells = [layers.cell(2 + k, j).coordinate for k in range(sheet.checked.layer_count)]
         assert_recalculated(layers, cells, result.layers[name].to_numpy(), name)
-    moved = set()
-    for formula, cells in derived_places(edited, live["results"]):
-        want = (result.layers[formula.name].to_numpy() if formula.kind == "column"
-                else np.array([result.cells[formula.name]]))
-        old = (before.layers[formula.name].to_numpy() if formula.kind == "column"
-               else np.array([before.cells[formula.name]]))
-        assert_recalculated(calc["results"], cells, want, formula.name)
-        if np.any(np.abs(old - want) / relative_scale(want) > 1e-6):
-            moved.add(formula.name)
+    moved = assert_results_moved(edited, result, before, live["results"], calc["results"])
     assert {"thickness", "z_top", "Tv"} <= moved, moved
     assert_summary(calc["results"], live["results"], result.summary, 1)
+
+
+def test_a_scenario_that_changes_station_winds_follows_a_wind_and_a_what_if_cell(tmp_path):
+    # The case's scenario eastmoor_turned turns Eastmoor's 300 hPa wind by the what-if
+    # cell `turn` (5 deg), on its own sheet stations_eastmoor_turned with its own fit.
+    # Edited in the workbook: Eastmoor's 500 hPa speed on `stations` (53 -> 58 kt) and
+    # `turn` in `settings` (5 -> 8 deg). LibreOffice recalculates.
+    sheet = case_sheet("three_stations")
+    path = tmp_path / "scenario_winds.xlsx"
+    write_workbook(sheet, path)
+    workbook = load_workbook(path)
+    assert "stations_eastmoor_turned" in workbook.sheetnames
+    cell = station_wind_cell(workbook["stations"], "Eastmoor", 500, "speed")
+    assert workbook["stations"][cell].value == 53
+    workbook["stations"][cell].value = 58.0
+    rows = [c.row for c in workbook["settings"]["A"] if c.value == "turn"]
+    assert len(rows) == 1 and workbook["settings"].cell(rows[0], 2).value == 5
+    workbook["settings"].cell(rows[0], 2).value = 8.0
+    workbook.save(path)
+    calc_path = convert([path], tmp_path / "out", tmp_path / "profile")[path]
+    from tests.formats.test_xlsx_export import worked_cases_folder
+
+    text = (worked_cases_folder() / "three_stations.layers").read_text()
+    old_500 = "       500    -18.4     -24.5    5609    232     53"
+    assert text.count(old_500) == 1 and text.count("cell turn = 5 deg") == 1
+    edited_text = text.replace(old_500, old_500[:-2] + "58").replace(
+        "cell turn = 5 deg", "cell turn = 8 deg")
+    edited = layercalc.loads(edited_text, name="edited.layers")
+    # source for every expectation below: layercalc's evaluation of the .layers file with
+    # the same two edits typed in (its workbook's values twins hold that evaluation)
+    want_path = tmp_path / "edited.xlsx"
+    write_workbook(edited, want_path)
+    count, worst, failures = compare_sheets(
+        path, calc_path, want_path,
+        only=("results_eastmoor_turned", "results_eastmoor_faster", "compare"))
+    assert not failures, failures[:5]
+    assert count > 200
+    print(f"scenario sheets and compare: {count} cells, worst relative difference {worst:.2e}")
+    live = load_workbook(path)
+    calc = load_workbook(calc_path, data_only=True)
+    before = sheet.evaluate("eastmoor_turned")
+    result = edited.evaluate("eastmoor_turned")
+    moved = assert_results_moved(edited, result, before, live["results_eastmoor_turned"], calc["results_eastmoor_turned"])
+    assert {"omega_bottom", "surface_pressure_tendency"} <= moved, moved
+    assert_summary(calc["results_eastmoor_turned"], live["results_eastmoor_turned"],
+                   result.summary, 1)
+    # the scenario's own fit: the level divergences of the file with the scenario's turn
+    # typed in too (Eastmoor's 300 hPa wind 243 + 8 = 251 deg; same file with the change
+    # typed in, common practice)
+    eastmoor_300 = "       300    -43.0     -51.5    9237    243     83"
+    typed = layercalc.loads(edited_text.replace(eastmoor_300,
+                                                eastmoor_300.replace("243", "251")),
+                            name="typed.layers")
+    levels = typed.checked.soundings.network.levels
+    cells = fit_column(live["stations_eastmoor_turned"], "divergence [s^-1]")
+    assert_recalculated(calc["stations_eastmoor_turned"], cells, levels.divergence,
+                        "scenario level divergence")
+    assert_allclose(result.si_columns["div"], typed.evaluate().si_columns["div"], rtol=1e-12)
+
+
+LEVELS_SCENARIO = """cell warming = 2 K
+scenario warm_aloft
+  add warming to T at levels above 700 hPa
+  scale div by 2 at levels below 850 hPa
+  add 0.1 [1e-5 s^-1] to div above 500 hPa
+end
+"""
+
+
+def test_a_scenario_that_changes_level_values_follows_a_level_and_a_what_if_cell(tmp_path):
+    # A levels table with a scenario on its levels (and a change to a layer column on
+    # top): the scenario's sheet levels_warm_aloft replays the changes on the levels;
+    # edited in the workbook: the 700 hPa T on `levels` (-4 -> 1 degC) and `warming` in
+    # `settings` (2 -> 4 K). LibreOffice recalculates.
+    from tests.formats.test_xlsx_levels import LEVELS
+
+    sheet = layercalc.loads(LEVELS + LEVELS_SCENARIO, name="levels.layers")
+    path = tmp_path / "levels_scenario.xlsx"
+    write_workbook(sheet, path)
+    workbook = load_workbook(path)
+    assert "levels_warm_aloft" in workbook.sheetnames
+    levels = workbook["levels"]
+    row = [c.row for c in levels["A"] if c.value == 700][0]
+    assert levels.cell(row, 2).value == -4
+    levels.cell(row, 2).value = 1.0
+    rows = [c.row for c in workbook["settings"]["A"] if c.value == "warming"]
+    assert len(rows) == 1 and workbook["settings"].cell(rows[0], 2).value == 2
+    workbook["settings"].cell(rows[0], 2).value = 4.0
+    workbook.save(path)
+    calc_path = convert([path], tmp_path / "out", tmp_path / "profile")[path]
+    old_row, new_row = "  700    -4.0  -12.0", "  700     1.0  -12.0"
+    assert LEVELS.count(old_row) == 1
+    edited = layercalc.loads((LEVELS + LEVELS_SCENARIO).replace(old_row, new_row).replace(
+        "cell warming = 2 K", "cell warming = 4 K"), name="edited.layers")
+    # source: layercalc's evaluation of the .layers file with the same two edits typed in
+    want_path = tmp_path / "edited.xlsx"
+    write_workbook(edited, want_path)
+    count, worst, failures = compare_sheets(path, calc_path, want_path,
+                                            only=("results_warm_aloft", "compare"))
+    assert not failures, failures[:5]
+    assert count > 100
+    print(f"levels scenario and compare: {count} cells, worst relative difference {worst:.2e}")
+    live = load_workbook(path)["results_warm_aloft"]
+    calc = load_workbook(calc_path, data_only=True)["results_warm_aloft"]
+    result = edited.evaluate("warm_aloft")
+    for j, name in enumerate(sheet.checked.input_columns, start=1):
+        cells = [live.cell(FIRST_ROW + k, j).coordinate for k in range(sheet.checked.layer_count)]
+        assert all(live[c].data_type == "f" for c in cells), name  # live, not values
+        assert_recalculated(calc, cells, result.layers[name].to_numpy(), name)
+
+
+def settings_edited_and_compared(tmp_path, text: str, edits: list, sheets: tuple):
+    """Export `text`, edit what-if cells in `settings` ((name, old, new, unit) each: the
+    file's `cell name = old unit` becomes new), let LibreOffice recalculate, and compare
+    every formula cell of `sheets` with layercalc's evaluation of the file with the same
+    edits typed in (its workbook's values twins). Returns (sheet, path, count, worst)."""
+    sheet = layercalc.loads(text, name="case.layers")
+    path = tmp_path / "case.xlsx"
+    write_workbook(sheet, path)
+    workbook = load_workbook(path)
+    settings = workbook["settings"]
+    typed = text
+    for name, old, new, unit in edits:
+        rows = [c.row for c in settings["A"] if c.value == name]
+        assert len(rows) == 1 and settings.cell(rows[0], 2).value == old
+        settings.cell(rows[0], 2).value = new
+        written = f"cell {name} = {old} {unit}".rstrip()
+        assert typed.count(written) == 1, written
+        typed = typed.replace(written, f"cell {name} = {new} {unit}".rstrip())
+    workbook.save(path)
+    calc_path = convert([path], tmp_path / "out", tmp_path / "profile")[path]
+    # source: layercalc's evaluation of the .layers file with the same edits typed in
+    want_path = tmp_path / "edited.xlsx"
+    write_workbook(layercalc.loads(typed, name="edited.layers"), want_path)
+    count, worst, failures = compare_sheets(path, calc_path, want_path, only=sheets)
+    assert not failures, failures[:5]
+    assert count > 200
+    return sheet, path, count, worst
+
+
+def test_a_scenario_on_every_station_and_a_station_temperature_is_live(tmp_path):
+    # every station's upper winds scaled by a what-if cell, and one station's low-level T
+    # warmed (the column's T is the stations' mean): both live on the scenario's copy of
+    # the stations sheet. Edited: `gust` in settings (1.2 -> 1.1) and `warming` (2 -> 3 K).
+    from tests.formats.test_xlsx_export import worked_cases_folder
+
+    extra = """
+cell gust = 1.2
+cell warming = 2 K
+scenario gusty_warm
+  scale speed by gust at every station above 500 hPa
+  add warming to T at "Southvale" below 850 hPa
+end
+"""
+    text = (worked_cases_folder() / "three_stations.layers").read_text() + extra
+    sheet, path, count, worst = settings_edited_and_compared(
+        tmp_path, text, [("gust", 1.2, 1.1, ""), ("warming", 2, 3.0, "K")],
+        ("results_gusty_warm", "compare"))
+    print(f"every station and T: {count} cells, worst relative difference {worst:.2e}")
+    workbook = load_workbook(path)
+    assert workbook["stations_gusty_warm"].sheet_state == "hidden"
+    live = workbook["results_gusty_warm"]
+    for j, name in enumerate(sheet.checked.input_columns, start=1):
+        if name in ("T", "div"):  # rebuilt from the scenario's stations copy: formulas
+            assert "'stations_gusty_warm'!" in live.cell(FIRST_ROW, j).value, name
+
+
+COMBINED_LEVELS = """
+levels
+  p [hPa]  T [degC]  Td [degC]  z [m]
+  1000   13.6   11.0    104
+   925    8.9    7.5    756
+   850    5.8    3.4   1453
+   700   -2.6   -6.0   3019
+   500  -18.4  -24.5   5609
+   400  -29.0  -37.0   7239
+   300  -43.0  -51.5   9237
+   250  -50.6  -59.5  10445
+   200  -55.8  -66.5  11881
+end
+cell turn = 5 deg
+cell warming = 1 K
+scenario both
+  add turn to dir at every station above 700 hPa
+  add warming to T at levels between 850 hPa and 500 hPa
+end
+"""
+
+
+def test_a_scenario_on_stations_and_on_a_levels_table_together_is_live(tmp_path):
+    # stations (div) with a top-level levels table (T, Td; made-up values): the scenario
+    # turns every station's upper winds and warms mid levels of the table, each on its
+    # hidden copy. Edited: `turn` (5 -> 8 deg) and `warming` (1 -> 2 K) in settings.
+    from tests.formats.test_xlsx_export import worked_cases_folder
+
+    stations = (worked_cases_folder() / "three_stations.layers").read_text()
+    text = stations.split("\n# What-if")[0] + COMBINED_LEVELS
+    sheet, path, count, worst = settings_edited_and_compared(
+        tmp_path, text, [("turn", 5, 8.0, "deg"), ("warming", 1, 2.0, "K")],
+        ("results_both", "compare"))
+    print(f"stations and levels together: {count} cells, worst relative difference "
+          f"{worst:.2e}")
+    live = load_workbook(path)["results_both"]
+    formulas = {name: live.cell(FIRST_ROW, j).value
+                for j, name in enumerate(sheet.checked.input_columns, start=1)}
+    assert "'stations_both'!" in formulas["div"] and "'levels_both'!" in formulas["T"]

@@ -215,3 +215,19 @@ def test_a_level_added_in_the_workbook_is_warned_about_on_import(tmp_path):
     assert any("the levels table has 6 levels but this workbook's own formulas cover the 5"
                in m for m in messages), messages
     assert imported.sheet.checked.layer_count == 5  # layercalc uses every level
+
+
+def test_a_scenario_on_the_levels_has_its_own_levels_sheet(tmp_path):
+    # numbers checked by LibreOffice in test_libreoffice.py
+    # (test_a_scenario_that_changes_level_values_follows_a_level_and_a_what_if_cell)
+    text = LEVELS + ("cell warming = 2 K\nscenario warm\n"
+                     "  add warming to T at levels above 700 hPa\nend\n")
+    path = tmp_path / "levels.xlsx"
+    write_workbook(layercalc.loads(text, name="levels.layers"), path)
+    workbook = load_workbook(path)
+    ws = workbook["levels_warm"]
+    assert ws["B5"].value == "='levels'!B5"  # 1000 hPa T: unchanged, a link
+    assert ws["B7"].value.startswith("=((('levels'!B7+273.15)+'results_warm'!$B$")  # 700 hPa
+    results = workbook["results_warm"]
+    assert results["C6"].value.startswith("=((('levels_warm'!B5+273.15)+('levels_warm'!B6")
+    assert results["D6"].value == "='layers'!D2"  # Td: not changed

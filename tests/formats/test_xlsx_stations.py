@@ -107,3 +107,41 @@ def test_the_stations_sheet_prints_readably_with_every_computed_cell_formatted(t
     assert stations["O41"].number_format == "0.000E+00"  # divergence in s^-1
     assert stations["Q41"].number_format == "0.000"  # divergence in 1e-5 s^-1
     assert stations["Q41"].value == "=O41/1E-05"  # the stored formula in full
+
+
+def test_a_scenario_that_turns_a_wind_has_its_own_live_stations_sheet(tmp_path):
+    # worked case: scenario eastmoor_turned adds the what-if cell `turn` to Eastmoor's
+    # 300 hPa direction; the numbers are checked by LibreOffice in test_libreoffice.py
+    # (test_a_scenario_that_changes_station_winds_follows_a_wind_and_a_what_if_cell)
+    _, workbook = exported(tmp_path)
+    ws = workbook["stations_eastmoor_turned"]
+    stations = workbook["stations"]
+    typed = [c.row for c in ws["A"] if c.value == STATION_MARK and c.row > GEOMETRY_HEADER_ROW]
+    eastmoor = typed[1]
+    rows = {stations.cell(r, 1).value: r for r in range(eastmoor + 2, eastmoor + 11)}
+    changed = ws.cell(rows[300], 5).value  # Eastmoor's 300 hPa dir
+    assert changed.startswith("=MOD((('stations'!E") and "'results_eastmoor_turned'!$B$" in changed
+    assert changed.endswith(",2*PI())/0.017453292519943295"), changed
+    assert ws.cell(rows[500], 5).value == f"='stations'!E{rows[500]}"  # unchanged: a link
+    assert ws.cell(rows[300], 6).value == f"='stations'!F{rows[300]}"
+    assert ws["B6"].value == "='stations'!B6"  # positions link to the base sheet
+    results = workbook["results_eastmoor_turned"]
+    div = [c.column for c in results[5] if c.value == "div [1e-5 s^-1]"][0]
+    assert results.cell(6, div).value.startswith("=('stations_eastmoor_turned'!")
+    # the what-if cell the amount reads is the results sheet's link to settings
+    cell_row = int(changed.split("'results_eastmoor_turned'!$B$")[1].split("*")[0].rstrip(")"))
+    assert results.cell(cell_row, 1).value == "turn"
+
+
+def test_export_import_export_keeps_a_station_scenario(tmp_path):
+    from tests.formats.test_xlsx_import import assert_same_results
+
+    sheet = case_sheet("three_stations")
+    path, _ = exported(tmp_path)
+    again = import_workbook(path, layercalc.loads).sheet
+    assert again.scenarios == ["eastmoor_turned", "eastmoor_faster"]
+    # source: layercalc's evaluation of the worked case itself
+    assert_same_results(sheet, again, sheet.scenarios, rtol=1e-12)
+    second = tmp_path / "second.xlsx"
+    write_workbook(again, second)
+    assert load_workbook(second)["stations_eastmoor_turned"].sheet_state == "hidden"

@@ -84,12 +84,16 @@ class ColumnFormulas:
     def layer(self, name: str, k: int, unit) -> str | None:
         """The layers sheet's `name` of layer k (surface first); None for an input kept as
         a value (no source)."""
+        text = self.layer_si(name, k)
+        return None if text is None else "=" + from_si(text, unit)
+
+    def layer_si(self, name: str, k: int) -> str | None:
+        """Formula text (SI) of layer k's `name`; None without a source."""
         if name in ("p_bottom", "p_top"):
-            return "=" + from_si(self.column_pressure(k + (name == "p_top")), unit)
+            return self.column_pressure(k + (name == "p_top"))
         if name not in self.sources:
             return None
-        return "=" + from_si(f"({self.column_value(name, k)}+{self.column_value(name, k + 1)})"
-                             "/2", unit)
+        return f"({self.column_value(name, k)}+{self.column_value(name, k + 1)})/2"
 
 
 def surface_block(ws, row: int, column: int, cell, formulas: ColumnFormulas,

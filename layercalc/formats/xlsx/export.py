@@ -91,9 +91,9 @@ def build_workbook(sheet) -> "Built":
     workbook = Workbook()
     layers = workbook.active
     layers.title = "layers"
-    from layercalc.formats.xlsx.levels import live_inputs
+    from layercalc.formats.xlsx.scenario_soundings import live_inputs
 
-    live = live_inputs(workbook, checked)  # a stations or levels sheet, when it can be live
+    live = live_inputs(workbook, checked, found)  # stations or levels sheets, when live
     letters = _layers_sheet(layers, checked, base.columns, live)
     settings_rows = _settings_sheet(workbook.create_sheet("settings"), checked, base.cells)
     links = Links(letters, 2, settings_rows,
@@ -166,7 +166,7 @@ class Built:
 # ---------------------------------------------------------------- input sheets
 def _layers_sheet(ws, checked, columns_si, live=None) -> dict[str, str]:
     """The inputs; `live(name, k, unit)` gives a formula for an input computed from a
-    stations or levels sheet (levels.live_inputs), or None for a plain value."""
+    stations or levels sheet (scenario_soundings.live_inputs), or None for a plain value."""
     letters = {}
     for j, (name, column) in enumerate(checked.input_columns.items(), start=1):
         letters[name] = letter(j)

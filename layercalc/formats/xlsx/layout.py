@@ -65,6 +65,15 @@ class Variant:
     summary: dict
     description: str = ""
     steps: dict = field(default_factory=dict)  # input column -> per-layer changes, or None
+    # input column -> per layer (SI formula text, SI value) it is rebuilt from, before the
+    # steps: a scenario's own stations or levels sheet (scenario_soundings.py)
+    sources: dict = field(default_factory=dict)
+
+
+def input_cell_rows(checked) -> dict[str, int]:
+    """The row of each input cell in a results sheet's cells block (column B)."""
+    first = FIRST_ROW + checked.layer_count + 2
+    return {name: first + i for i, name in enumerate(checked.input_cells)}
 
 
 def source_text(node) -> str:
@@ -146,10 +155,10 @@ class ResultsLayout:
         for j, formula in enumerate(derived, start=len(inputs) + 1):
             self.columns[formula.name] = (letter(j), formula.unit)
         self.next_helper = len(inputs) + len(derived) + 2
-        cell_row = self.last_row + 3
+        rows = input_cell_rows(checked)
         for name, cell in checked.input_cells.items():
-            self.cells[name] = (f"$B${cell_row}", cell.unit)
-            cell_row += 1
+            self.cells[name] = (f"$B${rows[name]}", cell.unit)
+        cell_row = self.last_row + 3 + len(rows)
         for formula in checked.formulas:
             if formula.kind == CELL:
                 self.cells[formula.name] = (f"$B${cell_row}", formula.unit)
@@ -218,19 +227,28 @@ class ResultsLayout:
         if base is None or name not in links.column_letters:
             return Entry(value, None, "changed", comment=f"set by scenario {self.variant.name}")
         source = f"'layers'!{links.column_letters[name]}{links.first_row + k}"
-        if base[k] == si[k]:
-            return Entry(value, source, "input")
-        steps = (self.variant.steps.get(name) or [None] * self.layers)[k]
         comment = f"changed by scenario {self.variant.name}"
+        rebuilt = self.variant.sources.get(name)
+        if rebuilt is None:
+            if base[k] == si[k]:
+                return Entry(value, source, "input")
+            start_text, start = to_si(source, unit), float(base[k])
+        else:  # from the scenario's own stations or levels sheet
+            start_text, start = rebuilt[k]
+            comment += " (its changed soundings)"
+            if name not in self.variant.steps and start == si[k]:
+                return Entry(value, from_si(start_text, unit), "changed", comment=comment)
+        steps = (self.variant.steps.get(name) or [None] * self.layers)[k]
         if steps:
-
             row = FIRST_ROW + k
-            text, got = stepped(to_si(source, unit), float(base[k]), steps,
+            text, got = stepped(start_text, start, steps,
                                 lambda node: Translator(self).expr(node, row),
                                 lambda node: float(self._evaluate(node)[k]))
             comment += ": " + "; ".join(dict.fromkeys(step[2] for step in steps))
             if got == si[k]:
                 return Entry(value, from_si(text, unit), "changed", comment=comment)
+        elif rebuilt is not None and start == si[k]:
+            return Entry(value, from_si(start_text, unit), "changed", comment=comment)
         return Entry(value, None, "changed", comment=comment + " (written as a value)")
 
     def _derived_column(self, j: int, formula, translator: Translator) -> None:

@@ -116,11 +116,12 @@ def levels_sheet(ws, live: LiveLevels) -> dict:
     return places
 
 
-def level_sources(places: dict, live: LiveLevels) -> tuple:
-    """(pressure(i), {name: value(i)}) as SI formula text of the levels sheet's cells, a
-    gap filled in ln p from the levels that had the value at export."""
+def level_sources(places: dict, live: LiveLevels, sheet: str = SHEET) -> tuple:
+    """(pressure(i), {name: value(i)}) as SI formula text of the cells of the levels sheet
+    (or of a scenario's copy named `sheet`), a gap filled in ln p from the levels that had
+    the value at export."""
     def ref(name, level):
-        return f"'{SHEET}'!{places[name][0]}{HEADER_ROW + 1 + level}"
+        return f"'{sheet}'!{places[name][0]}{HEADER_ROW + 1 + level}"
 
     def pressure(level):
         return to_si(ref("p", level), places["p"][1])
@@ -221,10 +222,21 @@ def station_means(placed: list, names_used, levels: int) -> dict:
     return sources
 
 
-def live_inputs(workbook, checked):
+@dataclass(frozen=True)
+class LiveColumn:
+    """What live_inputs made live: the layers sheet's formulas (`formulas.layer(name, k,
+    unit)`, None for an input kept as a value), the live station network (stations nodes,
+    details) and levels table, and the layer columns the soundings give."""
+
+    formulas: ColumnFormulas
+    network: tuple | None
+    live: LiveLevels | None
+    used: tuple
+
+
+def live_inputs(workbook, checked) -> LiveColumn | None:
     """Add a `stations` and/or `levels` sheet when the sheet's inputs can be live there, and
-    the `hydrostatic` sheet for their soundings; returns `formula(name, k, unit)` for the
-    layers sheet (None for an input kept as a value), or None when nothing is live."""
+    the `hydrostatic` sheet for their soundings; None when nothing is live."""
     from layercalc.formats.xlsx.hydrostatic import Placed, hydrostatic_sheet, placed_soundings
     from layercalc.formats.xlsx.stations import live_network, stations_sheet
     from layercalc.language.nodes import Station, Table
@@ -271,7 +283,7 @@ def live_inputs(workbook, checked):
     elif cell is not None:  # an input kept as a value: the cut stays where it was
         formulas.surface = number_text(float(cell.value))
     hydrostatic_sheet(workbook, [s for s in soundings if s.checked], details)
-    return formulas.layer
+    return LiveColumn(formulas, network, live, tuple(used))
 
 
 def _not_live(workbook, checked, why: str) -> None:

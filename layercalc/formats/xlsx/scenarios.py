@@ -20,14 +20,12 @@ def scenario_steps(checked, name: str) -> dict:
     (a spreadsheet cannot replay those in place: the cells are written as values)."""
     from layercalc.checking.scenarios import chain, selection_mask
     from layercalc.language.typed import COLUMN, references
-    from layercalc.soundings.rebuild import depends_on
 
     steps: dict = {}
     layers = checked.layer_count
     for scenario in chain(checked, name):
         for change in scenario.changes:
-            if change.place is not None:  # level values: the layer column is rebuilt
-                steps[depends_on(change.target)] = None
+            if change.place is not None:  # level values: see scenario_soundings.py
                 continue
             per_layer = steps.setdefault(change.target, [[] for _ in range(layers)])
             if per_layer is None:

@@ -60,9 +60,12 @@ def heading_text(heading) -> str:
     return " ".join(span.source.text[span.start:span.end].split())
 
 
-def stations_sheet(ws, checked, found) -> list[str]:
+def stations_sheet(ws, checked, found, tables: list | None = None,
+                   printed: bool = True) -> list[str]:
     """Fill `ws`; returns, per level surface first, the cell (on this sheet) of the
-    level's divergence in s^-1."""
+    level's divergence in s^-1. `tables` receives, per station, (first level's row,
+    column names) of its table as typed; `printed` False leaves out the print area and
+    page breaks (a hidden sheet: LibreOffice prints a hidden sheet that has a print area)."""
     from layercalc.physics import stations as station_physics
 
     stations, network = found
@@ -121,6 +124,8 @@ def stations_sheet(ws, checked, found) -> list[str]:
         for j, heading in enumerate(st.table.headings, start=1):
             put_text(ws.cell(row, j), heading_text(heading))
             style(ws.cell(row, j), "header")
+        if tables is not None:
+            tables.append((row + 1, names))
         data = np.array(st.table.rows, dtype=float).reshape(len(st.table.rows), len(names))
         order = np.argsort(-data[:, names.index("p")], kind="stable")
         for k, i in enumerate(order):
@@ -212,7 +217,8 @@ def stations_sheet(ws, checked, found) -> list[str]:
     size_columns(ws, {j: 11 for j in range(1, last_column + 1)} | {1: 19, c0 - 1: 3})
     wrap_notes(ws, range(1, len(notes) + 1), last_column)
     fit_rows(ws, [top] + heads, last_column)
-    ws.print_area = f"A1:{letter(last_column)}{row - 2}"
+    if printed:
+        ws.print_area = f"A1:{letter(last_column)}{row - 2}"
     return divergence_cells
 
 
@@ -229,7 +235,12 @@ def heading_units(table) -> dict:
 
 def layer_divergence_formula(cells: list[str], k: int, unit) -> str:
     """The layers sheet's div of layer k (surface first): the mean of its two levels."""
-    return "=" + from_si(f"('{SHEET}'!{cells[k]}+'{SHEET}'!{cells[k + 1]})/2", unit)
+    return "=" + from_si(layer_divergence_si(cells, k), unit)
+
+
+def layer_divergence_si(cells: list[str], k: int, sheet: str = SHEET) -> str:
+    """Formula text (SI) of layer k's div from the fit on a sheet laid out as `stations`."""
+    return f"('{sheet}'!{cells[k]}+'{sheet}'!{cells[k + 1]})/2"
 
 
 # ---------------------------------------------------------------- reading it back
