@@ -32,18 +32,22 @@ class Network:
     reported: bool           # True: direction and speed (rounding applies)
 
 
-def network_of(checked) -> Network | None:
+def network_of(checked, winds: tuple | None = None) -> Network | None:
+    """The sheet's station network as the fit saw it; `winds` (east, north), each (levels,
+    stations), replaces the reported winds (a scenario that changes them)."""
     details = checked.soundings
     given = getattr(details, "network", None) if details is not None else None
     if given is None:
         return None
     stations = given.stations
+    if winds is None:
+        winds = (np.stack([np.asarray(s.u, dtype=float) for s in stations], axis=-1),
+                 np.stack([np.asarray(s.v, dtype=float) for s in stations], axis=-1))
     return Network([s.name for s in stations],
                    np.array([s.latitude for s in stations]),
                    np.array([s.longitude for s in stations]),
                    np.asarray(given.levels.pressure, dtype=float),
-                   np.stack([np.asarray(s.u, dtype=float) for s in stations], axis=-1),
-                   np.stack([np.asarray(s.v, dtype=float) for s in stations], axis=-1),
+                   np.asarray(winds[0], dtype=float), np.asarray(winds[1], dtype=float),
                    all(s.reported == "direction and speed" for s in stations))
 
 

@@ -11,8 +11,9 @@ from layercalc.checking.checker import check_with_options
 from layercalc.checking.scenarios import CheckedChange, CheckedScenario, chain, selection_mask
 from layercalc.errors import EvaluationError, LayercalcError, UnknownNameError
 from layercalc.evaluation.engine import Environment, evaluate
-from layercalc.evaluation.level_changes import rebuilt_columns
+from layercalc.evaluation.level_changes import changed_levels, rebuilt_columns
 from layercalc.language import units as U
+from layercalc.soundings.rebuild import depends_on, station_winds
 
 
 def sheet_for_options(checked_sheet, options: dict[str, str]):
@@ -86,6 +87,23 @@ def rebuilt_inputs(checked_sheet, name: str) -> dict[str, np.ndarray]:
     _, _, env = _inputs(checked_sheet, scenarios)
     with np.errstate(all="ignore"):
         return {n: v[0] for n, v in rebuilt_columns(checked_sheet, scenarios, env.run).items()}
+
+
+def scenario_winds(checked_sheet, name: str) -> tuple | None:
+    """The stations' winds (east, north), each (levels, stations) in m/s, after a named
+    scenario's level changes (for its error model's wind chain); None when it changes no
+    station wind."""
+    scenarios = chain(checked_sheet, name)
+    if not any(ch.place is not None and ch.place.kind != "levels"
+               and depends_on(ch.target) == "div" for sc in scenarios for ch in sc.changes):
+        return None
+    _, _, env = _inputs(checked_sheet, scenarios)
+    with np.errstate(all="ignore"):
+        values, _ = changed_levels(checked_sheet, scenarios, env.run)
+    details = checked_sheet.soundings
+    offset = 1 if details.levels_table is not None else 0
+    u, v = station_winds(details.station_soundings, values[offset:])
+    return u[..., 0].T, v[..., 0].T
 
 
 def _changed_layers(current, layers, amount, action: str) -> np.ndarray:

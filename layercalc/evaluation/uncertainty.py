@@ -185,11 +185,13 @@ def _check_ranges(checked, values) -> None:
         fail("seed", "must be a whole number, 0 or more", "any fixed number, e.g. 1")
 
 
-def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) -> Assessment | None:
+def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict,
+           winds: tuple | None = None) -> Assessment | None:
     """Uncertainty of one variant.
 
     checked: the base checked sheet; compiled, columns, cells: the variant as the evaluator
-    takes it (``scenario_inputs``); base_columns: its evaluated columns (SI, 1-D).
+    takes it (``scenario_inputs``); base_columns: its evaluated columns (SI, 1-D); winds:
+    the stations' winds of a scenario that changes them (``scenario_winds``).
     None when the sheet has no divergence or no error model applies.
     """
     from layercalc.evaluation.engine import evaluate
@@ -198,7 +200,7 @@ def assess(checked, compiled, columns: dict, cells: dict, base_columns: dict) ->
         return None
     model = error_model(checked, cells, columns)
     has_div = "div" in checked.input_columns
-    network = network_of(checked) if has_div else None
+    network = network_of(checked, winds) if has_div else None
     thermal = _thermal_matrices(checked, model)
     hydrostatic = _hydrostatic(checked, model)
     if not (has_div and (network is not None or model.div_error is not None)) \
@@ -382,13 +384,15 @@ def assess_sheet(sheet, scenario: str | None = None) -> Assessment | None:
 def _assess_variant(sheet, scenario):
     checked = sheet.checked
     result = sheet.evaluate(scenario)
+    winds = None
     if scenario in (None, "base"):
         compiled, columns, cells = checked, {}, {}
     else:
-        from layercalc.evaluation.scenarios import scenario_inputs
+        from layercalc.evaluation.scenarios import scenario_inputs, scenario_winds
 
         compiled, columns, cells = scenario_inputs(checked, scenario)
-    return assess(checked, compiled, columns, cells, result.si_columns)
+        winds = scenario_winds(checked, scenario)
+    return assess(checked, compiled, columns, cells, result.si_columns, winds)
 
 
 def check_error_model(checked, scenario: str | None = None) -> ErrorModel:

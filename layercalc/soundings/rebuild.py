@@ -70,8 +70,9 @@ def layer_columns_of(details) -> set[str]:
     return found | ({"div"} if details.station_soundings else set())
 
 
-def _divergence(details, stations, station_values, pressure) -> np.ndarray:
-    """Divergence per level and variant from the stations' (changed) winds."""
+def station_winds(stations, station_values) -> tuple[np.ndarray, np.ndarray]:
+    """Each station's wind, east and north, from its (changed) values: arrays (stations,
+    levels, variants) in m/s (soundings.levels.Sounding.wind for each variant)."""
     winds = []
     for s, v in zip(stations, station_values):
         if "dir" in s.values:
@@ -79,8 +80,13 @@ def _divergence(details, stations, station_values, pressure) -> np.ndarray:
         else:
             winds.append((v["u"], v["v"]))
     u = np.stack(np.broadcast_arrays(*(w[0] for w in winds), *(w[1] for w in winds)))
+    return u[:len(stations)], u[len(stations):]
+
+
+def _divergence(details, stations, station_values, pressure) -> np.ndarray:
+    """Divergence per level and variant from the stations' (changed) winds."""
+    u, v = station_winds(stations, station_values)  # (stations, levels, variants) each
     count = len(stations)
-    u, v = u[:count], u[count:]  # (stations, levels, variants) each
     n_levels, n_variants = u.shape[1], u.shape[2]
     rows_u = np.moveaxis(u, 0, -1).reshape(-1, count)  # (levels * variants, stations)
     rows_v = np.moveaxis(v, 0, -1).reshape(-1, count)

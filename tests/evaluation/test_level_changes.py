@@ -205,3 +205,30 @@ def test_a_negative_speed_is_refused_with_its_place():
     with pytest.raises(layercalc.EvaluationError, match="makes speed negative") as info:
         sheet.evaluate("calm")
     assert "case.layers:" in info.value.format()
+
+
+def test_the_error_model_of_a_scenario_uses_its_changed_winds():
+    # the three-station case with its error model: the scenario's assessment (the wind
+    # chain's rounding floor at the changed winds, the ensemble, the sensitivities) equals
+    # the base assessment of the same file with the change typed in (common practice,
+    # no source)
+    from layercalc.evaluation.uncertainty import assess_sheet
+
+    case = (Path(__file__).resolve().parents[2] / "worked_cases"
+            / "three_stations_uncertainty.layers").read_text()
+    old = "300    -43.0     -51.5    9237    243     83"
+    assert case.count(old) == 1
+    sheet = layercalc.loads(case + 'scenario turned\n  add 20 deg to dir at "Eastmoor" '
+                            "between 300 hPa and 300 hPa\nend\n", name="case.layers")
+    typed = layercalc.loads(case.replace(old, old.replace("243", "263")), name="typed.layers")
+    got, want = assess_sheet(sheet, "turned"), assess_sheet(typed)
+    base = assess_sheet(sheet)
+    for name, sigma in want.linear.items():
+        assert_allclose(got.linear[name], sigma, rtol=1e-12, err_msg=name)
+    assert got.probability_falling == pytest.approx(want.probability_falling, abs=1e-12)
+    assert [s[:2] for s in got.sensitivity] == [s[:2] for s in want.sensitivity]
+    assert_allclose([s[2] for s in got.sensitivity], [s[2] for s in want.sensitivity],
+                    rtol=1e-9)
+    # and it differs from the base's: the rounding floor moved with the wind
+    assert any(not np.allclose(base.linear[n], want.linear[n], rtol=1e-9)
+               for n in want.linear)
