@@ -9,9 +9,10 @@ variant axis (a scenario, or each variant of a sweep), so that many variants are
   stations that report the quantity (levels.mean_over_soundings); inner gaps filled
   linearly in ln p;
 - the stations' winds -> u, v (physics.winds.wind_components) -> the least-squares
-  linear fit per level (physics.stations.station_polygon_divergence, with levels and
-  variants on one axis: the fit is per row) -> divergence per level, inner gaps filled
-  in ln p;
+  linear fit per level (physics.stations.station_polygon_divergence: the fit of unit
+  winds gives each level's weights, since the fit is linear in the winds, and the
+  weights are applied to every variant's winds in one sum) -> divergence per level,
+  inner gaps filled in ln p;
 - the cut at surface_pressure, when the base column was cut (a value at the surface
   interpolated linearly in ln p between its neighbours);
 - consecutive levels -> layer means (physics.levels.layers_from_levels).
@@ -84,16 +85,30 @@ def station_winds(stations, station_values) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _divergence(details, stations, station_values, pressure) -> np.ndarray:
-    """Divergence per level and variant from the stations' (changed) winds."""
+    """Divergence per level and variant from the stations' (changed) winds.
+
+    The fit is linear in the winds for a given set of stations with a wind at a level (a
+    change never fills or empties one), so each level's divergence is a weighted sum of
+    its winds: the weights are the fit of unit winds (station_polygon_divergence over one
+    wind component at a time, 2n rows per level), then applied to every variant at once
+    (no fit per variant: a sweep of a million variants is one sum)."""
     u, v = station_winds(stations, station_values)  # (stations, levels, variants) each
-    count = len(stations)
-    n_levels, n_variants = u.shape[1], u.shape[2]
-    rows_u = np.moveaxis(u, 0, -1).reshape(-1, count)  # (levels * variants, stations)
-    rows_v = np.moveaxis(v, 0, -1).reshape(-1, count)
+    count, n_levels = u.shape[0], u.shape[1]
+    valid = np.isfinite(u).all(axis=-1) & np.isfinite(v).all(axis=-1)  # (stations, levels)
+    basis = np.broadcast_to(np.eye(2 * count), (n_levels, 2 * count, 2 * count)).copy()
+    for part in (0, count):  # a station without a wind at a level stays out of its fit
+        basis[:, :, part:part + count] = np.where(valid.T[:, None, :], basis[:, :, part:part + count],
+                                                  np.nan)
     latitudes = np.array([st.latitude for st in details.network.stations])
     longitudes = np.array([st.longitude for st in details.network.stations])
-    result = station_physics.station_polygon_divergence(latitudes, longitudes, rows_u, rows_v)
-    divergence = np.asarray(result.divergence, dtype=float).reshape(n_levels, n_variants)
+    unit = station_physics.station_polygon_divergence(
+        latitudes, longitudes, basis[..., :count].reshape(-1, count),
+        basis[..., count:].reshape(-1, count))
+    weights = np.asarray(unit.divergence, dtype=float).reshape(n_levels, 2 * count)
+    u = np.where(valid[..., None], u, 0.0)
+    v = np.where(valid[..., None], v, 0.0)
+    divergence = (np.einsum("li,ils->ls", weights[:, :count], u)
+                  + np.einsum("li,ils->ls", weights[:, count:], v))
     return fill_in_ln_p(pressure, divergence)
 
 

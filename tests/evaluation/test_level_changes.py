@@ -232,3 +232,88 @@ def test_the_error_model_of_a_scenario_uses_its_changed_winds():
     # and it differs from the base's: the rounding floor moved with the wind
     assert any(not np.allclose(base.linear[n], want.linear[n], rtol=1e-9)
                for n in want.linear)
+
+
+def test_a_level_without_enough_winds_is_interpolated_in_a_scenario_too():
+    # Eastmoor's 850 hPa wind missing: two winds are too few to fit that level, so its
+    # divergence is interpolated in ln p (the base path, soundings/column.py), in the
+    # scenario as in the typed file
+    old = "       850      5.8       3.4    1453    202     32"
+    assert CASE.count(old) == 1
+    gapped = CASE.replace(old, old[:-12] + "  -      -")
+    sheet = layercalc.loads(gapped + "scenario faster\n  add 10 kt to speed at "
+                            '"Northfield"\n  scale speed by 1.1 at every station above 400 hPa'
+                            "\nend\n", name="case.layers")
+    # typed in: Northfield's speeds + 10 kt, then every station's speeds at 400-200 hPa
+    # times 1.1 (the changes in the order written)
+    lines, station, typed = gapped.splitlines(), None, []
+    for line in lines:
+        if line.startswith("station "):
+            station = line.split('"')[1]
+        parts = line.split()
+        if station and len(parts) == 6 and parts[0].isdigit() and parts[5] != "-":
+            speed = float(parts[5]) + (10 if station == "Northfield" else 0)
+            speed *= 1.1 if float(parts[0]) <= 400 else 1.0
+            line = line[:line.rindex(parts[5])] + repr(speed)
+        typed.append(line)
+    _compare(sheet.evaluate("faster"), "\n".join(typed) + "\n")
+
+
+def _edit_station(text: str, station: str, column: str, change) -> str:
+    """`text` with `change(value, pressure_hpa)` applied to one station's column, row by
+    row (a '-' left alone): the change typed in."""
+    out, current, heading = [], None, None
+    for line in text.splitlines():
+        parts = line.split()
+        if line.startswith("station "):
+            current, heading = line.split('"')[1], None
+        elif current == station and parts and parts[0] == "p":
+            heading = [p for p in parts if not p.startswith("[")]
+        elif current == station and heading and len(parts) == len(heading) \
+                and parts[0][0].isdigit():
+            j = heading.index(column)
+            if parts[j] != "-":
+                parts[j] = repr(change(float(parts[j]), float(parts[0])))
+            line = "  " + "  ".join(parts)
+        out.append(line)
+    return "\n".join(out) + "\n"
+
+
+def test_a_least_squares_network_with_components_equals_the_winds_typed_in():
+    # five stations (a least-squares fit, not an exact one), winds as u and v, one wind
+    # missing; the scenario changes one station's u above 700 hPa
+    from tests.physics.test_stations import pentagon
+    from tests.soundings.test_soundings import network_text
+
+    latitudes, longitudes = pentagon(50.0, 20.0, 10.0)
+    text = network_text(latitudes, longitudes, missing=[(3, 1)], form="uv")
+    assert "u [m/s]" in text and "Station C" in text
+    sheet = layercalc.loads(text + 'scenario pushed\n  add 4 [m/s] to u at "Station C" '
+                            "above 700 hPa\nend\n", name="pentagon.layers")
+    typed = _edit_station(text, "Station C", "u",
+                          lambda value, p: value + 4.0 if p <= 700 else value)
+    assert typed != text
+    _compare(sheet.evaluate("pushed"), typed)
+
+
+def test_the_sweep_command_varies_a_cell_a_station_change_reads(capsys, tmp_path):
+    import csv
+
+    from tests.helpers import cli
+
+    path = Path(__file__).resolve().parents[2] / "worked_cases" / "three_stations.layers"
+    target = tmp_path / "sweep.csv"
+    code, _, _ = cli(capsys, "sweep", str(path), "--scenario", "eastmoor_turned",
+                     "--vary", "turn=0:10:5", "--csv", str(target), "--quiet")
+    assert code == 0
+    rows = list(csv.reader(target.open()))[2:]
+    assert [float(r[0]) for r in rows] == [0.0, 5.0, 10.0]
+    text = path.read_text()
+    for row in rows:
+        one = layercalc.loads(text.replace("cell turn = 5 deg", f"cell turn = {row[0]} deg"),
+                              name="one.layers").evaluate("eastmoor_turned")
+        # source: the scenario evaluated once per value (common practice, no source);
+        # the CSV holds hPa per 3 h
+        assert float(row[1]) == pytest.approx(
+            one.si_cells["surface_pressure_tendency"] * 3 * 3600 / 100, rel=1e-12)
+    assert float(rows[0][1]) != pytest.approx(float(rows[2][1]))  # the turn moves it
