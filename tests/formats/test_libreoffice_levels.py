@@ -343,3 +343,63 @@ def test_the_check_cells_turn_when_the_formulas_no_longer_mirror_layercalc(tmp_p
     assert sorted(c.split(":")[0] for c in checks) == ["CHECK", "CHECK", "OK", "OK"], checks
     assert any("1 value(s) the layer formulas read are blank" in c for c in checks)
     assert any("surface_pressure has moved past a level" in c for c in checks)
+
+
+def level_values(calc_ws, live_ws, title: str) -> list:
+    from tests.formats.test_libreoffice import fit_column
+
+    return [calc_ws[c].value for c in fit_column(live_ws, title)]
+
+
+@pytest.mark.parametrize("case", ["interpolated", "four"])
+def test_a_network_with_a_missing_wind_follows_edits(tmp_path, case):
+    # Northfield's 500 hPa wind turned 229 -> 244 degrees; in a second workbook the
+    # missing wind is typed in (Eastmoor 925 hPa 187/27, or Westby 700 hPa 222/35).
+    from tests.formats.test_libreoffice import station_wind_cell
+    from tests.formats.test_xlsx_network_fit import (
+        EASTMOOR_925, WESTBY, four_stations, without_a_wind,
+    )
+
+    text = without_a_wind() if case == "interpolated" else four_stations()
+    north_500 = "       500    -19.6     -26.0    5568    229     47"
+    assert text.count(north_500) == 1
+    turned = text.replace(north_500, north_500.replace("229", "244"))
+    if case == "interpolated":
+        station, level, wind = "Eastmoor", 925, (187, 27)
+        filled = text.replace(EASTMOOR_925[:-13] + "     -      -", EASTMOOR_925)
+    else:
+        station, level, wind = "Westby", 700, (222, 35)
+        row = "       700     -1.6      -5.6   3049      -      -"
+        assert WESTBY.count(row) == 1
+        filled = text.replace(row, row.replace("     -      -", "    222     35"))
+    assert filled != text
+    sheet = layercalc.loads(text, name="missing.layers")
+    levels = sheet.checked.soundings.network.levels
+    assert levels.stations_used.min() == (2 if case == "interpolated" else 3)
+    paths = {name: tmp_path / f"{name}.xlsx" for name in ("untouched", "turned", "filled")}
+    for path in paths.values():
+        write_workbook(sheet, path)
+    workbook = load_workbook(paths["turned"])
+    workbook["stations"][station_wind_cell(workbook["stations"], "Northfield", 500, "dir")] = 244
+    workbook.save(paths["turned"])
+    workbook = load_workbook(paths["filled"])
+    for column, value in zip(("dir", "speed"), wind):
+        cell = station_wind_cell(workbook["stations"], station, level, column)
+        assert workbook["stations"][cell].value is None
+        workbook["stations"][cell] = value
+    workbook.save(paths["filled"])
+    converted = convert(list(paths.values()), tmp_path / "out", tmp_path / "profile")
+    live = load_workbook(paths["untouched"])
+    for name, reference in (("untouched", text), ("turned", turned), ("filled", filled)):
+        want = layercalc.loads(reference, name=f"{name}.layers")
+        calc = load_workbook(converted[paths[name]], data_only=True)
+        fitted = want.checked.soundings.network.levels
+        got = level_values(calc["stations"], live["stations"], "divergence [s^-1]")
+        # source: layercalc's fit per level (physics/stations.py) of the edited text
+        assert np.allclose(got, fitted.divergence, rtol=TOLERANCE, atol=0.0), (name, got)
+        vorticity = level_values(calc["stations"], live["stations"], "vorticity [s^-1]")
+        for got_v, want_v in zip(vorticity, fitted.vorticity):
+            assert got_v == "-" if not np.isfinite(want_v) else np.isclose(
+                got_v, want_v, rtol=TOLERANCE, atol=1e-9 * np.nanmax(np.abs(fitted.vorticity)))
+        assert_inputs(calc, want)
+        assert_results(calc, live, want, before=None if name == "untouched" else sheet)

@@ -118,19 +118,6 @@ def test_stations_with_a_levels_table_are_both_live(tmp_path):
     assert "'levels'!" in layers.cell(3, temperature).value
 
 
-def test_a_network_with_a_missing_wind_is_marked_not_live(tmp_path):
-    text = STATIONS_AND_LEVELS.replace("       925    195     20", "       925      -      -")
-    assert text != STATIONS_AND_LEVELS
-    path = tmp_path / "missing.xlsx"
-    write_workbook(layercalc.loads(text, name="missing.layers"), path)
-    workbook = load_workbook(path)
-    assert "stations" not in workbook.sheetnames and "levels" not in workbook.sheetnames
-    notes = [c.value for row in workbook["layers"].iter_rows() for c in row
-             if isinstance(c.value, str) and c.value.startswith("NOT LIVE")]
-    assert len(notes) == 1 and "lacks a wind" in notes[0]
-    assert isinstance(workbook["layers"]["E3"].value, float)  # div as a value
-
-
 def test_a_gap_is_filled_by_a_formula_and_a_typed_value_replaces_it(tmp_path):
     path = tmp_path / "gap.xlsx"
     write_workbook(layercalc.loads(GAP_AND_CUT, name="gap.layers"), path)

@@ -246,8 +246,8 @@ def live_inputs(workbook, checked) -> LiveColumn | None:
         return None
     network = live_network(checked)
     if network is None and any(isinstance(s, Station) for s in document.statements):
-        return _not_live(workbook, checked, "a station lacks a wind at some level, which the "
-                         "stations sheet cannot fit yet")
+        return _not_live(workbook, checked, "the stations sheet cannot hold this network's "
+                         "fit")
     used = [n for n in checked.input_columns if n not in ("p_bottom", "p_top", "div")
             or (n == "div" and network is None)]
     live = None

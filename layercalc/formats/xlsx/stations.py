@@ -1,8 +1,8 @@
 """The `stations` sheet of a station-network workbook: the winds as typed, the fit live.
 
-Written for a sheet with `station` blocks (with or without a top-level `levels` table)
-with a wind at every station and level; otherwise the workbook keeps the layer
-means as inputs (see README). Layout, rows from the top:
+Written for a sheet with `station` blocks (with or without a top-level `levels` table; a
+level where a station has no wind is fitted over the others, network_fit.py); otherwise
+the workbook keeps the layer means as inputs (see README). Layout, rows from the top:
     notes; the geometry block `station | latitude [deg] | longitude [deg] | x [m] | y [m]
     | north angle [deg] | x - mean [m] | y - mean [m]` (latitude and longitude as typed,
     read back on import; x, y and the north angle are FIXED values layercalc computed:
@@ -47,8 +47,7 @@ def live_network(checked) -> tuple | None:
 
     stations = [s for s in document.statements if isinstance(s, Station)]
     network = details.network
-    winds = np.array([np.concatenate([st.u, st.v]) for st in network.stations])
-    if not np.isfinite(winds).all() or "div" not in checked.input_columns:
+    if "div" not in checked.input_columns:
         return None
     if not np.isfinite(network.levels.divergence).all():
         return None
@@ -174,7 +173,23 @@ def stations_sheet(ws, checked, found, tables: list | None = None,
     divergence_cells = []
     p_letter = letter([h.name for h in stations[0].table.headings].index("p") + 1)
     shown = number_format(network.levels.divergence / 1e-5)
+    missing = ~np.isfinite(np.array([st.u + st.v for st in network.stations]).T)
+    from layercalc.formats.xlsx.network_fit import partial_level
+
+    p_unit = heading_units(stations[0].table)["p"]
+
+    def pressure(level):
+        return to_si(f"{p_letter}{wind_cells[0][5] + level}", p_unit)
     for k in range(levels):
+        if missing[k].any():  # a station without a wind here (network_fit.py)
+            ws.cell(east + 1 + k, c0, f"={p_letter}{wind_cells[0][5] + k}")
+            ws.cell(plane + 1 + k, c0, f"={C[1]}{east + 1 + k}")
+            ws.cell(fit + 1 + k, c0, f"={C[1]}{east + 1 + k}")
+            partial_level(ws, k, (east, plane, fit), c0, wind_cells, first, (xrow, yrow),
+                          network.levels.divergence_interpolated, pressure,
+                          (wind_format, shown))
+            divergence_cells.append(f"{C[6]}{fit + 1 + k}")
+            continue
         r, rp, rf = east + 1 + k, plane + 1 + k, fit + 1 + k
         ws.cell(r, c0, f"={p_letter}{wind_cells[0][5] + k}")
         ws.cell(rp, c0, f"={C[1]}{r}")
