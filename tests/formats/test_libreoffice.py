@@ -150,9 +150,9 @@ def compare_sheets(live_path: Path, calc_path: Path, want_path: Path | None = No
         layers = sum(1 for r in range(FIRST_ROW, ws.max_row + 1)
                      if str(ws.cell(r, 1).value or "").startswith("='layers'!")) \
             if name != "compare" else 0
-        chart_rows = [r for r in range(1, ws.max_row + 1)
-                      if ws.cell(r, 1).value == "chart data (live)"]
-        chart_start = chart_rows[0] if chart_rows else ws.max_row + 1
+        chart_columns = [c.column for row in ws.iter_rows(max_row=FIRST_ROW) for c in row
+                         if c.value == "chart data (live)"]  # beside the helpers
+        chart_start = chart_columns[0] if chart_columns else ws.max_column + 1
         scales: dict = {}
         cells = []
         for row in ws.iter_rows():
@@ -168,10 +168,10 @@ def compare_sheets(live_path: Path, calc_path: Path, want_path: Path | None = No
                     continue
                 if name == "compare":  # a difference on the scale of what it compares
                     group = ("row", cell.row)
+                elif cell.column >= chart_start:
+                    group = ("chart", cell.column)
                 elif FIRST_ROW <= cell.row < FIRST_ROW + layers:
                     group = ("layers", cell.column)
-                elif cell.row > chart_start:
-                    group = ("chart", cell.column)
                 else:
                     group = ("cell", cell.coordinate)
                 scales[group] = max(scales.get(group, 0.0), abs(want))
@@ -392,8 +392,10 @@ SHEET_PAGES = {"results": 2, "notes": 2}  # pages a sheet may take; every other 
 # the smallest median height of a word's box (points) on a page: 12.4 at full size for
 # the default 11 pt font; the stations sheet printed at 4.7 and the uncertainty sheet at
 # 3.4 before their layouts were narrowed (from memory and judgement: below about 4 pt of
-# type a printed page is not read). The wide results tables print smallest.
-SMALLEST_TEXT = {"results": 4.0}
+# type a printed page is not read). The wide results tables print smallest: 5.3 pt (4.3 for
+# trainer_exercise) before their headers wrapped and the chart data left the print area,
+# 6.8-8.8 pt after.
+SMALLEST_TEXT = {"results": 6.5}
 SMALLEST_TEXT_OTHERS = 6.5
 
 

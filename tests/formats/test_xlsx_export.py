@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 from openpyxl import load_workbook
-from openpyxl.utils import column_index_from_string
+from openpyxl.utils import column_index_from_string, get_column_letter
 
 import layercalc
 from layercalc.cli.common import worked_cases_folder
@@ -200,7 +200,16 @@ def test_sheets_and_layout(exported):
     assert results.freeze_panes == f"C{FIRST_ROW}"
     assert results.cell(2, 1).value == layercalc.CAUTION
     assert wb["values"].cell(2, 1).value == layercalc.CAUTION
-    assert results.column_dimensions["F"].width >= 8
+    # the printed headers wrap at their spaces: each column as wide as its header's longest
+    # word, the header row as high as two lines or more
+    printed = column_index_from_string(str(results.print_area).split(":")[-1].split("$")[1])
+    for j in range(1, printed):
+        header = results.cell(HEADER_ROW, j).value
+        if header:
+            width = results.column_dimensions[get_column_letter(j)].width
+            assert width >= max(len(word) for word in header.split()), (header, width)
+    assert results.cell(HEADER_ROW, 1).alignment.wrap_text
+    assert results.row_dimensions[HEADER_ROW].height >= 2 * 14.5
     assert results.cell(HEADER_ROW, 1).font.bold
     formats = {results.cell(FIRST_ROW, j).number_format
                for j in range(6, 20)}
@@ -344,9 +353,12 @@ def test_charts_plot_omega_and_divergence_on_their_own_axes_against_log_pressure
              for s in omega.series + divergence.series]
     assert len(set(looks)) == len(looks)  # distinct colours and markers
     y_ref = omega.series[0].yVal.numRef.f
-    first = int(y_ref.split("$")[2].split(":")[0])
+    column, first = y_ref.split("$")[1], int(y_ref.split("$")[2].split(":")[0])
     # the omega series' y values are interface pressures: surface first, then upward
-    assert ws.cell(first, 1).value == f"=(A{FIRST_ROW}*100)/100"
+    assert ws[f"{column}{first}"].value == f"=(A{FIRST_ROW}*100)/100"
+    # the chart data sits beside the helper columns, outside the print area
+    printed = column_index_from_string(str(ws.print_area).split(":")[-1].split("$")[1])
+    assert column_index_from_string(column) > printed
 
 
 def test_every_sheet_has_a_print_setup(exported):
@@ -359,7 +371,10 @@ def test_every_sheet_has_a_print_setup(exported):
             assert ws.sheet_state == "hidden"  # the live sheets carry the numbers
             continue
         assert ws.page_setup.orientation == "landscape", ws.title
-        assert ws.page_setup.fitToWidth == 1 and ws.page_setup.fitToHeight == 0
+        # one page wide; as many down as needed, but a compare sheet (no page break to
+        # keep) on one page
+        assert ws.page_setup.fitToWidth == 1
+        assert ws.page_setup.fitToHeight == (1 if ws.title == "compare" else 0), ws.title
         assert ws.sheet_properties.pageSetUpPr.fitToPage
         assert ws.oddFooter.center.text == CAUTION, ws.title
     results = wb["results"]

@@ -40,16 +40,24 @@ def style(cell, name: str) -> None:
             "caution": {"font": Font(italic=True, bold=True, color="9C0006"),
                         "alignment": Alignment(shrink_to_fit=True)},  # never cut off
             "note": {"font": Font(italic=True, color="555555")},
+            "wrapped": {"font": Font(italic=True, color="555555"),  # a note over merged
+                        "alignment": Alignment(wrap_text=True, vertical="top")},  # cells
             "group": {"font": Font(italic=True, bold=True, color="1F4E78")},
             "header": {"font": Font(bold=True), "fill": fill("DDEBF7"),
                        "alignment": Alignment(wrap_text=True, vertical="center")},
-            "input": {"fill": fill("E2EFDA")},
-            "changed": {"fill": fill("FCE4D6"), "font": Font(bold=True)},
+            # top aligned: level with the first line of a wrapped note beside them
+            "input": {"fill": fill("E2EFDA"), "alignment": Alignment(vertical="top")},
+            "changed": {"fill": fill("FCE4D6"), "font": Font(bold=True),
+                        "alignment": Alignment(vertical="top")},
+            "derived": {"alignment": Alignment(vertical="top")},
             "helper": {"font": Font(color="808080")},
-            "static": {"fill": fill("FFF2CC")},
-            "name": {"font": Font(bold=True)},
-            "unit": {"alignment": Alignment(indent=1)},  # apart from the number before it
+            "static": {"fill": fill("FFF2CC"), "alignment": Alignment(vertical="top")},
+            "name": {"font": Font(bold=True), "alignment": Alignment(vertical="top")},
+            "unit": {"alignment": Alignment(indent=1, vertical="top")},  # apart from the
+            # number before it
             "check": {"font": Font(bold=True, color="375623")},
+            "wrapped_check": {"font": Font(bold=True, color="375623"),  # over merged cells
+                              "alignment": Alignment(wrap_text=True, vertical="top")},
         })
     for attribute, value in _STYLES.get(name, {}).items():
         setattr(cell, attribute, value)

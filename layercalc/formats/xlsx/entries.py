@@ -40,6 +40,9 @@ class Grid:
     print_columns: int | None = None  # columns printed (inputs and derived, no helpers)
     chart_row: int | None = None  # first row of the chart's own page
     row_check: tuple | None = None  # (row, column, layers column letter, layers) of the check
+    # row -> (column, last column) of a text merged over the columns up to the last one
+    # (None: the last printed column) and wrapped there (style "wrapped", "check", "header")
+    wrapped: dict = field(default_factory=dict)
 
     def put(self, row: int, column: int, entry: Entry) -> None:
         self.entries[(row, column)] = entry

@@ -341,6 +341,9 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
     widths: dict[int, int] = {}
     numbers: dict[int, tuple[float, int]] = {}  # column -> (largest magnitude, decimals)
     known = styles.known
+    from layercalc.formats.xlsx import printing
+
+    wrap_headers = grid.print_columns or 0  # a results table's headers wrap at their spaces
     decimals_of: dict = {}  # number format -> decimals shown
     last_row = last_column = 1
     for (row, column), entry in grid.entries.items():
@@ -363,7 +366,7 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
                 if "&" in formula or "<" in formula or ">" in formula:
                     formula = X.escape(formula)
                 live_xml = f'<c r="{reference}" s="{style_id}"><f>{formula}</f><v>{shown}</v></c>'
-            if row >= HEADER_ROW and entry.style != "note":
+            if row >= HEADER_ROW and entry.style not in NOTES:
                 decimals = decimals_of.get(fmt)
                 if decimals is None:
                     decimals = decimals_of[fmt] = (fmt or "0.00").partition(".")[2].count("0")
@@ -387,8 +390,11 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
                 value_xml = X.number_cell(reference, float(text), style_id)
             live_xml = value_xml if entry.formula is None else \
                 X.formula_cell(reference, entry.formula, text, style_id)
-            if row >= HEADER_ROW and entry.style != "note":  # notes run on into empty cells
-                widths[column] = max(widths.get(column, 8), _shown_width(text, entry))
+            if row >= HEADER_ROW and entry.style not in NOTES and \
+                    grid.wrapped.get(row, (0,))[0] != column:  # notes run on or wrap
+                shown = printing.header_width(text) if entry.style == "header" and \
+                    column <= wrap_headers else _shown_width(text, entry)
+                widths[column] = max(widths.get(column, MIN_WIDTH), shown)
         if row == 3 and column == 1:
             value_xml = X.text_cell(reference, note, styles(entry.style, None, False))
         live_rows.setdefault(row, []).append((column, live_xml))
@@ -401,25 +407,23 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
             live_ws.cell(row, column).comment = Comment(entry.comment, "layercalc",
                                                         width=320, height=120)
     for column, (magnitude, decimals) in numbers.items():
-        widths[column] = max(widths.get(column, 8), len(f"{magnitude:.{decimals}f}"))
+        widths[column] = max(widths.get(column, MIN_WIDTH),
+                             len(f"{magnitude:.{decimals}f}"))
     dimension = f"A1:{letter(last_column)}{last_row}"
-    for ws in (live_ws, values_ws):
-        size_columns(ws, {j: min(w + 2, 48) for j, w in widths.items()})
-        ws.freeze_panes = grid.freeze
-    from layercalc.caution import CAUTION
-    from layercalc.formats.xlsx import printing
-
-    end = last_row
+    widths = {j: min(w + 1, 48) for j, w in widths.items()}
     printed = max(grid.print_columns or last_column, 8)
-    scale = printing.print_scale([min(widths.get(j, 8) + 2, 48) for j in range(1, printed + 1)])
-    if grid.chart is not None:
-        printing.charts(live_ws, grid.chart, grid.chart_row, scale)
-        printing.chart_page(live_ws, grid.chart_row)
-        end = grid.chart_row + printing.chart_rows(scale)
-    area = f"A1:{letter(printed)}{end}"
-    printing.page_setup(live_ws, CAUTION, f"{HEADER_ROW}:{HEADER_ROW}", area)
-    for ws in (live_ws, values_ws):  # the caution over the printed columns, shrunk to
-        ws.merge_cells(start_row=2, start_column=1, end_row=2, end_column=printed)  # fit
+    plan = printing.page_plan(grid, widths, printed, HEADER_ROW, last_row)
+    for ws in (live_ws, values_ws):
+        size_columns(ws, widths)
+        ws.freeze_panes = grid.freeze
+        for row, (column, last) in grid.wrapped.items():  # a note wrapped over columns
+            ws.merge_cells(start_row=row, start_column=column, end_row=row,
+                           end_column=last or plan.last_column)
+        # the caution over the printed columns, shrunk to fit
+        ws.merge_cells(start_row=2, start_column=1, end_row=2, end_column=plan.last_column)
+    from layercalc.caution import CAUTION
+
+    printing.grid_print(live_ws, grid, plan, HEADER_ROW, last_row, CAUTION)
     values_ws.sheet_state = "hidden"  # the live sheet carries the same numbers, cached
     if grid.row_check is not None:
         from layercalc.formats.xlsx.summary_cells import table_check
@@ -427,7 +431,12 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
         row, column, first_input, layers = grid.row_check
         red_when(live_ws, f"{letter(column)}{row}",
                  table_check(first_input, layers, "'layers'!")[2])
-    return (X.sheet_data(live_rows), dimension), (X.sheet_data(value_rows), dimension)
+    return ((X.sheet_data(live_rows, plan.heights), dimension),
+            (X.sheet_data(value_rows, plan.heights), dimension))
+
+
+MIN_WIDTH = 5  # characters: a column of short numbers under a wrapped header stays narrow
+NOTES = ("note", "wrapped")  # text that runs on into empty cells, or wraps over them
 
 
 def _shown_width(value, entry) -> int:

@@ -7,9 +7,12 @@ Results sheet layout (rows are sheet rows):
     3  what the sheet is              4  group labels (inputs, derived, helpers)
     5  header `name [unit]`           6.. one row per layer, the SURFACE LAYER FIRST
     then, after a blank row: the cells block `cell | value | unit | formula or note`
-    (input cells, derived cells, then values that are not formulas), and the chart data.
+    (input cells, derived cells, then values that are not formulas), its notes wrapped
+    over the printed columns; the charts below it, on a page of their own.
 Columns: the input columns (linked to the `layers` sheet, or the scenario's own values),
-the derived columns in dependency order, a blank column, then helper columns in SI units.
+the derived columns in dependency order, a blank column, then helper columns in SI units
+and, after another blank column, the chart data (live, in the layer rows): only the
+table and the cells block are printed, so that they fit one readable page.
 """
 
 from __future__ import annotations
@@ -171,7 +174,7 @@ class ResultsLayout:
             self._derived_column(j, formula, translator)
         row = self._cells(translator)
         row = summary_rows(self, row + 1)
-        self._chart_data(row + 1)
+        self._chart_data(row + 2)
         grid.freeze = f"C{FIRST_ROW}"
         grid.print_columns = len(inputs) + len(derived)
         return grid
@@ -183,12 +186,16 @@ class ResultsLayout:
             title += f" - scenario {variant.name}"
         grid.put(1, 1, Entry(title, style="title"))
         grid.put(2, 1, Entry(self.caution, style="caution"))
-        grid.put(3, 1, Entry(self._explanation(), style="note"))
+        grid.put(3, 1, Entry(self._explanation(), style="wrapped"))
+        grid.wrapped[3] = (1, None)
         grid.put(4, 1, Entry("inputs", style="group"))
         first_input = self.links.column_letters.get("p_bottom")
         if first_input:
             formula, ok, _ = table_check(first_input, self.layers, "'layers'!")
-            grid.put(4, 2, Entry(ok, formula, "check"))
+            wide = n_inputs > 2  # wrapped over the input columns, beside the group labels
+            grid.put(4, 2, Entry(ok, formula, "wrapped_check" if wide else "check"))
+            if wide:
+                grid.wrapped[4] = (2, n_inputs)
             grid.row_check = (4, 2, first_input, self.layers)
         grid.put(4, n_inputs + 1, Entry("derived (live formulas)", style="group"))
         if n_derived:
@@ -279,6 +286,7 @@ class ResultsLayout:
         row = self.last_row + 2
         for j, text in enumerate(("cell", "value", "unit", "formula or note"), start=1):
             grid.put(row, j, Entry(text, style="header"))
+        grid.wrapped[row] = (4, None)  # the note column's header over the notes' width
         for name, cell in checked.input_cells.items():
             row += 1
             si = self.variant.cells[name]
@@ -314,44 +322,46 @@ class ResultsLayout:
         grid.put(row, 1, Entry(name, style="name"))
         grid.put(row, 2, entry)
         grid.put(row, 3, Entry(unit_text, style="unit"))
-        grid.put(row, 4, Entry(note, style="note"))
+        grid.put(row, 4, Entry(note, style="wrapped"))
+        grid.wrapped[row] = (4, None)
 
-    def _chart_data(self, row: int) -> None:
+    def _chart_data(self, chart_row: int) -> None:
         """Live chart data: omega at the layer interfaces and divergence at mid-layer, in
-        fixed units (hPa, hPa/h, 1e-5 s^-1) so that the chart's axis titles hold."""
+        fixed units (hPa, hPa/h, 1e-5 s^-1) so that the chart's axis titles hold; beside
+        the helper columns, outside the print area. The charts go to `chart_row`, the
+        first row of a page of their own."""
         have = set(self.columns)
         if not {"p_bottom", "p_top", "omega_bottom", "omega_top", "p_mid", "div"} <= have:
             return
         grid = self.grid
-        row += 1
         labels = ("interface p [hPa]", "omega [hPa/h]", "", "p_mid [hPa]",
                   "div [1e-5 s^-1]", "div_adjusted [1e-5 s^-1]")
-        grid.put(row, 1, Entry("chart data (live)", style="group"))
-        row += 1
-        for j, text in enumerate(labels, start=1):
+        c0 = self.next_helper  # one blank column after the helpers
+        grid.put(HEADER_ROW - 1, c0 + 1, Entry("chart data (live)", style="group"))
+        for j, text in enumerate(labels, start=c0 + 1):
             if text:
-                grid.put(row, j, Entry(text, style="header"))
-        first = row + 1
+                grid.put(HEADER_ROW, j, Entry(text, style="header"))
+        first = FIRST_ROW
         pressure, omega, divergence = (CHART_UNITS[k] for k in ("pressure", "omega",
                                                                   "divergence"))
         for k in range(self.layers + 1):
             top = k == self.layers
             source_row = FIRST_ROW + min(k, self.layers - 1)
             p_name, w_name = ("p_top", "omega_top") if top else ("p_bottom", "omega_bottom")
-            self._link(first + k, 1, p_name, source_row, pressure)
-            self._link(first + k, 2, w_name, source_row, omega)
+            self._link(first + k, c0 + 1, p_name, source_row, pressure)
+            self._link(first + k, c0 + 2, w_name, source_row, omega)
         for k in range(self.layers):
-            self._link(first + k, 4, "p_mid", FIRST_ROW + k, pressure)
-            self._link(first + k, 5, "div", FIRST_ROW + k, divergence)
+            self._link(first + k, c0 + 4, "p_mid", FIRST_ROW + k, pressure)
+            self._link(first + k, c0 + 5, "div", FIRST_ROW + k, divergence)
             if "div_adjusted" in have:
-                self._link(first + k, 6, "div_adjusted", FIRST_ROW + k, divergence)
+                self._link(first + k, c0 + 6, "div_adjusted", FIRST_ROW + k, divergence)
         bottom = max(float(self.variant.columns["p_bottom"][0]), 1.0) / 100.0
         top = float(self.variant.columns["p_top"][-1]) / 100.0
-        series = [("omega [hPa/h]", 2, 1, first, first + self.layers),
-                  ("div [1e-5 s^-1]", 5, 4, first, first + self.layers - 1)]
+        series = [("omega [hPa/h]", c0 + 2, c0 + 1, first, first + self.layers),
+                  ("div [1e-5 s^-1]", c0 + 5, c0 + 4, first, first + self.layers - 1)]
         if "div_adjusted" in have and self.checked.options.get("adjust", "none") != "none":
-            series.append(("div_adjusted [1e-5 s^-1]", 6, 4, first, first + self.layers - 1))
-        chart_row = first + self.layers + 2  # a page of its own, after the chart data
+            series.append(("div_adjusted [1e-5 s^-1]", c0 + 6, c0 + 4, first,
+                           first + self.layers - 1))
         grid.chart = ChartSpec("omega and divergence against pressure", series,
                                "omega [hPa/h], divergence [1e-5 s^-1]", "pressure [hPa]",
                                (math.floor(top / 100.0) * 100.0,

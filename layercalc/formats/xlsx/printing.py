@@ -8,11 +8,21 @@ as cached values, and printing both would double the pages."""
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 A4 = 9  # ECMA-376 paperSize 9: A4 (210 mm x 297 mm)
-PAGE_WIDTH_CM = 28.0  # A4 landscape less the margins below
-ROW_CM = 0.53  # a default row (15 pt)
-CM_PER_WIDTH_UNIT = 0.19  # about one character of the default font
-CHART_WIDTH_CM, CHART_HEIGHT_CM = 13.0, 15.0  # each chart, as printed
+PAGE_WIDTH_CM = 27.6  # A4 landscape less the margins below
+PAGE_HEIGHT_CM = 17.0  # A4 landscape less the margins, the header and the footer
+ROW_CM = 0.462  # a default row as LibreOffice lays it out (13.1 pt; Excel: 15 pt)
+CM_PER_WIDTH_UNIT = 0.19  # about one character of the default font (Calibri)
+# LibreOffice without Calibri (measured: 0.215-0.227 cm per width unit, 13.1 pt rows)
+LO_CM_PER_WIDTH_UNIT = 0.225
+LO_ROW_POINTS = 13.1
+CM_PER_POINT = 2.54 / 72
+TITLE_EXTRA_POINTS = 8.0  # the 14 pt title row
+MIN_SCALE = 0.55  # about 7 pt of an 11 pt font: smaller, a table takes more pages
+CHART_WIDTH_CM, CHART_HEIGHT_CM = 12.5, 14.0  # each chart, as printed (some room to
+# spare: the scale is an estimate)
 
 
 def print_scale(widths: list[float]) -> float:
@@ -22,8 +32,73 @@ def print_scale(widths: list[float]) -> float:
 
 
 def chart_rows(scale: float) -> int:
-    """Rows the charts cover on the sheet when they print CHART_HEIGHT_CM high."""
+    """Rows the charts cover on the sheet when they print CHART_HEIGHT_CM high (rows as
+    LibreOffice lays them out, the shorter: the print area covers the charts in Excel too)."""
     return int(CHART_HEIGHT_CM / scale / ROW_CM) + 2
+
+
+@dataclass
+class PagePlan:
+    """How a results sheet prints: columns 1..`last_column` (the table's, and the blank
+    column after them widened where needed), `heights` of wrapped rows [points], and the
+    factor fit-to-width printing shrinks the page by."""
+
+    last_column: int
+    heights: dict
+    scale: float
+
+
+def page_plan(grid, widths: dict[int, float], printed: int, header_row: int,
+              last_row: int) -> PagePlan:
+    """The print plan of a grid (layout.Grid) whose columns 1..`printed` are printed,
+    `widths` as set (the spacer column's width is added to it).
+
+    The sheet is fitted to the page width only: fitted to two pages tall as well,
+    LibreOffice drops the page break before the charts (seen: the charts printed below
+    the table's last rows, cut off). So the page is made as wide as it must be for the
+    table page to fit one page in height too: the blank column after the table
+    (`printed` + 1, left of the helper columns) is widened. It is also widened up to a
+    page's width at full size, so that the cells block's notes, merged up to it, keep to
+    one line where they can. A table that would print below MIN_SCALE on one page prints
+    at its width's scale, on more pages. Widths and row heights are LibreOffice's without
+    Calibri (measured); Excel's columns print narrower, so Excel shrinks the page less."""
+    if grid.print_columns is None:  # the compare sheet: its headers on one line, no charts
+        return PagePlan(printed, {}, print_scale([widths.get(j, 10)
+                                                  for j in range(1, printed + 1)]))
+    spacer = printed + 1
+    table = sum(widths.get(j, 10) for j in range(1, printed + 1))
+    widths[spacer] = max(1.0, PAGE_WIDTH_CM / LO_CM_PER_WIDTH_UNIT - table)
+    heights = grid_heights(grid, widths, spacer, header_row)
+    end = last_row if grid.chart_row is None else grid.chart_row - 2
+    points = (end * LO_ROW_POINTS + TITLE_EXTRA_POINTS
+              + sum(h - LO_ROW_POINTS for r, h in heights.items() if r <= end))
+    by_width = min(1.0, PAGE_WIDTH_CM / ((table + widths[spacer]) * LO_CM_PER_WIDTH_UNIT))
+    by_height = PAGE_HEIGHT_CM / (points * CM_PER_POINT)
+    scale = by_width if by_height < MIN_SCALE else min(by_width, by_height)
+    if scale < by_width:
+        widths[spacer] = PAGE_WIDTH_CM / (scale * LO_CM_PER_WIDTH_UNIT) - table
+    return PagePlan(spacer, heights, scale)
+
+
+def grid_print(ws, grid, plan: PagePlan, header_row: int, last_row: int,
+               caution: str) -> None:
+    """Print setup of a results or compare sheet (layout.Grid) by its PagePlan: the
+    table page, then the charts, when there are any, on a page of their own, drawn larger
+    by the factor the page is shrunk by; the header row repeated on every page."""
+    from openpyxl.utils import get_column_letter
+
+    # Excel's columns are narrower in print than LibreOffice's without Calibri, so Excel
+    # shrinks the page less: the charts are drawn for Excel's scale, and print a little
+    # smaller, whole, in LibreOffice.
+    chart_scale = min(1.0, plan.scale * LO_CM_PER_WIDTH_UNIT / CM_PER_WIDTH_UNIT)
+    end = last_row if grid.chart_row is None else grid.chart_row + chart_rows(chart_scale)
+    if grid.chart is not None:
+        charts(ws, grid.chart, grid.chart_row, chart_scale)
+        chart_page(ws, grid.chart_row)
+    area = f"A1:{get_column_letter(plan.last_column)}{end}"
+    page_setup(ws, caution, f"{header_row}:{header_row}", area)
+    if grid.print_columns is None:  # compare: a few rows, no page break to keep
+        ws.page_setup.fitToHeight = 1
 
 
 def page_setup(ws, caution: str, title_rows: str | None = None, area: str | None = None,
@@ -116,6 +191,49 @@ def fit_rows(ws, rows, last_column: int) -> None:
                     if isinstance(value := ws.cell(row, j).value, str))
         if lines > 1:
             ws.row_dimensions[row].height = ROW_POINTS * lines
+
+
+BOLD_CHARACTER = 1.1  # width units of a bold character, about (LibreOffice without Calibri)
+
+
+def header_width(text: str) -> int:
+    """The width a bold header needs when it wraps at its spaces (`omega_bottom [hPa/h]`
+    on two lines): its longest word."""
+    import math
+
+    return math.ceil(max((len(word) for word in text.split()), default=1) * BOLD_CHARACTER)
+
+
+def header_lines(text: str, width: float) -> int:
+    """Lines a header wraps into at its spaces in a column `width` characters wide."""
+    import textwrap
+
+    return max(1, len(textwrap.wrap(text, max(1, int(width / BOLD_CHARACTER)),
+                                    break_long_words=False)))
+
+
+NOTE_CHARACTERS = 1.25  # characters of italic text per width unit (Calibri; more elsewhere)
+
+
+def grid_heights(grid, widths: dict[int, float], printed: int,
+                 header_row: int) -> dict[int, float]:
+    """Row heights [points] of a results grid (layout.Grid): the header row as high as its
+    most wrapped header in columns 1..`printed`, and each row of a wrapped note (merged
+    from its column to `printed`) as high as the note's lines."""
+    heights = {}
+    lines = max((header_lines(entry.value, widths.get(j, 10))
+                 for j in range(1, printed + 1)
+                 if (entry := grid.entries.get((header_row, j))) is not None
+                 and isinstance(entry.value, str)), default=1)
+    if lines > 1:
+        heights[header_row] = ROW_POINTS * lines
+    for row, (column, last) in grid.wrapped.items():
+        text = grid.entries[(row, column)].value
+        width = sum(widths.get(j, 10) for j in range(column, max(last or printed, column) + 1))
+        lines = wrapped_lines(text, width * NOTE_CHARACTERS) if isinstance(text, str) else 1
+        if lines > 1:
+            heights[row] = ROW_POINTS * lines
+    return heights
 
 
 def wrap_notes(ws, rows, last_column: int) -> None:

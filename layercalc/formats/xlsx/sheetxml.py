@@ -91,12 +91,17 @@ def number_value(value: float) -> str:
     return repr(value)
 
 
-def sheet_data(rows: dict[int, list[tuple[int, str]]]) -> str:
-    """`<sheetData>` of cells given as row -> [(column, cell xml)], any order."""
+def sheet_data(rows: dict[int, list[tuple[int, str]]],
+               heights: dict[int, float] | None = None) -> str:
+    """`<sheetData>` of cells given as row -> [(column, cell xml)], any order; `heights`
+    (row -> points) for rows of wrapped text (18.3.1.73: ht, customHeight)."""
+    heights = heights or {}
     parts = ["<sheetData>"]
     for row in sorted(rows):
         cells = sorted(rows[row])
-        parts.append(f'<row r="{row}">')
+        height = heights.get(row)
+        parts.append(f'<row r="{row}">' if height is None else
+                     f'<row r="{row}" ht="{height:g}" customHeight="1">')
         parts.extend(xml for _, xml in cells)
         parts.append("</row>")
     parts.append("</sheetData>")

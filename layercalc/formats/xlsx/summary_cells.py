@@ -178,7 +178,7 @@ def table_check(column: str, layers: int, sheet: str = "") -> tuple[str, str, st
     cell that compares the layers in the table with the rows the formulas cover: a row
     added to or removed from `layers` is not in the results sheets' formulas."""
     count = f"COUNT({sheet}${column}$2:${column}${LAST_SHEET_ROW})"
-    ok = f"OK: the results sheets' formulas cover all {layers} layers of 'layers'"
+    ok = f"OK: the formulas cover all {layers} layers"
     formula = (f'IF({count}={layers},"{ok}","CHECK: the table has "&{count}&" layers but '
                f"the results sheets' formulas cover {layers} (rows 2-{layers + 1}): their "
                'results leave out the change; export the workbook again with layercalc")')
