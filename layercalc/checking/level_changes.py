@@ -31,6 +31,11 @@ from layercalc.names import close_names
 PRESSURE_TOLERANCE = 1e-6  # relative, when a level equals a selection pressure
 WIND_NAMES = ("dir", "speed", "u", "v")
 _ANGLE = re.compile(r"\b(deg|rad)\b")
+# the hint where a sheet's layers are a layers table (a workbook that holds its layer
+# means as values, "not live", is one once imported)
+_NO_SOUNDINGS = ("its layers come from a layers table; a change without 'at' changes them "
+                 "(a workbook whose layers are not live of its soundings: change the "
+                 "soundings in the .layers file it was exported from)")
 
 
 def pressure_bounds(checker, selection) -> tuple[float, ...]:
@@ -73,12 +78,12 @@ def tables_of(sheet, change) -> tuple[tuple[int, ...], list]:
             raise DefinitionError("'at levels' changes the top-level levels table, and this "
                                   "sheet has none", place.span,
                                   hint="for a station's values write at \"Name\" or at "
-                                       "every station" if stations else None)
+                                       "every station" if stations else _NO_SOUNDINGS)
         return (0,), [main]
     if not stations:
         raise DefinitionError("this sheet has no station blocks to change", place.span,
-                              hint="'at levels' changes the levels table; a change "
-                                   "without 'at' changes the layers")
+                              hint="'at levels' changes the levels table" if main is not None
+                              else _NO_SOUNDINGS)
     if place.kind == "every station":
         return tuple(range(offset, offset + len(stations))), stations
     names = [network_name(s) for s in stations]

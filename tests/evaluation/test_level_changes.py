@@ -317,3 +317,12 @@ def test_the_sweep_command_varies_a_cell_a_station_change_reads(capsys, tmp_path
         assert float(row[1]) == pytest.approx(
             one.si_cells["surface_pressure_tendency"] * 3 * 3600 / 100, rel=1e-12)
     assert float(rows[0][1]) != pytest.approx(float(rows[2][1]))  # the turn moves it
+
+
+def test_a_station_change_in_a_sheet_of_layers_says_where_its_layers_come_from():
+    # a workbook whose layers are values, once imported, is such a sheet
+    from tests.helpers import BASE_TABLE
+
+    text = error_of(BASE_TABLE + 'scenario x\n  scale speed by 2 at "A"\nend\n').format()
+    assert "no station blocks to change" in text
+    assert "its layers come from a layers table" in text and "test.layers:" in text

@@ -147,3 +147,4 @@ def test_export_import_export_keeps_a_station_scenario(tmp_path):
     second = tmp_path / "second.xlsx"
     write_workbook(again, second)
     assert load_workbook(second)["stations_eastmoor_turned"].sheet_state == "hidden"
+
