@@ -384,6 +384,15 @@ def test_every_sheet_has_a_print_setup(exported):
                if str(results.cell(HEADER_ROW, j).value).startswith("helper")]
     last_printed = column_index_from_string(area.split(":")[-1].split("$")[1])
     assert helpers and last_printed < helpers[0]  # the SI helper columns are not printed
+    # each readable formula of the cells block wrapped over the printed width (merged up
+    # to the blank column after the table, which is printed), not cut at the page edge
+    assert results.cell(HEADER_ROW, last_printed).value is None
+    note_rows = [r for r in range(FIRST_ROW, results.max_row + 1)
+                 if str(results.cell(r, 4).value).startswith("cell ")]
+    merged = {str(m) for m in results.merged_cells.ranges}
+    assert note_rows and all(f"D{r}:{get_column_letter(last_printed)}{r}" in merged
+                             for r in note_rows)
+    assert all(results.cell(r, 4).alignment.wrap_text for r in note_rows)
     # the charts start on a page of their own, inside the print area
     breaks = [b.id for b in results.row_breaks.brk]
     anchor_row = results._charts[0].anchor._from.row + 1
