@@ -218,3 +218,17 @@ def test_a_scenario_on_the_levels_has_its_own_levels_sheet(tmp_path):
     results = workbook["results_warm"]
     assert results["C6"].value.startswith("=((('levels_warm'!B5+273.15)+('levels_warm'!B6")
     assert results["D6"].value == "='layers'!D2"  # Td: not changed
+
+
+def test_export_import_export_keeps_a_scenario_on_the_levels(tmp_path):
+    text = LEVELS + ("cell warming = 2 K\nscenario warm\n"
+                     "  add warming to T at levels above 700 hPa\nend\n")
+    sheet = layercalc.loads(text, name="levels.layers")
+    first, second = tmp_path / "first.xlsx", tmp_path / "second.xlsx"
+    write_workbook(sheet, first)
+    again = import_workbook(first, layercalc.loads).sheet
+    assert again.scenarios == ["warm"]
+    # source: layercalc's evaluation of the original text
+    assert_same_results(sheet, again, sheet.scenarios, rtol=1e-12)
+    write_workbook(again, second)
+    assert load_workbook(second)["levels_warm"].sheet_state == "hidden"
