@@ -439,6 +439,7 @@ def test_the_workbooks_print_on_few_readable_pages(tmp_path):
         if load_workbook(path)["results"]._charts:  # a case without omega has no chart
             assert any("omega against pressure" in page for page in printed)
         assert not any(page.strip().startswith("values") for page in printed)
+        assert "###" not in text  # every number fits its column (narrow columns)
         sheets = [page.split()[0] for page in printed]  # the header: sheet name, page
         for name in set(sheets):
             kind = "results" if name.startswith("results") else name

@@ -339,7 +339,7 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
     value_rows: dict[int, list] = {}
     letters: dict[int, str] = {}
     widths: dict[int, int] = {}
-    numbers: dict[int, tuple[float, int]] = {}  # column -> (largest magnitude, decimals)
+    numbers: dict[int, dict] = {}  # column -> {(decimals, scientific): largest magnitude}
     known = styles.known
     from layercalc.formats.xlsx import printing
 
@@ -367,14 +367,13 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
                     formula = X.escape(formula)
                 live_xml = f'<c r="{reference}" s="{style_id}"><f>{formula}</f><v>{shown}</v></c>'
             if row >= HEADER_ROW and entry.style not in NOTES:
-                decimals = decimals_of.get(fmt)
-                if decimals is None:
-                    decimals = decimals_of[fmt] = (fmt or "0.00").partition(".")[2].count("0")
+                shape = decimals_of.get(fmt)
+                if shape is None:
+                    shape = decimals_of[fmt] = _number_shape(fmt)
                 size = text if text >= 0 else -10.0 * text
-                found = numbers.get(column)
-                if found is None or size > found[0] or decimals > found[1]:
-                    numbers[column] = (size if found is None else max(size, found[0]),
-                                       decimals if found is None else max(decimals, found[1]))
+                found = numbers.setdefault(column, {})
+                if size > found.get(shape, -1.0):
+                    found[shape] = size
         else:
             is_text = isinstance(text, str)
             key = (entry.style, None, text[:1] in ("=", "+", "-", "@")) if is_text else \
@@ -406,9 +405,9 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
         if entry.comment:
             live_ws.cell(row, column).comment = Comment(entry.comment, "layercalc",
                                                         width=320, height=120)
-    for column, (magnitude, decimals) in numbers.items():
+    for column, shapes in numbers.items():  # the widest number as shown, per format
         widths[column] = max(widths.get(column, MIN_WIDTH),
-                             len(f"{magnitude:.{decimals}f}"))
+                             *(_shown_number(size, shape) for shape, size in shapes.items()))
     dimension = f"A1:{letter(last_column)}{last_row}"
     widths = {j: min(w + 1, 48) for j, w in widths.items()}
     printed = max(grid.print_columns or last_column, 8)
@@ -437,6 +436,21 @@ def _write_grid(live_ws, values_ws, grid: Grid, styles, note: str) -> tuple:
 
 MIN_WIDTH = 5  # characters: a column of short numbers under a wrapped header stays narrow
 NOTES = ("note", "wrapped")  # text that runs on into empty cells, or wraps over them
+
+
+def _number_shape(fmt: str | None) -> tuple[int, bool]:
+    """(decimals, scientific) of a number format such as "0.000" or "0.000E+00"."""
+    text = fmt or "0.00"
+    return text.partition(".")[2].partition("E")[0].count("0"), "E" in text
+
+
+def _shown_number(size: float, shape: tuple[int, bool]) -> int:
+    """Characters of a number shown with a format of `shape`; `size` is its magnitude, or
+    ten times it for a negative number (a digit's room for the minus sign)."""
+    decimals, scientific = shape
+    if scientific:  # -d.dddE+00
+        return decimals + 7
+    return len(f"{size:.{decimals}f}")
 
 
 def _shown_width(value, entry) -> int:
