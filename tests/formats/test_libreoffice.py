@@ -394,7 +394,7 @@ SHEET_PAGES = {"results": 2, "notes": 2}  # pages a sheet may take; every other 
 # 3.4 before their layouts were narrowed (from memory and judgement: below about 4 pt of
 # type a printed page is not read). The wide results tables print smallest: 5.3 pt (4.3 for
 # trainer_exercise) before their headers wrapped and the chart data left the print area,
-# 6.8-8.8 pt after.
+# 6.9-11 pt after (measured).
 SMALLEST_TEXT = {"results": 6.5}
 SMALLEST_TEXT_OTHERS = 6.5
 
