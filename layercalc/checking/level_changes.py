@@ -13,6 +13,7 @@ Selections pick levels by their pressure, inclusive:
     between P1 and P2   min(P1, P2) <= p <= max(P1, P2)
     above P             p <= P
     below P             p >= P
+    at P                p = P (one level, within a relative 1e-6)
 so a layer is picked by a range exactly when both its levels are (the layer rule in
 checking/scenarios.py). `where` is for layers only.
 """
@@ -62,6 +63,8 @@ def level_mask(pressure, selection: str | None, bounds) -> np.ndarray:
         return pressure <= bounds[0] * (1 + tol)
     if selection == "below":
         return pressure >= bounds[0] * (1 - tol)
+    if selection == "at":
+        return np.abs(pressure - bounds[0]) <= bounds[0] * tol
     return np.ones(pressure.shape, dtype=bool)
 
 
@@ -94,6 +97,45 @@ def tables_of(sheet, change) -> tuple[tuple[int, ...], list]:
                                + ", ".join(f'"{n}"' for n in names))
     index = names.index(place.station)
     return (offset + index,), [stations[index]]
+
+
+def tables_with_column(sheet, name: str) -> str:
+    """Which level tables have a column `name`, in words ('' if none): for the hint when a
+    change names such a column without saying where."""
+    details = sheet.soundings
+    if details is None:
+        return ""
+    main = details.levels_table
+    stations = list(details.station_soundings)
+    found = []
+    if any(name in s.values for s in stations):
+        found.append("the station tables")
+    if main is not None and name in main.values:
+        found.append("the levels table")
+    return " and ".join(found)
+
+
+def place_hint(sheet, change) -> str:
+    """The change as written with its place put in (after the column and the amount, where
+    the grammar has it), for the hint when a change names a level column without one."""
+    details = sheet.soundings
+    text = change.span.source.text
+    cut = max(change.target_span.end, change.amount.span.end)
+    head = " ".join(text[change.span.start:cut].split())
+    selection = change.selection
+    tail = "" if selection is None else " ".join(
+        text[selection.span.start:selection.span.end].split())
+    places = []
+    if change.target in stations_columns(details):
+        places += [f'at "{network_name(details.station_soundings[0])}"', "at every station"]
+    if details.levels_table is not None and change.target in details.levels_table.values:
+        places.append("at levels")
+    return "e.g. " + " or ".join(f"'{' '.join(p for p in (head, place, tail) if p)}'"
+                                 for place in places[:2])
+
+
+def stations_columns(details) -> set:
+    return {name for s in details.station_soundings for name in s.values}
 
 
 def network_name(sounding) -> str:

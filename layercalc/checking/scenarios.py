@@ -6,6 +6,7 @@ Selections, in terms of each layer's own bounds (base pressures):
     above P             the layer lies wholly above P   (p_bottom <= P)
     below P             the layer lies wholly below P   (p_top >= P)
     where CONDITION     the condition holds for the layer (row by row)
+(`at P`, one level, is for level changes only.)
 A change `at "Station"`, `at every station` or `at levels` changes level values instead
 (checking/level_changes.py: levels picked by their pressure, both ends inclusive).
 Temperatures added with `add` are differences: `add 3 degC to T` equals `add 3 K to T`.
@@ -154,6 +155,11 @@ def _check_change(checker, sheet, ch) -> CheckedChange:
                               "pressures", ch.target_span,
                               hint="change T, Td, div or another input column")
     if ch.target not in sheet.input_columns:
+        where = LC.tables_with_column(sheet, ch.target)
+        if where:
+            raise DefinitionError(f"'{ch.target}' is a column of {where}, not of the layers: "
+                                  "say which table the change acts on", ch.target_span,
+                                  hint=LC.place_hint(sheet, ch))
         close = close_names(ch.target, sheet.input_columns, 3)
         raise UnknownNameError(f"'{ch.target}' is not an input column of the layers table",
                                ch.target_span, close,
@@ -178,6 +184,15 @@ def _check_change(checker, sheet, ch) -> CheckedChange:
     selection, bounds, condition = None, (), None
     if ch.selection is not None:
         selection = ch.selection.kind
+        if selection == "at":
+            raise DefinitionError("'at' with a pressure picks one level; a change to the "
+                                  "layers picks layers, each between two levels",
+                                  ch.selection.span,
+                                  hint=("for one level of a table, say which: "
+                                        + LC.place_hint(sheet, ch)
+                                        if LC.tables_with_column(sheet, ch.target) else
+                                        "e.g. between 350 hPa and 300 hPa, above 500 hPa "
+                                        "or below 850 hPa"))
         if selection == "where":
             condition = checker.expr(ch.selection.first, prefer_columns=True)
             _inputs_only(condition, ch.selection.first.span)

@@ -20,7 +20,8 @@ _BINARY = {"add": "+", "subtract": "-", "multiply": "*", "divide": "/", "power":
 _PLACES = {"at_station": "station", "at_every_station": "every station",
            "at_table": "levels"}
 _SELECTIONS = {"select_between": "between", "select_above": "above",
-               "select_below": "below", "select_where": "where"}
+               "select_below": "below", "select_where": "where",
+               "select_level": "at"}
 
 
 def build_document(source: Source, tree) -> Document:

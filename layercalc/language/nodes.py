@@ -191,7 +191,7 @@ class _RowSpans(Sequence):
 @dataclass(frozen=True)
 class Selection:
     span: Span
-    kind: str  # "between", "above", "below", "where"
+    kind: str  # "between", "above", "below", "where", "at" (one level: level changes only)
     first: Optional[Expr] = None
     second: Optional[Expr] = None
 

@@ -185,6 +185,12 @@ end
     ('scale speed by div at every station', "input cells only"),
     ('scale speed by 2 at every station where T > 0 degC', "'where' selects layers"),
     ('scale speed by 2 at layers', "expected 'at \"Station name\"'"),
+    ('add 5 deg to dir at "Eastmoor" at 3 K', "'at' needs a pressure"),
+    ("add 2 K to T at 300 hPa", "'at' with a pressure picks one level"),
+    ("scale speed by 1.2 above 500 hPa", "'speed' is a column of the station tables"),
+    ("scale speed by 1.2 above 500 hPa",
+     "'scale speed by 1.2 at \"Northfield\" above 500 hPa'"),
+    ("add 5 deg to dir   # no place", "'add 5 deg to dir at every station'"),
 ])
 def test_level_change_errors(body, expected):
     text = error_of(CASE + f"scenario x\n  {body}\nend\n").format()
@@ -326,3 +332,27 @@ def test_a_station_change_in_a_sheet_of_layers_says_where_its_layers_come_from()
     text = error_of(BASE_TABLE + 'scenario x\n  scale speed by 2 at "A"\nend\n').format()
     assert "no station blocks to change" in text
     assert "its layers come from a layers table" in text and "test.layers:" in text
+
+
+def test_one_level_picked_with_at_equals_the_wind_typed_in():
+    # `at 300 hPa` picks the 300 hPa level alone, like `between 300 hPa and 300 hPa`
+    sheet = layercalc.loads(CASE + """
+scenario one
+  add turn to dir at "Eastmoor" at 300 hPa
+end
+scenario same
+  add turn to dir at "Eastmoor" between 300 hPa and 300 hPa
+end
+""", name="case.layers")
+    typed = _typed(CASE, {
+        "300    -43.0     -51.5    9237    243     83": "300    -43.0     -51.5    9237    248     83"})
+    _compare(sheet.evaluate("one"), typed)
+    assert_allclose(sheet.evaluate("one").si_cells["surface_pressure_tendency"],
+                    sheet.evaluate("same").si_cells["surface_pressure_tendency"], rtol=0)
+
+
+def test_at_a_pressure_between_levels_picks_no_level_and_warns():
+    sheet = layercalc.loads(CASE + 'scenario off\n  add 5 deg to dir at "Eastmoor" '
+                            "at 310 hPa\nend\n", name="case.layers")
+    texts = [n.format() if hasattr(n, "format") else str(n) for n in sheet.check()]
+    assert any("selects no level" in t for t in texts)
