@@ -181,12 +181,19 @@ def command_import(args) -> int:
 def write_loadable(path, text: str, force: bool = False) -> None:
     """Write an imported sheet only if the bytes written load again, read back from the
     file as `layercalc run` reads it (a text that compiles in memory may still not load
-    from disk: a lone carriage return inside quotes ends the line when read)."""
+    from disk: a lone carriage return inside quotes ends the line when read).
+
+    `text` has compiled in memory already (the caller did it): when the file reads back as
+    the very same text, it loads as that did, so it is compiled again only when reading
+    changed it (one compilation per import)."""
     from layercalc.api import load
     from layercalc.files import write_through_temporary
+    from layercalc.source import read_source
 
     def written_and_read_back(temporary: str) -> None:
         Path(temporary).write_bytes(text.encode("utf-8"))
+        if read_source(temporary).text == text:
+            return
         try:
             load(temporary)
         except LayercalcError as exc:

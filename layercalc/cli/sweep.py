@@ -11,7 +11,6 @@ from layercalc.cli.common import (
     PLOT_SUFFIXES, load_case, need_scenario, need_suffix, write_files,
 )
 from layercalc.errors import UsageError
-from layercalc.formats.xlsx.sheetxml import ILLEGAL
 
 FIRST_VALUE_ROW = 6  # the sweep sheet: title, caution, blank, header, units, values
 MAX_SHEET_ROWS = 1_048_576  # a worksheet's last row (Excel, LibreOffice)
@@ -25,6 +24,7 @@ def _sweep_workbook(frame, units: dict, title: str) -> bytes:
     from openpyxl.styles import Font
 
     from layercalc.caution import CAUTION
+    from layercalc.formats.xlsx.sheetxml import ILLEGAL
 
     book = Workbook()
     sheet = book.active

@@ -492,6 +492,24 @@ def test_check_compiles_each_file_once(case, bad_case, monkeypatch, capsys):
     capsys.readouterr()
 
 
+def test_import_compiles_the_sheet_once(monkeypatch, capsys, tmp_path):
+    # the sheet made from the workbook is compiled where its errors can name a cell; the
+    # file written is read back and, being the same text, not compiled a second time
+    from layercalc import api
+
+    book = tmp_path / "book.xlsx"
+    assert main(["export", str(WARMING), "-o", str(book)]) == 0
+    compiled = []
+    original = api._compile
+    monkeypatch.setattr(api, "_compile", lambda *a, **k: compiled.append(1) or original(*a, **k))
+    back = tmp_path / "back.layers"
+    assert main(["import", str(book), "-o", str(back)]) == 0
+    assert len(compiled) == 1
+    assert api.load(back).evaluate().cells["surface_pressure_tendency"] == \
+        api.load(WARMING).evaluate().cells["surface_pressure_tendency"]  # the same sheet
+    capsys.readouterr()
+
+
 def test_sweep_and_help_leave_the_heavy_libraries_alone():
     import subprocess
     import sys
