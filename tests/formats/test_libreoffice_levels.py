@@ -403,3 +403,24 @@ def test_a_network_with_a_missing_wind_follows_edits(tmp_path, case):
                 got_v, want_v, rtol=TOLERANCE, atol=1e-9 * np.nanmax(np.abs(fitted.vorticity)))
         assert_inputs(calc, want)
         assert_results(calc, live, want, before=None if name == "untouched" else sheet)
+
+
+def test_a_wind_blanked_on_the_stations_sheet_turns_its_check_red(tmp_path):
+    # a wind present at export counts as 0 in the fit's formulas once blanked, while
+    # layercalc leaves the station out of that level's fit: the station's check says so
+    sheet = layercalc.load(next(p for p in WORKED if p.name == "three_stations.layers"))
+    path = tmp_path / "blanked.xlsx"
+    write_workbook(sheet, path)
+    book = load_workbook(path)
+    ws = book["stations"]
+    marks = [r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == "station"
+             and ws.cell(r, 2).value != "latitude [deg]"]  # not the station list's header
+    eastmoor = next(r for r in marks if ws.cell(r, 2).value == "Eastmoor")
+    ws.cell(eastmoor + 2, 5).value = None  # the surface level's dir
+    book.save(path)
+    calc = load_workbook(convert([path], tmp_path / "out", tmp_path / "profile")[path],
+                         data_only=True)["stations"]
+    checks = {calc.cell(r, 2).value: calc.cell(r, 3).value for r in marks}
+    assert checks == {"Northfield": "OK: every wind is there",
+                      "Eastmoor": "CHECK: 1 blank wind value(s): the fit reads 0 (note above)",
+                      "Southvale": "OK: every wind is there"}, checks

@@ -74,6 +74,42 @@ def red_when(ws, reference: str, condition: str) -> None:
         font=Font(bold=True, color="FFFFFF")))
 
 
+def put_check(ws, row: int, column: int, check: tuple[str, str]) -> None:
+    """A check cell: its formula (OK/CHECK text) and the condition that turns it red."""
+    formula, condition = check
+    cell = ws.cell(row, column, "=" + formula)
+    style(cell, "check")
+    red_when(ws, cell.coordinate, condition)
+
+
+def values_check(used: list, data, names: list, first_row: int, ok: str,
+                 missing: str) -> tuple[str, str]:
+    """A check cell's formula and its red condition: every value of the columns `used` of
+    a table (rows from `first_row`, `data` as exported, NaN for blank) that was there at
+    export is still a number (a blank counts as 0 in a formula, where layercalc would do
+    otherwise: the two would differ silently). Its text: `ok`, else "CHECK: N" + `missing`."""
+    import numpy as np
+
+    runs, count = [], 0
+    for name in used:
+        column = letter(names.index(name) + 1)
+        present = np.isfinite(data[:, names.index(name)])
+        count += int(present.sum())
+        k = 0
+        while k < present.size:
+            if not present[k]:
+                k += 1
+                continue
+            end = k
+            while end + 1 < present.size and present[end + 1]:
+                end += 1
+            runs.append(f"{column}{first_row + k}:{column}{first_row + end}")
+            k = end + 1
+    counted = f"COUNT({','.join(runs)})"
+    text = f'IF({counted}={count},"{ok}","CHECK: "&({count}-{counted})&"{missing}")'
+    return text, f"{counted}<>{count}"
+
+
 SCIENTIFIC = "0.000E+00"  # for quantities like 1e-5 s^-1 or 1e11 m^2
 
 

@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from layercalc.formats.xlsx.cells import letter, put_text, red_when, style
+from layercalc.formats.xlsx.cells import letter, put_check, put_text, style, values_check
 from layercalc.formats.xlsx.column_levels import (
     ColumnFormulas, column_structure, gap_filled, surface_block,
 )
@@ -111,8 +111,12 @@ def levels_sheet(ws, live: LiveLevels) -> dict:
     style(ws.cell(HEADER_ROW - 1, side), "name")
     ws.cell(HEADER_ROW - 1, side + 1, data.shape[0])
     names = [h.name for h in table.headings]
-    _check(ws, HEADER_ROW, side, _values_check(["p", *live.gaps], data, names))
-    _check(ws, HEADER_ROW + 1, side, _count_check(places["p"][0], data.shape[0]))
+    put_check(ws, HEADER_ROW, side, values_check(
+        ["p", *live.gaps], data, names, HEADER_ROW + 1,
+        "OK: every value the layer formulas read is there",
+        " value(s) the layer formulas read are blank or text: a blank counts as 0 there "
+        "(layercalc would interpolate); type the value or export again"))
+    put_check(ws, HEADER_ROW + 1, side, _count_check(places["p"][0], data.shape[0]))
     return places
 
 
@@ -137,39 +141,6 @@ def level_sources(places: dict, live: LiveLevels, sheet: str = SHEET) -> tuple:
         return value
 
     return pressure, {name: source(name) for name in live.gaps}
-
-
-def _check(ws, row: int, column: int, check: tuple[str, str]) -> None:
-    formula, condition = check
-    cell = ws.cell(row, column, "=" + formula)
-    style(cell, "check")
-    red_when(ws, cell.coordinate, condition)
-
-
-def _values_check(used: list, data: np.ndarray, names: list) -> tuple[str, str]:
-    """A check cell's formula and its red condition: every value the layer formulas read
-    and that was there at export is still a number (a blank counts as 0 in a formula)."""
-    runs, count = [], 0
-    for name in used:
-        column = letter(names.index(name) + 1)
-        present = np.isfinite(data[:, names.index(name)])
-        count += int(present.sum())
-        k = 0
-        while k < present.size:
-            if not present[k]:
-                k += 1
-                continue
-            end = k
-            while end + 1 < present.size and present[end + 1]:
-                end += 1
-            runs.append(f"{column}{HEADER_ROW + 1 + k}:{column}{HEADER_ROW + 1 + end}")
-            k = end + 1
-    counted = f"COUNT({','.join(runs)})"
-    text = ('IF({c}={n},"OK: every value the layer formulas read is there",'
-            '"CHECK: "&({n}-{c})&" value(s) the layer formulas read are blank or text: a '
-            'blank counts as 0 there (layercalc would interpolate); type the value or export '
-            'again")').format(c=counted, n=count)
-    return text, f"{counted}<>{count}"
 
 
 def _count_check(column: str, levels: int) -> tuple[str, str]:

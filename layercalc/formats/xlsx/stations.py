@@ -26,7 +26,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from layercalc.formats.xlsx.cells import SCIENTIFIC, letter, put_number, put_text, style
+from layercalc.formats.xlsx.cells import (SCIENTIFIC, letter, put_check, put_number, put_text, style,
+                                         values_check)
 from layercalc.formats.xlsx.formulas import from_si, number_format, number_text, to_si
 
 SHEET = "stations"
@@ -77,7 +78,9 @@ def stations_sheet(ws, checked, found, tables: list | None = None,
              "longitude does not move a station here; edit the .layers file and export again.",
              "Each station's levels are listed surface first; T, Td and z are read back on "
              "import (the layers sheet's T and Td are live station means, or with a levels "
-             "table formulas of that table).")
+             "table formulas of that table). A wind blanked here counts as 0 in the fit, "
+             "while layercalc leaves that station out of the level's fit: the check beside "
+             "the station's name turns red; type the wind or export again.")
     for row, text in enumerate(notes, start=1):
         put_text(ws.cell(row, 1), text)
         style(ws.cell(row, 1), "note")
@@ -133,6 +136,15 @@ def stations_sheet(ws, checked, found, tables: list | None = None,
                     ws.cell(row + 1 + k, j, float(value))
         units = heading_units(st.table)
         pair = ("dir", "speed") if "dir" in names else ("u", "v")
+        # a wind blanked after export counts as 0 in the fit's formulas, while layercalc
+        # leaves that station out of the level's fit: the check beside the station's name
+        # turns red then (a wind blank at export is fitted without it, live)
+        put_check(ws, row - 1, 3, values_check(
+            list(pair), data[order], names, row + 1, "OK: every wind is there",
+            " blank wind value(s): the fit reads 0 (note above)"))
+        # merged over the table's width: LibreOffice clips a red cell's text at its edge
+        ws.merge_cells(start_row=row - 1, start_column=3, end_row=row - 1,
+                       end_column=max(len(GEOMETRY_HEADER), len(names)))
         wind_cells.append((pair[0], units[pair[0]], units[pair[1]],
                            letter(names.index(pair[0]) + 1), letter(names.index(pair[1]) + 1),
                            row + 1))
