@@ -56,19 +56,28 @@ def load(path: str | Path, *, reuse_checks: bool = False) -> "Sheet":
 
 def _compile(source: Source, reuse_checks: bool = False):
     from layercalc.language import dimensions, units
-    from layercalc.language.build import build_document
-    from layercalc.checking.checker import check_document
-    from layercalc.language.parser import parse
 
     key = None
     if reuse_checks and units.source() is None and not dimensions.is_disabled():
         key = dimensions.sheet_key(source.text)
         table = dimensions.cached_outcome(key)
-        if table is not None:
-            units.use_cached(table)
+        if table is not None and units.use_cached(table):
+            from layercalc.checking import stored
+
+            kept = stored.load(key, table, source)  # the same text checked in an earlier run
+            if kept is not None:
+                return kept
+    from layercalc.language.build import build_document
+    from layercalc.checking.checker import check_document
+    from layercalc.language.parser import parse
+
     checked = check_document(build_document(source, parse(source)))
     if key is not None and units.source() == "sympy":
         dimensions.remember(key, units.outcome_table())
+    elif key is not None and units.source() == "cache":
+        from layercalc.checking import stored
+
+        stored.keep(key, table, source, checked)
     return checked
 
 

@@ -70,3 +70,18 @@ def parse_unit_string(text: str, where: str = "<unit>") -> U.Unit:
     if table is not None:
         _READ[table, text] = unit
     return unit
+
+
+def units_read() -> dict[str, U.Unit]:
+    """The units this process has read from text with the current unit table."""
+    table = U.source()
+    return {text: unit for (source, text), unit in _READ.items() if source == table}
+
+
+def add_units_read(units: dict[str, U.Unit]) -> None:
+    """Units read from these texts in an earlier run with the same unit table (a kept
+    checked sheet brings them, checking/stored.py), so they need no parse now."""
+    table = U.source()
+    if table is not None:
+        for text, unit in units.items():
+            _READ.setdefault((table, text), unit)
