@@ -30,6 +30,10 @@ from layercalc.source import Source
 PREFIX = "checked-"
 SUFFIX = ".json"
 MAX_FILES = 64  # sheets kept; the least recently written are removed
+# Only small sheets are kept: a text of 100,000 layers (2.6 MB) would need a 14 MB file, and
+# its table is read at numpy speed anyway (language/table_body.py).
+MAX_TEXT_CHARS = 200_000
+MAX_FILE_BYTES = 4_000_000
 _PACKAGE = Path(__file__).resolve().parents[1]
 _STAMP: list[str] = []
 
@@ -114,6 +118,8 @@ def keep(check_key: str, table: dict, source: Source, sheet: CheckedSheet) -> No
         sheets = [sheet, *sheet.option_variants.values()]
         if any(s.evaluation_plans or s.uncertainty for s in sheets):
             return  # not as checked: keep nothing
+        if len(source.text) > MAX_TEXT_CHARS:
+            return
         path = _path(stored_key(check_key, table, source))
         if path is not None:
             _keep_at_exit(path, to_data(sheet), None)
@@ -142,6 +148,8 @@ def _write(path: Path, sheet_data: dict, had: set | None) -> None:
             return
         data = json.dumps({"sheet": sheet_data, "units": to_data(units)},
                           separators=(",", ":")).encode("utf-8")
+        if len(data) > MAX_FILE_BYTES:
+            return
         handle, temporary = tempfile.mkstemp(prefix=PREFIX, suffix=".tmp", dir=path.parent)
         try:
             with os.fdopen(handle, "wb") as stream:  # mkstemp: mode 0600

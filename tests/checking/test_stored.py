@@ -142,3 +142,19 @@ def test_a_corrupt_or_linked_file_is_checked_afresh(tmp_path):
     kept.symlink_to(elsewhere)
     out, err, probe = run(CASE, cache)
     assert "parsed=True" in probe and (out, err) == want
+
+
+def test_a_big_text_is_not_kept(tmp_path):
+    from layercalc.checking.stored import MAX_TEXT_CHARS
+
+    rows = "\n".join(f"{1000 - i * 0.08:.2f} {1000 - (i + 1) * 0.08:.2f} -20 0.1"
+                     for i in range(10_000))
+    case = tmp_path / "big.layers"
+    case.write_text("layers\n p_bottom [hPa] p_top [hPa] T [degC] div [1e-5 s^-1]\n"
+                    f"{rows}\nend\n", encoding="utf-8")
+    assert len(case.read_text(encoding="utf-8")) > MAX_TEXT_CHARS
+    cache = tmp_path / "cache"
+    cache.mkdir(mode=0o700)
+    for _ in range(3):
+        assert "parsed=True" in run(case, cache, "--json")[2]
+    assert list(cache.glob("checked-*")) == [] and (cache / "dimensions-v1.json").exists()
