@@ -274,6 +274,20 @@ def assert_follows(tmp_path, path, untouched, sheet, edited_text: str, moving: s
         assert_hydrostatic(calc["hydrostatic"], live["hydrostatic"], want, k)
 
 
+def edited_and_exported(tmp_path, text: str, edits, name: str) -> tuple:
+    """(sheet of `text`, `text` with each (old, new) edit made once, the workbook to edit,
+    an untouched copy)."""
+    edited_text = text
+    for old, new in edits:
+        assert edited_text.count(old) == 1, old
+        edited_text = edited_text.replace(old, new)
+    sheet = layercalc.loads(text, name=f"{name}.layers")
+    path, untouched = tmp_path / f"{name}.xlsx", tmp_path / "untouched.xlsx"
+    write_workbook(sheet, path)
+    write_workbook(sheet, untouched)
+    return sheet, edited_text, path, untouched
+
+
 def test_stations_with_a_levels_table_and_a_cut_follow_edits(tmp_path):
     # T at 850 hPa on the levels sheet 4.5 -> 6.5 degC, Eastmoor's 700 hPa wind 230 -> 245
     # degrees, surface_pressure 980 -> 990 hPa (still inside the 1000-925 hPa layer).
@@ -283,14 +297,7 @@ def test_stations_with_a_levels_table_and_a_cut_follow_edits(tmp_path):
     edits = (("  850     4.5    1.0  1440", "  850     6.5    1.0  1440"),
              ("       700    230     35", "       700    245     35"),
              ("surface_pressure = 980 hPa", "surface_pressure = 990 hPa"))
-    edited_text = text
-    for old, new in edits:
-        assert edited_text.count(old) == 1
-        edited_text = edited_text.replace(old, new)
-    sheet = layercalc.loads(text, name="both.layers")
-    path, untouched = tmp_path / "both.xlsx", tmp_path / "untouched.xlsx"
-    write_workbook(sheet, path)
-    write_workbook(sheet, untouched)
+    sheet, edited_text, path, untouched = edited_and_exported(tmp_path, text, edits, "both")
     edit_levels(path, {(850, "T"): 6.5}, {"surface_pressure": 990})
     workbook = load_workbook(path)
     cell = station_wind_cell(workbook["stations"], "Eastmoor", 700, "dir")
@@ -424,3 +431,37 @@ def test_a_wind_blanked_on_the_stations_sheet_turns_its_check_red(tmp_path):
     assert checks == {"Northfield": "OK: every wind is there",
                       "Eastmoor": "CHECK: 1 blank wind value(s): the fit reads 0 (note above)",
                       "Southvale": "OK: every wind is there"}, checks
+
+
+def test_a_station_moved_on_the_stations_sheet_moves_the_plane_and_the_fit(tmp_path):
+    # Eastmoor's latitude 45.85 -> 46.35 and Southvale's longitude -32.30 -> -32.00 on the
+    # station list: the centroid, x, y and the north angles are live formulas, so the fit,
+    # divergence per level and every result follow as layercalc computes the moved network.
+    text = next(p for p in WORKED if p.name == "three_stations.layers").read_text()
+    edits = (('station "Eastmoor" latitude 45.85', 'station "Eastmoor" latitude 46.35'),
+             ('station "Southvale" latitude 44.70 longitude -32.30',
+              'station "Southvale" latitude 44.70 longitude -32.00'))
+    sheet, edited_text, path, untouched = edited_and_exported(tmp_path, text, edits, "moved")
+    workbook = load_workbook(path)
+    ws = workbook["stations"]
+    rows = {ws.cell(r, 1).value: r for r in range(6, 9)}
+    assert ws.cell(rows["Eastmoor"], 2).value == 45.85
+    assert ws.cell(rows["Southvale"], 3).value == -32.3
+    ws.cell(rows["Eastmoor"], 2).value = 46.35
+    ws.cell(rows["Southvale"], 3).value = -32.0
+    workbook.save(path)
+    assert_follows(tmp_path, path, untouched, sheet, edited_text,
+                   {"omega_bottom", "surface_pressure_tendency"})
+    calc = load_workbook(tmp_path / "out" / "moved.xlsx", data_only=True)["stations"]
+    want = layercalc.loads(edited_text, name="edited.layers").checked.soundings.network
+    from layercalc.physics.stations import tangent_plane_coordinates
+
+    latitudes = [calc.cell(r, 2).value for r in sorted(rows.values())]
+    longitudes = [calc.cell(r, 3).value for r in sorted(rows.values())]
+    x, y, angle = tangent_plane_coordinates(latitudes, longitudes, want.centroid_latitude,
+                                            want.centroid_longitude)
+    for column, expected in ((4, x), (5, y), (6, np.rad2deg(angle))):
+        got = [calc.cell(r, column).value for r in sorted(rows.values())]
+        # source: layercalc's own plane (physics/stations.py) about the moved network's
+        # centroid; the sheet's formulas are independent of it
+        assert np.allclose(got, expected, rtol=1e-12, atol=1e-9), (column, got, expected)

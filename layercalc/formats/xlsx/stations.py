@@ -5,10 +5,11 @@ level where a station has no wind is fitted over the others, network_fit.py); ot
 the workbook keeps the layer means as inputs (see README). Layout, rows from the top:
     notes; the geometry block `station | latitude [deg] | longitude [deg] | x [m] | y [m]
     | north angle [deg] | x - mean [m] | y - mean [m]` (latitude and longitude as typed,
-    read back on import; x, y and the north angle are FIXED values layercalc computed:
-    the stereographic plane about the spherical centroid and the bearing of each
-    station's north on it, physics.stations.tangent_plane_coordinates); the sums of the
-    centred positions; then each station's levels table as typed (`station | name`, the
+    read back on import; x, y and the north angle are live formulas of them: the
+    stereographic plane about the spherical centroid and the bearing of each station's
+    north on it, as physics.stations.tangent_plane_coordinates computes them,
+    plane_formulas); the sums of the centred positions, and beside them the centroid
+    (centroid_formulas); then each station's levels table as typed (`station | name`, the
     header `name [unit]`, one row per level, SURFACE FIRST, blank for a missing value);
     then the fit, right of the station tables (from column len(GEOMETRY_HEADER) + 2, the
     mark FIT_MARK in the geometry header's row), in three blocks stacked whose header rows
@@ -66,16 +67,15 @@ def stations_sheet(ws, checked, found, tables: list | None = None,
     level's divergence in s^-1. `tables` receives, per station, (first level's row,
     column names) of its table as typed; `printed` False leaves out the print area and
     page breaks (a hidden sheet: LibreOffice prints a hidden sheet that has a print area)."""
-    from layercalc.physics import stations as station_physics
 
     stations, network = found
     n = len(stations)
     notes = ("Station network: the winds are live. Change a station's dir or speed (or u, v) "
              "in its table below and divergence, vorticity, the layers' div, omega and the "
              "tendency recalculate.",
-             "x, y and the north angle are FIXED values layercalc computed from the positions "
-             "(stereographic plane about the stations' centroid): editing a latitude or "
-             "longitude does not move a station here; edit the .layers file and export again.",
+             "x, y and the north angle are live: the stereographic plane about the stations' "
+             "spherical centroid (below the list), as layercalc computes them; edit a latitude "
+             "or longitude and the station moves, and the fit with it.",
              "Each station's levels are listed surface first; T, Td and z are read back on "
              "import (the layers sheet's T and Td are live station means, or with a levels "
              "table formulas of that table). A wind blanked here counts as 0 in the fit, "
@@ -84,26 +84,29 @@ def stations_sheet(ws, checked, found, tables: list | None = None,
     for row, text in enumerate(notes, start=1):
         put_text(ws.cell(row, 1), text)
         style(ws.cell(row, 1), "note")
-    lat = np.array([s.latitude for s in stations])
-    lon = np.array([s.longitude for s in stations])
-    x, y, angle = station_physics.tangent_plane_coordinates(
-        lat, lon, network.centroid_latitude, network.centroid_longitude)
     top = GEOMETRY_HEADER_ROW
     for j, text in enumerate(GEOMETRY_HEADER, start=1):
         put_text(ws.cell(top, j), text)
         style(ws.cell(top, j), "header")
     first, last = top + 1, top + n
+    sums = last + 2
+    centre = (f"$F${sums}", f"$F${sums + 1}")
     for i, st in enumerate(stations):
         r = top + 1 + i
         put_text(ws.cell(r, 1), st.name)
         ws.cell(r, 2, st.latitude)
         ws.cell(r, 3, st.longitude)
-        put_number(ws.cell(r, 4), float(x[i]), "0")  # shown to the metre, stored in full
-        put_number(ws.cell(r, 5), float(y[i]), "0")
-        put_number(ws.cell(r, 6), float(np.rad2deg(angle[i])), "0.000")
+        plane = plane_formulas(f"$B{r}", f"$C{r}", *centre)
+        for j, (formula, shown) in enumerate(zip(plane, ("0", "0", "0.000")), start=4):
+            put_number(ws.cell(r, j), "=" + formula, shown)  # shown rounded, stored in full
         put_number(ws.cell(r, 7), f"=D{r}-AVERAGE(D${first}:D${last})", "0")
         put_number(ws.cell(r, 8), f"=E{r}-AVERAGE(E${first}:E${last})", "0")
-    sums = last + 2
+    for k, (label, formula) in enumerate(zip(("centre latitude [deg]",
+                                              "centre longitude [deg]"),
+                                             centroid_formulas(f"B{first}:B{last}",
+                                                               f"C{first}:C{last}"))):
+        put_text(ws.cell(sums + k, 4), label)
+        put_number(ws.cell(sums + k, 6), "=" + formula, "0.000")
     texts = (("Sxx [m^2]", f"=SUMPRODUCT(G{first}:G{last},G{first}:G{last})"),
              ("Syy [m^2]", f"=SUMPRODUCT(H{first}:H{last},H{first}:H{last})"),
              ("Sxy [m^2]", f"=SUMPRODUCT(G{first}:G{last},H{first}:H{last})"),
@@ -247,6 +250,45 @@ def stations_sheet(ws, checked, found, tables: list | None = None,
     if printed:
         ws.print_area = f"A1:{letter(last_column)}{row - 2}"
     return divergence_cells
+
+
+def centroid_formulas(latitudes: str, longitudes: str) -> tuple[str, str]:
+    """The stations' spherical centroid (physics.stations.spherical_centroid) as formulas of
+    their latitude and longitude ranges [deg]: the normalised sum of the unit vectors.
+    Spreadsheet ATAN2 takes (x, y), numpy's arctan2 (y, x)."""
+    phi, lam = f"RADIANS({latitudes})", f"RADIANS({longitudes})"
+    sx = f"SUMPRODUCT(COS({phi}),COS({lam}))"
+    sy = f"SUMPRODUCT(COS({phi}),SIN({lam}))"
+    sz = f"SUMPRODUCT(SIN({phi}))"
+    return (f"DEGREES(ASIN({sz}/SQRT({sx}^2+{sy}^2+{sz}^2)))", f"DEGREES(ATAN2({sx},{sy}))")
+
+
+def plane_formulas(latitude: str, longitude: str, centre_latitude: str,
+                   centre_longitude: str) -> tuple[str, str, str]:
+    """x [m], y [m] and the north angle [deg] of a station on the stereographic plane about
+    the centre, as formulas of its cells (physics.stations.tangent_plane_coordinates, whose
+    docstring has the formulas and Snyder's reference). The north angle, there computed by
+    transporting local north n along the great circle to the centre,
+    T n = n - a (P + C) with a = (C . n) / (1 + P . C), gamma = atan2(T n . e0, T n . n0),
+    is written out in the angles: with d = lam - lam0 and cos c = P . C,
+        C . n = cos phi sin phi0 - sin phi cos phi0 cos d
+        T n . e0 = -(sin phi + a cos phi) sin d
+        T n . n0 = sin phi sin phi0 cos d + cos phi cos phi0
+                   - a (sin phi cos phi0 - cos phi sin phi0 cos d)."""
+    from layercalc.constants import EARTH_MEAN_RADIUS
+
+    phi, lam = f"RADIANS({latitude})", f"RADIANS({longitude})"
+    phi0 = f"RADIANS({centre_latitude})"
+    d = f"({lam}-RADIANS({centre_longitude}))"
+    cos_c = f"(SIN({phi0})*SIN({phi})+COS({phi0})*COS({phi})*COS({d}))"
+    k = f"{number_text(EARTH_MEAN_RADIUS)}*2/(1+{cos_c})"
+    x = f"{k}*COS({phi})*SIN({d})"
+    y = f"{k}*(COS({phi0})*SIN({phi})-SIN({phi0})*COS({phi})*COS({d}))"
+    a = f"(COS({phi})*SIN({phi0})-SIN({phi})*COS({phi0})*COS({d}))/(1+{cos_c})"
+    east = f"-(SIN({phi})+{a}*COS({phi}))*SIN({d})"
+    north = (f"SIN({phi})*SIN({phi0})*COS({d})+COS({phi})*COS({phi0})"
+             f"-{a}*(SIN({phi})*COS({phi0})-COS({phi})*SIN({phi0})*COS({d}))")
+    return x, y, f"DEGREES(ATAN2({north},{east}))"
 
 
 def heading_units(table) -> dict:
