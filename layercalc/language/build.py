@@ -186,7 +186,8 @@ class _Builder:
     def station(self, tree) -> Station:
         name, lat, lon, table = tree.children
         return Station(self.span(tree), _unquote(name), float(lat.children[0]),
-                       float(lon.children[0]), self.table(table))
+                       float(lon.children[0]), self.table(table), self.span(lat),
+                       self.span(lon))
 
     # ---- expressions ----
     def expr(self, tree):

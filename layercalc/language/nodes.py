@@ -240,6 +240,8 @@ class Station:
     latitude: float
     longitude: float
     table: Table
+    latitude_span: Optional[Span] = None   # the numbers as written, for errors about them
+    longitude_span: Optional[Span] = None
 
 
 Statement = Union[Title, Note, Option, Definition, Table, Scenario, Station]

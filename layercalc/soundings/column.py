@@ -139,9 +139,10 @@ def _read_network(checker, stations: list[Station]) -> _Network:
             raise DefinitionError(f'station "{st.name}" appears twice', st.span,
                                   hint="give each station its own name")
         if not (-90.0 <= st.latitude <= 90.0 and -180.0 <= st.longitude <= 360.0):
+            wrong = st.latitude_span if not -90.0 <= st.latitude <= 90.0 else st.longitude_span
             raise DefinitionError(
                 f'station "{st.name}" is at latitude {st.latitude:g}, longitude '
-                f"{st.longitude:g}", st.span,
+                f"{st.longitude:g}", wrong or st.span,
                 hint="latitude from -90 to 90 (north positive), longitude from -180 to 360 "
                      "(east positive), in degrees")
         for other in stations[:i]:

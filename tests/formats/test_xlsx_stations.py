@@ -61,6 +61,18 @@ def test_a_network_with_a_missing_wind_is_live_too(tmp_path):
     assert "'stations'!" in layers.cell(2, column).value
 
 
+def test_a_latitude_beyond_the_pole_is_reported_at_its_cell(tmp_path):
+    path, workbook = exported(tmp_path)
+    stations = workbook["stations"]
+    row = [c.row for c in stations["A"] if c.value == "Eastmoor"][0]  # the station list
+    stations.cell(row, 2).value = 95.85
+    workbook.save(path)
+    with pytest.raises(SpreadsheetError) as caught:
+        import_workbook(path, layercalc.loads)
+    assert f"stations!B{row}:" in caught.value.format()
+    assert "is at latitude 95.85" in caught.value.format()
+
+
 def test_text_in_a_wind_cell_is_reported_at_its_cell(tmp_path):
     path, workbook = exported(tmp_path)
     stations = workbook["stations"]
