@@ -171,7 +171,7 @@ def check_target(sheet, change, soundings) -> None:
         raise DefinitionError(f"the stations' {target} is used only for their hydrostatic "
                               "check: the levels table gives the column's "
                               f"{target}", change.target_span,
-                              hint=f"change it with 'at levels'")
+                              hint="change it with 'at levels'")
 
 
 def check_amount(checker, sheet, change, unit) -> object:

@@ -61,40 +61,40 @@ def test_a_network_with_a_missing_wind_is_live_too(tmp_path):
     assert "'stations'!" in layers.cell(2, column).value
 
 
-def test_a_latitude_beyond_the_pole_is_reported_at_its_cell(tmp_path):
+def refused_at(tmp_path, find_row, column: int, value) -> tuple[int, str]:
+    """The three-station workbook with `value` typed into the stations sheet at (the row
+    `find_row(sheet)` gives, `column`): (that row, the import error's text)."""
     path, workbook = exported(tmp_path)
     stations = workbook["stations"]
-    row = [c.row for c in stations["A"] if c.value == "Eastmoor"][0]  # the station list
-    stations.cell(row, 2).value = 95.85
+    row = find_row(stations)
+    stations.cell(row, column).value = value
     workbook.save(path)
     with pytest.raises(SpreadsheetError) as caught:
         import_workbook(path, layercalc.loads)
-    assert f"stations!B{row}:" in caught.value.format()
-    assert "is at latitude 95.85" in caught.value.format()
+    return row, caught.value.format()
+
+
+def marks(stations) -> list[int]:
+    return [c.row for c in stations["A"] if c.value == STATION_MARK]
+
+
+def test_a_latitude_beyond_the_pole_is_reported_at_its_cell(tmp_path):
+    row, text = refused_at(tmp_path, lambda ws: [c.row for c in ws["A"]
+                                                 if c.value == "Eastmoor"][0], 2, 95.85)
+    assert f"stations!B{row}:" in text  # the station list's latitude cell
+    assert "is at latitude 95.85" in text
 
 
 def test_text_in_a_wind_cell_is_reported_at_its_cell(tmp_path):
-    path, workbook = exported(tmp_path)
-    stations = workbook["stations"]
-    row = [c.row for c in stations["A"] if c.value == STATION_MARK][2] + 2  # Eastmoor 1000
-    stations.cell(row, 5).value = "calm"
-    workbook.save(path)
-    with pytest.raises(SpreadsheetError) as caught:
-        import_workbook(path, layercalc.loads)
-    assert f"stations!E{row}" in caught.value.format()
-    assert "'calm' is not a number" in caught.value.format()
+    row, text = refused_at(tmp_path, lambda ws: marks(ws)[2] + 2, 5, "calm")  # Eastmoor 1000
+    assert f"stations!E{row}" in text
+    assert "'calm' is not a number" in text
 
 
 def test_a_station_missing_from_the_list_is_reported(tmp_path):
-    path, workbook = exported(tmp_path)
-    stations = workbook["stations"]
-    row = [c.row for c in stations["A"] if c.value == STATION_MARK][3]  # Southvale's table
-    stations.cell(row, 2).value = "Westvale"
-    workbook.save(path)
-    with pytest.raises(SpreadsheetError) as caught:
-        import_workbook(path, layercalc.loads)
-    assert f"stations!B{row}" in caught.value.format()
-    assert "station 'Westvale' is not in the station list" in caught.value.format()
+    row, text = refused_at(tmp_path, lambda ws: marks(ws)[3], 2, "Westvale")  # Southvale's
+    assert f"stations!B{row}" in text
+    assert "station 'Westvale' is not in the station list" in text
 
 
 def test_the_stations_sheet_prints_readably_with_every_computed_cell_formatted(tmp_path):

@@ -74,6 +74,13 @@ def red_when(ws, reference: str, condition: str) -> None:
         font=Font(bold=True, color="FFFFFF")))
 
 
+def put_notes(ws, lines) -> None:
+    """A sheet's notes in column A from row 1, one line each, in the note style."""
+    for row, text in enumerate(lines, start=1):
+        put_text(ws.cell(row, 1), text)
+        style(ws.cell(row, 1), "note")
+
+
 def put_check(ws, row: int, column: int, check: tuple[str, str]) -> None:
     """A check cell: its formula (OK/CHECK text) and the condition that turns it red."""
     formula, condition = check

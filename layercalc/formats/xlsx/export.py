@@ -32,8 +32,6 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
-import numpy as np
-
 from layercalc.errors import OutputError
 from layercalc.language.typed import CELL, references
 from layercalc.formats.xlsx.cells import letter, put_text, red_when, size_columns, style

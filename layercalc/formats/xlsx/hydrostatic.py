@@ -20,7 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from layercalc import constants as C
-from layercalc.formats.xlsx.cells import letter, put_text, red_when, size_columns, style
+from layercalc.formats.xlsx.cells import letter, put_notes, put_text, red_when, size_columns, style
 from layercalc.formats.xlsx.formulas import (
     from_si, hypsometric_thickness_text, mixing_ratio_text, number_text,
     saturation_vapour_pressure_text, to_si, virtual_temperature_text,
@@ -136,9 +136,7 @@ def hydrostatic_sheet(workbook, soundings: list[Placed], details) -> None:
              "temperature); this sheet does not.",
              "The check is for the reported sounding; the layers and results do not use the "
              "heights (they start at surface_height).")
-    for row, text in enumerate(notes, start=1):
-        put_text(ws.cell(row, 1), text)
-        style(ws.cell(row, 1), "note")
+    put_notes(ws, notes)
     put_text(ws.cell(TOLERANCE_ROW, 1), "tolerance [m]")
     style(ws.cell(TOLERANCE_ROW, 1), "name")
     ws.cell(TOLERANCE_ROW, 2, float(details.hydrostatic_tolerance))

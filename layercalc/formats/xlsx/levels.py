@@ -18,7 +18,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from layercalc.formats.xlsx.cells import letter, put_check, put_text, style, values_check
+from layercalc.formats.xlsx.cells import (letter, put_check, put_notes, put_text, style,
+                                         values_check)
 from layercalc.formats.xlsx.column_levels import (
     ColumnFormulas, column_structure, gap_filled, surface_block,
 )
@@ -84,9 +85,7 @@ def levels_sheet(ws, live: LiveLevels) -> dict:
              "'layers' (the mean of each layer's two levels) and the results recalculate.",
              "Adding or removing a level needs a new export; z and the winds are read back "
              "on import; the hydrostatic check of the heights is live on 'hydrostatic'.")
-    for row, text in enumerate(notes, start=1):
-        put_text(ws.cell(row, 1), text)
-        style(ws.cell(row, 1), "note")
+    put_notes(ws, notes)
     units = heading_units(table)
     places = {}
     for j, heading in enumerate(table.headings, start=1):

@@ -19,7 +19,7 @@ unhide one to watch the scenario's fit.
 
 from __future__ import annotations
 
-from layercalc.formats.xlsx.cells import letter, put_text, style
+from layercalc.formats.xlsx.cells import letter, put_notes, style
 from layercalc.formats.xlsx.formulas import Translator, from_si, stepped, to_si
 
 MAX_SHEET_NAME = 31  # Excel's limit on sheet names
@@ -105,12 +105,6 @@ def _replay(ws, base_sheet: str, changes, index: int, sounding, first_row: int,
             style(cell, "changed")
 
 
-def _notes(ws, lines) -> None:
-    for row, text in enumerate(lines, start=1):
-        put_text(ws.cell(row, 1), text)
-        style(ws.cell(row, 1), "note")
-
-
 def _scenario_sheets(workbook, checked, found, variant, changes) -> None:
     """The scenario's copies of the sheets its changes touch, and its rebuilt inputs."""
     from dataclasses import replace
@@ -155,7 +149,7 @@ def _stations_copy(workbook, checked, network, variant, changes, offset, amount_
     ws = workbook.create_sheet(name)
     tables: list = []  # the layout is the base sheet's, cell for cell
     cells = stations_sheet(ws, checked, network, tables, printed=False)
-    _notes(ws, (f"Scenario {variant.name} (a hidden sheet, not printed): the stations as the "
+    put_notes(ws, (f"Scenario {variant.name} (a hidden sheet, not printed): the stations as the "
                 "scenario changes them. Every value links to the same cell of 'stations'; a "
                 "changed one (shaded) replays the scenario's change on it, reading the "
                 f"what-if cells through '{variant.sheet_name}'.",
@@ -180,7 +174,7 @@ def _levels_copy(workbook, checked, live, variant, changes, amount_text):
     name = _sheet_name(workbook, SHEET, variant.name)
     ws = workbook.create_sheet(name)
     places = levels_sheet(ws, live)
-    _notes(ws, (f"Scenario {variant.name} (a hidden sheet, not printed): the levels as the "
+    put_notes(ws, (f"Scenario {variant.name} (a hidden sheet, not printed): the levels as the "
                 "scenario changes them. Every value links to the same cell of 'levels'; a "
                 "changed one (shaded) replays the scenario's change on it, reading the "
                 f"what-if cells through '{variant.sheet_name}'.",

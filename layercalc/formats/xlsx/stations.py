@@ -27,8 +27,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from layercalc.formats.xlsx.cells import (SCIENTIFIC, letter, put_check, put_number, put_text, style,
-                                         values_check)
+from layercalc.formats.xlsx.cells import (SCIENTIFIC, letter, put_check, put_notes, put_number,
+                                         put_text, style, values_check)
 from layercalc.formats.xlsx.formulas import from_si, number_format, number_text, to_si
 
 SHEET = "stations"
@@ -81,9 +81,7 @@ def stations_sheet(ws, checked, found, tables: list | None = None,
              "table formulas of that table). A wind blanked here counts as 0 in the fit, "
              "while layercalc leaves that station out of the level's fit: the check beside "
              "the station's name turns red; type the wind or export again.")
-    for row, text in enumerate(notes, start=1):
-        put_text(ws.cell(row, 1), text)
-        style(ws.cell(row, 1), "note")
+    put_notes(ws, notes)
     top = GEOMETRY_HEADER_ROW
     for j, text in enumerate(GEOMETRY_HEADER, start=1):
         put_text(ws.cell(top, j), text)

@@ -143,7 +143,7 @@ def _layer_table(ws, row, checked, assessment, links) -> int:
                        formats[name])
             style(ws.cell(r, j), "static")
         if live is not None:
-            term, total = letter(len(shown) + 2), letter(len(shown) + 3)
+            term = letter(len(shown) + 2)
             put_number(ws.cell(r, len(shown) + 2), live["term"](k), omega_format)
             rows = live["rows"](k, first)
             put_number(ws.cell(r, len(shown) + 3),
